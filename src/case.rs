@@ -1,0 +1,582 @@
+//! The case file: what to read, which offsets to try, which methods to use, where to write.
+//!
+//! TOML, documented in README.md ("The case file"). Unknown keys are errors, so a misspelt
+//! setting never silently falls back to a default. Paths are relative to the case file's folder.
+//! A case lists its model runs as `[[member]]` tables; this version runs one member per case.
+
+use crate::diagnose::{Methods, PtypeMethod, SlrMethod};
+use crate::scenario::{parse_offsets, OffsetError};
+use crate::shift::Taper;
+use serde::Deserialize;
+use std::path::{Path, PathBuf};
+
+/// Why a case cannot be run.
+#[derive(Debug, thiserror::Error)]
+pub enum CaseError {
+    /// The case file could not be read.
+    #[error("{path}: cannot read the case file: {source}")]
+    Io {
+        /// The case file.
+        path: PathBuf,
+        /// The cause.
+        source: std::io::Error,
+    },
+    /// TOML syntax, an unknown key or a value of the wrong type.
+    #[error("{path}: {message}")]
+    Syntax {
+        /// The case file.
+        path: PathBuf,
+        /// The parser's message, with line and column.
+        message: String,
+    },
+    /// A setting has a value that cannot work.
+    #[error("{path}: '{field}': {what}")]
+    Invalid {
+        /// The case file (or `command line`).
+        path: PathBuf,
+        /// The setting, e.g. `offsets.cross_km` or `member[0].steps[3]`.
+        field: String,
+        /// What is wrong and what was expected.
+        what: String,
+    },
+}
+
+/// An offset list: a range/list string (`"-100:100:10"`) or an array of numbers.
+#[derive(Debug, Deserialize, Clone)]
+#[serde(untagged)]
+pub enum OffsetList {
+    /// `"-100:100:10"`, `"-50,0,50"`.
+    Text(String),
+    /// `[-50, 0, 50]`.
+    Numbers(Vec<f64>),
+}
+
+/// A list of step files or a pattern with one `*` in the file name.
+#[derive(Debug, Deserialize, Clone)]
+#[serde(untagged)]
+pub enum StepFiles {
+    /// `"fields/step_*.tif"`, expanded in name order.
+    Pattern(String),
+    /// Explicit files in time order.
+    List(Vec<String>),
+}
+
+/// One model run (a model, or one cycle of it).
+#[derive(Debug, Deserialize, Clone)]
+#[serde(deny_unknown_fields)]
+pub struct MemberFile {
+    /// A short name for tables and the manifest.
+    pub name: String,
+    /// GeoTIFF with `surface_altitude`, m.
+    pub terrain: String,
+    /// One GeoTIFF per time step.
+    pub steps: StepFiles,
+    /// Storm track (CSV or GeoJSON); needed unless only the zero offset is run.
+    pub track: Option<String>,
+}
+
+/// `[offsets]`.
+#[derive(Debug, Deserialize, Clone, Default)]
+#[serde(deny_unknown_fields)]
+pub struct OffsetsFile {
+    /// Cross-track offsets, km, positive to the left of the motion.
+    pub cross_km: Option<OffsetList>,
+    /// Along-track offsets, km, positive ahead.
+    pub along_km: Option<OffsetList>,
+}
+
+/// `[shift]`.
+#[derive(Debug, Deserialize, Clone, Default)]
+#[serde(deny_unknown_fields)]
+pub struct ShiftFile {
+    /// Full displacement within this distance of the low centre, km.
+    pub core_radius_km: Option<f64>,
+    /// No displacement beyond this distance, km.
+    pub outer_radius_km: Option<f64>,
+    /// Lapse rate for moving 2 m temperature over different terrain, K/km.
+    pub lapse_rate_k_per_km: Option<f64>,
+}
+
+/// `[methods]`.
+#[derive(Debug, Deserialize, Clone, Default)]
+#[serde(deny_unknown_fields)]
+pub struct MethodsFile {
+    /// `energy-area`.
+    pub precip_type: Option<String>,
+    /// `fixed` or `max-column-temperature`.
+    pub snow_ratio: Option<String>,
+    /// The ratio for `fixed`.
+    pub fixed_ratio: Option<f64>,
+}
+
+/// `[output]`.
+#[derive(Debug, Deserialize, Clone, Default)]
+#[serde(deny_unknown_fields)]
+pub struct OutputFile {
+    /// Output folder.
+    pub folder: Option<String>,
+    /// `metric` (cm, mm) or `us` (inches).
+    pub units: Option<String>,
+}
+
+/// The case file as written.
+#[derive(Debug, Deserialize, Clone)]
+#[serde(deny_unknown_fields)]
+pub struct CaseFile {
+    /// What the case is.
+    pub title: String,
+    /// Towns CSV (`name,lat,lon`).
+    pub towns: Option<String>,
+    /// The model runs.
+    pub member: Vec<MemberFile>,
+    /// Offsets to explore.
+    #[serde(default)]
+    pub offsets: OffsetsFile,
+    /// How the displacement is spread.
+    #[serde(default)]
+    pub shift: ShiftFile,
+    /// Methods.
+    #[serde(default)]
+    pub methods: MethodsFile,
+    /// Outputs.
+    #[serde(default)]
+    pub output: OutputFile,
+}
+
+/// Output units.
+#[derive(Clone, Copy, Debug, PartialEq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Units {
+    /// Snowfall in cm, liquid in mm.
+    Metric,
+    /// Snowfall and liquid in inches.
+    Us,
+}
+
+impl Units {
+    /// Parses `metric` or `us`.
+    pub fn parse(s: &str) -> Option<Self> {
+        match s.trim().to_ascii_lowercase().as_str() {
+            "metric" => Some(Self::Metric),
+            "us" => Some(Self::Us),
+            _ => None,
+        }
+    }
+    /// Converts snow depth from mm to the output unit.
+    pub fn snow(&self, mm: f32) -> f32 {
+        match self {
+            Self::Metric => mm / 10.0,
+            Self::Us => mm / 25.4,
+        }
+    }
+    /// Converts liquid depth from mm (kg m⁻²) to the output unit.
+    pub fn liquid(&self, mm: f32) -> f32 {
+        match self {
+            Self::Metric => mm,
+            Self::Us => mm / 25.4,
+        }
+    }
+    /// Unit of snow depth.
+    pub fn snow_unit(&self) -> &'static str {
+        match self {
+            Self::Metric => "cm",
+            Self::Us => "in",
+        }
+    }
+    /// Unit of liquid depth.
+    pub fn liquid_unit(&self) -> &'static str {
+        match self {
+            Self::Metric => "mm",
+            Self::Us => "in",
+        }
+    }
+}
+
+/// One member with its files resolved and checked to exist.
+#[derive(Clone, Debug)]
+pub struct Member {
+    /// Name.
+    pub name: String,
+    /// Terrain GeoTIFF.
+    pub terrain: PathBuf,
+    /// Step GeoTIFFs in time order.
+    pub steps: Vec<PathBuf>,
+    /// Track file.
+    pub track: Option<PathBuf>,
+}
+
+/// Settings given on the command line, which win over the case file.
+#[derive(Clone, Debug, Default)]
+pub struct Overrides {
+    /// `--cross`.
+    pub cross: Option<String>,
+    /// `--along`.
+    pub along: Option<String>,
+    /// `--out`.
+    pub out: Option<PathBuf>,
+    /// `--units`.
+    pub units: Option<String>,
+    /// `--snow-ratio`.
+    pub snow_ratio: Option<String>,
+}
+
+/// A case ready to run.
+#[derive(Clone, Debug)]
+pub struct Case {
+    /// The case file.
+    pub path: PathBuf,
+    /// Title.
+    pub title: String,
+    /// The member to run.
+    pub member: Member,
+    /// Towns CSV.
+    pub towns: Option<PathBuf>,
+    /// Cross-track offsets, km.
+    pub cross_km: Vec<f64>,
+    /// Along-track offsets, km.
+    pub along_km: Vec<f64>,
+    /// Displacement taper.
+    pub taper: Taper,
+    /// Methods.
+    pub methods: Methods,
+    /// Output folder.
+    pub out_dir: PathBuf,
+    /// Output units.
+    pub units: Units,
+}
+
+/// Default core radius, km: the displacement is complete over the low's circulation and
+/// precipitation shield close to the centre (a synoptic low's cloud shield spans several hundred
+/// km, common practice).
+pub const DEFAULT_CORE_KM: f64 = 500.0;
+/// Default outer radius, km: beyond this the far field stays as modelled.
+pub const DEFAULT_OUTER_KM: f64 = 1500.0;
+
+impl Case {
+    /// Reads, checks and resolves a case file with command-line overrides.
+    pub fn load(path: &Path, over: &Overrides) -> Result<Self, CaseError> {
+        let text = std::fs::read_to_string(path).map_err(|source| CaseError::Io {
+            path: path.to_path_buf(),
+            source,
+        })?;
+        let file: CaseFile = toml::from_str(&text).map_err(|e| CaseError::Syntax {
+            path: path.to_path_buf(),
+            message: e.to_string().trim_end().replace('\n', " "),
+        })?;
+        Self::resolve(path, file, over)
+    }
+
+    fn resolve(path: &Path, file: CaseFile, over: &Overrides) -> Result<Self, CaseError> {
+        let dir = path.parent().unwrap_or(Path::new("."));
+        let invalid = |field: &str, what: String| CaseError::Invalid {
+            path: path.to_path_buf(),
+            field: field.to_string(),
+            what,
+        };
+        let existing = |field: &str, rel: &str| -> Result<PathBuf, CaseError> {
+            let p = dir.join(rel);
+            if p.is_file() {
+                Ok(p)
+            } else {
+                Err(invalid(
+                    field,
+                    format!("file '{}' does not exist", p.display()),
+                ))
+            }
+        };
+        let m = match file.member.as_slice() {
+            [] => return Err(invalid("member", "the case lists no [[member]]".into())),
+            [m] => m.clone(),
+            more => {
+                return Err(invalid(
+                    "member",
+                    format!(
+                        "the case lists {} members; this version runs one member per case (split them into one case each)",
+                        more.len()
+                    ),
+                ))
+            }
+        };
+        let steps = match &m.steps {
+            StepFiles::List(list) => list
+                .iter()
+                .enumerate()
+                .map(|(i, s)| existing(&format!("member[0].steps[{i}]"), s))
+                .collect::<Result<Vec<_>, _>>()?,
+            StepFiles::Pattern(p) => {
+                expand_pattern(dir, p).map_err(|what| invalid("member[0].steps", what))?
+            }
+        };
+        if steps.is_empty() {
+            return Err(invalid("member[0].steps", "no step files listed".into()));
+        }
+        let member = Member {
+            name: m.name.clone(),
+            terrain: existing("member[0].terrain", &m.terrain)?,
+            steps,
+            track: m
+                .track
+                .as_deref()
+                .map(|t| existing("member[0].track", t))
+                .transpose()?,
+        };
+        let towns = file
+            .towns
+            .as_deref()
+            .map(|t| existing("towns", t))
+            .transpose()?;
+
+        let offsets = |field: &str, cli: &Option<String>, case: &Option<OffsetList>| {
+            let cli_field = format!("--{}", field.trim_end_matches("_km"));
+            let (text, source) = match (cli, case) {
+                (Some(c), _) => (c.clone(), cli_field),
+                (None, Some(OffsetList::Text(t))) => (t.clone(), format!("offsets.{field}")),
+                (None, Some(OffsetList::Numbers(v))) => (
+                    v.iter()
+                        .map(|x| x.to_string())
+                        .collect::<Vec<_>>()
+                        .join(","),
+                    format!("offsets.{field}"),
+                ),
+                (None, None) => ("0".to_string(), format!("offsets.{field}")),
+            };
+            parse_offsets(&text).map_err(|e: OffsetError| invalid(&source, e.to_string()))
+        };
+        let cross_km = offsets("cross_km", &over.cross, &file.offsets.cross_km)?;
+        let along_km = offsets("along_km", &over.along, &file.offsets.along_km)?;
+        let only_zero = cross_km.iter().chain(&along_km).all(|v| *v == 0.0);
+        if member.track.is_none() && !only_zero {
+            return Err(invalid(
+                "member[0].track",
+                "offsets other than 0 need the storm track (a CSV or GeoJSON file)".into(),
+            ));
+        }
+
+        let core = file.shift.core_radius_km.unwrap_or(DEFAULT_CORE_KM);
+        let outer = file.shift.outer_radius_km.unwrap_or(DEFAULT_OUTER_KM);
+        if !(core >= 0.0 && outer > core && outer.is_finite()) {
+            return Err(invalid(
+                "shift",
+                format!("need 0 ≤ core_radius_km < outer_radius_km, got {core} and {outer}"),
+            ));
+        }
+        let lapse = file.shift.lapse_rate_k_per_km.unwrap_or(6.5);
+        if !(0.0..=12.0).contains(&lapse) {
+            return Err(invalid(
+                "shift.lapse_rate_k_per_km",
+                format!("{lapse} K/km is outside 0…12 K/km (the standard atmosphere uses 6.5)"),
+            ));
+        }
+
+        let ptype = match file.methods.precip_type.as_deref().unwrap_or("energy-area") {
+            "energy-area" => PtypeMethod::EnergyArea,
+            other => {
+                return Err(invalid(
+                    "methods.precip_type",
+                    format!("'{other}' is not a method; expected energy-area"),
+                ))
+            }
+        };
+        let ratio = file.methods.fixed_ratio.unwrap_or(10.0);
+        if !(1.0..=50.0).contains(&ratio) {
+            return Err(invalid(
+                "methods.fixed_ratio",
+                format!("{ratio} is outside 1…50 (10 is the usual ratio)"),
+            ));
+        }
+        let (slr_text, slr_field) = match (&over.snow_ratio, &file.methods.snow_ratio) {
+            (Some(s), _) => (s.clone(), "--snow-ratio"),
+            (None, Some(s)) => (s.clone(), "methods.snow_ratio"),
+            (None, None) => ("fixed".to_string(), "methods.snow_ratio"),
+        };
+        let slr = match slr_text.as_str() {
+            "fixed" => SlrMethod::Fixed(ratio),
+            "max-column-temperature" => SlrMethod::MaxColumnTemperature,
+            other => {
+                return Err(invalid(
+                    slr_field,
+                    format!("'{other}' is not a method; expected fixed or max-column-temperature"),
+                ))
+            }
+        };
+
+        let (units_text, units_field) = match (&over.units, &file.output.units) {
+            (Some(u), _) => (u.clone(), "--units"),
+            (None, Some(u)) => (u.clone(), "output.units"),
+            (None, None) => ("metric".to_string(), "output.units"),
+        };
+        let units = Units::parse(&units_text).ok_or_else(|| {
+            invalid(
+                units_field,
+                format!("'{units_text}': expected metric or us"),
+            )
+        })?;
+        let out_dir = match (&over.out, &file.output.folder) {
+            (Some(o), _) => o.clone(),
+            (None, Some(f)) => dir.join(f),
+            (None, None) => dir.join("trackswing-out"),
+        };
+        Ok(Self {
+            path: path.to_path_buf(),
+            title: file.title,
+            member,
+            towns,
+            cross_km,
+            along_km,
+            taper: Taper {
+                core_radius_km: core,
+                outer_radius_km: outer,
+            },
+            methods: Methods {
+                ptype,
+                slr,
+                lapse_rate_k_per_m: lapse / 1000.0,
+            },
+            out_dir,
+            units,
+        })
+    }
+}
+
+/// Expands `folder/prefix*suffix` to the matching files, sorted by name.
+fn expand_pattern(dir: &Path, pattern: &str) -> Result<Vec<PathBuf>, String> {
+    let full = dir.join(pattern);
+    let name = full
+        .file_name()
+        .and_then(|n| n.to_str())
+        .ok_or_else(|| format!("'{pattern}' has no file name"))?
+        .to_string();
+    let parent = full.parent().unwrap_or(Path::new(".")).to_path_buf();
+    let Some((prefix, suffix)) = name.split_once('*') else {
+        let p = parent.join(&name);
+        return if p.is_file() {
+            Ok(vec![p])
+        } else {
+            Err(format!("file '{}' does not exist", p.display()))
+        };
+    };
+    if suffix.contains('*') || parent.to_string_lossy().contains('*') {
+        return Err(format!(
+            "'{pattern}': only one '*', in the file name, is supported"
+        ));
+    }
+    let entries = std::fs::read_dir(&parent)
+        .map_err(|e| format!("cannot list '{}': {e}", parent.display()))?;
+    let mut files: Vec<PathBuf> = entries
+        .filter_map(|e| e.ok())
+        .map(|e| e.path())
+        .filter(|p| p.is_file())
+        .filter(|p| {
+            p.file_name().and_then(|n| n.to_str()).is_some_and(|n| {
+                n.len() >= prefix.len() + suffix.len()
+                    && n.starts_with(prefix)
+                    && n.ends_with(suffix)
+            })
+        })
+        .collect();
+    files.sort();
+    if files.is_empty() {
+        return Err(format!(
+            "no file in '{}' matches '{name}'",
+            parent.display()
+        ));
+    }
+    Ok(files)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn setup(case: &str) -> (tempfile::TempDir, PathBuf) {
+        let d = tempfile::tempdir().unwrap();
+        std::fs::create_dir(d.path().join("f")).unwrap();
+        for f in [
+            "terrain.tif",
+            "f/s_01.tif",
+            "f/s_00.tif",
+            "track.csv",
+            "towns.csv",
+        ] {
+            std::fs::write(d.path().join(f), b"x").unwrap();
+        }
+        let p = d.path().join("case.toml");
+        std::fs::write(&p, case).unwrap();
+        (d, p)
+    }
+
+    const GOOD: &str = r#"
+title = "unit test"
+towns = "towns.csv"
+[[member]]
+name = "m"
+terrain = "terrain.tif"
+steps = "f/s_*.tif"
+track = "track.csv"
+[offsets]
+cross_km = "-20:20:10"
+along_km = [0, 50]
+[methods]
+snow_ratio = "max-column-temperature"
+"#;
+
+    #[test]
+    fn resolves_a_good_case() {
+        let (_d, p) = setup(GOOD);
+        let c = Case::load(&p, &Overrides::default()).unwrap();
+        assert_eq!(c.cross_km, vec![-20.0, -10.0, 0.0, 10.0, 20.0]);
+        assert_eq!(c.along_km, vec![0.0, 50.0]);
+        assert_eq!(c.member.steps.len(), 2);
+        assert!(c.member.steps[0].ends_with("f/s_00.tif"));
+        assert_eq!(c.methods.slr, SlrMethod::MaxColumnTemperature);
+        assert_eq!(c.taper.core_radius_km, DEFAULT_CORE_KM);
+        let over = Overrides {
+            cross: Some("0".into()),
+            units: Some("us".into()),
+            ..Default::default()
+        };
+        let c = Case::load(&p, &over).unwrap();
+        assert_eq!(c.cross_km, vec![0.0]);
+        assert_eq!(c.units, Units::Us);
+    }
+
+    #[test]
+    fn unknown_keys_and_bad_values_are_errors() {
+        let (_d, p) = setup(&GOOD.replace("[offsets]", "[offsets]\ncross = 3"));
+        let e = Case::load(&p, &Overrides::default())
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("unknown field") && e.contains("cross"), "{e}");
+        let (_d, p) = setup(&GOOD.replace("\"-20:20:10\"", "\"20:-20:10\""));
+        let e = Case::load(&p, &Overrides::default())
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("offsets.cross_km") && e.contains("end is before"),
+            "{e}"
+        );
+        let (_d, p) = setup(&GOOD.replace("track.csv", "nowhere.csv"));
+        let e = Case::load(&p, &Overrides::default())
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("member[0].track") && e.contains("does not exist"),
+            "{e}"
+        );
+        let (_d, p) = setup(&GOOD.replace("title = \"unit test\"", "title = 3"));
+        let e = Case::load(&p, &Overrides::default())
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("case.toml") && e.contains("title"), "{e}");
+        let (_d, p) = setup(GOOD);
+        let over = Overrides {
+            along: Some("0:10:0".into()),
+            ..Default::default()
+        };
+        let e = Case::load(&p, &over).unwrap_err().to_string();
+        assert!(
+            e.contains("--along") && e.contains("step must be positive"),
+            "{e}"
+        );
+    }
+}

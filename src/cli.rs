@@ -1,0 +1,105 @@
+//! Command-line arguments (stage one: raw flags, validated by clap) and their resolution into a
+//! plan the library runs (stage two: case loaded, overrides applied).
+
+use clap::{Args, Parser, Subcommand};
+use std::path::PathBuf;
+
+const ABOUT: &str = "How much does each place's snowfall depend on where the low tracks?
+
+trackswing takes a model's gridded forecast and its storm track, moves the track by many offsets \
+(left/right of the motion, ahead/behind), recomputes precipitation type and snowfall for every \
+offset, and writes GeoTIFF and GeoJSON layers and a towns table showing how much each total \
+depends on track error.
+
+Decision support for trained forecasters only: not an official forecast or warning. Defer to the \
+national weather service and local emergency management.";
+
+/// Parsed command line.
+#[derive(Parser, Debug)]
+#[command(name = "trackswing", version, about = ABOUT, long_about = ABOUT)]
+pub struct Cli {
+    /// What to do.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// Subcommands.
+#[derive(Subcommand, Debug)]
+pub enum Command {
+    /// Run a case file: shift the track by every offset and write the layers.
+    Run(RunArgs),
+    /// Run the shipped demo case (an invented storm over an invented region).
+    Demo(DemoArgs),
+    /// Write the invented demo storm's input files (used to build demo-grid/ and benchmark cases).
+    #[command(hide = true)]
+    MakeDemo(MakeDemoArgs),
+}
+
+/// Settings shared by `run` and `demo`.
+#[derive(Args, Debug, Clone)]
+pub struct Common {
+    /// Output folder (default: the case's [output] folder).
+    #[arg(long, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+    /// Cross-track offsets in km, positive to the left of the storm's motion: a value, a list
+    /// (-50,0,50) or a range (-100:100:10).
+    #[arg(long, value_name = "RANGE", allow_hyphen_values = true)]
+    pub cross: Option<String>,
+    /// Along-track offsets in km, positive ahead of the storm: a value, a list or a range.
+    #[arg(long, value_name = "RANGE", allow_hyphen_values = true)]
+    pub along: Option<String>,
+    /// Worker threads (default: all cores). Results are identical for any number.
+    #[arg(long, value_name = "N")]
+    pub threads: Option<usize>,
+    /// Units of the outputs: metric (cm of snow, mm of liquid) or us (inches).
+    #[arg(long, value_name = "metric|us")]
+    pub units: Option<String>,
+    /// Snow-to-liquid ratio method: fixed or max-column-temperature.
+    #[arg(long, value_name = "METHOD")]
+    pub snow_ratio: Option<String>,
+    /// Print nothing but errors.
+    #[arg(long, short)]
+    pub quiet: bool,
+}
+
+/// `trackswing run`.
+#[derive(Args, Debug)]
+pub struct RunArgs {
+    /// The case file (TOML).
+    #[arg(value_name = "CASE.toml")]
+    pub case: PathBuf,
+    /// Shared settings.
+    #[command(flatten)]
+    pub common: Common,
+}
+
+/// `trackswing demo`.
+#[derive(Args, Debug)]
+pub struct DemoArgs {
+    /// Shared settings.
+    #[command(flatten)]
+    pub common: Common,
+}
+
+/// `trackswing make-demo`.
+#[derive(Args, Debug)]
+pub struct MakeDemoArgs {
+    /// Folder to write the case into.
+    #[arg(long, value_name = "DIR")]
+    pub out: PathBuf,
+    /// Grid columns (default: the shipped demo's).
+    #[arg(long)]
+    pub nx: Option<usize>,
+    /// Grid rows.
+    #[arg(long)]
+    pub ny: Option<usize>,
+    /// Time steps.
+    #[arg(long)]
+    pub steps: Option<usize>,
+    /// Hours per step.
+    #[arg(long)]
+    pub step_hours: Option<u32>,
+    /// Isobaric levels.
+    #[arg(long)]
+    pub levels: Option<usize>,
+}

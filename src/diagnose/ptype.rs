@@ -1,0 +1,850 @@
+//! Precipitation-type fractions (snow, ice pellets, freezing rain, rain) from a temperature
+//! profile, from partial thicknesses, or from surface temperature and humidity.
+//!
+//! Every method returns fractions that vary continuously with its inputs (smoothstep ramps
+//! through each mixed range), so that accumulated totals vary smoothly with the track offset.
+//! Bibliography keys (AuthorYear) refer to docs/REFERENCES.md.
+
+use super::thermo::{RD, T_FREEZE};
+
+/// Shares of the precipitation falling as each type, dimensionless; they sum to 1
+/// (all four are NaN when the input was out of domain).
+///
+/// ```
+/// use trackswing::diagnose::ptype::{bourgouin, PtypeFractions};
+/// // An all-subfreezing column gives snow only (Bourgouin 2000: no warm layer).
+/// let f = bourgouin(&[100_000.0, 50_000.0], &[268.15, 243.15]);
+/// assert_eq!(f, PtypeFractions { snow: 1.0, ..PtypeFractions::default() });
+/// ```
+#[derive(Clone, Copy, Debug, PartialEq, Default)]
+pub struct PtypeFractions {
+    /// Snow.
+    pub snow: f64,
+    /// Ice pellets (sleet): drops that melted aloft and refroze before landing.
+    pub ice_pellets: f64,
+    /// Freezing rain: liquid landing on a subfreezing surface.
+    pub freezing_rain: f64,
+    /// Rain.
+    pub rain: f64,
+}
+
+impl PtypeFractions {
+    fn nan() -> Self {
+        PtypeFractions {
+            snow: f64::NAN,
+            ice_pellets: f64::NAN,
+            freezing_rain: f64::NAN,
+            rain: f64::NAN,
+        }
+    }
+
+    /// Splits `liquid` between freezing rain and rain by the surface temperature `t_surface_k`.
+    fn with_liquid(snow: f64, ice_pellets: f64, liquid: f64, t_surface_k: f64) -> Self {
+        let freezing = 1.0 - surface_thaw(t_surface_k);
+        PtypeFractions {
+            snow,
+            ice_pellets,
+            freezing_rain: liquid * freezing,
+            rain: liquid * (1.0 - freezing),
+        }
+    }
+}
+
+/// Most points a profile may have (and so most layers [`energy_areas`] can return).
+///
+/// ```
+/// use trackswing::diagnose::ptype::{energy_areas, Layer, MAX_LEVELS};
+/// // A profile with more points than MAX_LEVELS is refused (no layers).
+/// let p: Vec<f64> = (0..=MAX_LEVELS).map(|i| 100_000.0 - 500.0 * i as f64).collect();
+/// let t = vec![270.0; p.len()];
+/// let mut out = [Layer::default(); MAX_LEVELS];
+/// assert_eq!(energy_areas(&p, &t, 50_000.0, &mut out), 0);
+/// ```
+pub const MAX_LEVELS: usize = 64;
+
+/// One layer of the profile between two pressures, all on one side of 0 °C.
+///
+/// `area` is the energy area in J/kg: positive for a warm (melting) layer, negative for a cold
+/// (refreezing) layer (Bourgouin 2000).
+///
+/// ```
+/// use trackswing::diagnose::ptype::Layer;
+/// let warm = Layer { p_bottom: 100_000.0, p_top: 97_500.0, area: 7.27 };
+/// assert!(warm.area > 0.0 && warm.p_bottom > warm.p_top);
+/// ```
+#[derive(Clone, Copy, Debug, PartialEq, Default)]
+pub struct Layer {
+    /// Pressure at the layer's base, Pa.
+    pub p_bottom: f64,
+    /// Pressure at the layer's top, Pa.
+    pub p_top: f64,
+    /// Energy area, J/kg (positive warm, negative cold).
+    pub area: f64,
+}
+
+/// Top of the column searched by [`bourgouin`], Pa: warm layers above ~500 hPa are ignored.
+const BOURGOUIN_FLOOR_PA: f64 = 50_000.0;
+
+/// Bourgouin thresholds, J/kg (as implemented in open model post-processors; the paper's
+/// own wording is from memory). Surface warm layer: snow below 5.6, rain above 13.2.
+const SURFACE_MELT_START: f64 = 5.6;
+const MELT_COMPLETE: f64 = 13.2;
+/// A warm layer aloft weaker than this leaves snow as snow.
+const ALOFT_MELT_START: f64 = 2.0;
+/// Refreezing to ice pellets ramps over NA from 46 + 0.66·PA to 66 + 0.66·PA.
+const REFREEZE_START: f64 = 46.0;
+const REFREEZE_END: f64 = 66.0;
+const REFREEZE_PER_PA: f64 = 0.66;
+/// Cold area below a warm layer over which its melting onset moves from the surface value
+/// (5.6 J/kg) to the aloft value (2 J/kg), J/kg. The onset falls by 3.6·smoothstep(NA/5.6),
+/// whose slope never exceeds 0.96, so cooling a column can never lower the onset faster than
+/// it removes warm area: the snow fraction stays monotone in temperature.
+const COLD_BELOW_BLEND: f64 = 5.6;
+
+/// Half-width, K, of the ramp around 0 °C that splits liquid at the surface between freezing
+/// rain and rain (keeps fractions continuous as the surface crosses 0 °C).
+const SURFACE_FREEZE_HALF_WIDTH_K: f64 = 0.25;
+
+/// Smoothstep 3u² − 2u³ of u = (x − lo)/(hi − lo) clamped to [0, 1]: 0 at lo, 1 at hi, C1.
+fn smoothstep(lo: f64, hi: f64, x: f64) -> f64 {
+    let u = ((x - lo) / (hi - lo)).clamp(0.0, 1.0);
+    u * u * (3.0 - 2.0 * u)
+}
+
+/// Share of surface liquid that stays liquid (rain) at surface temperature `t_k`.
+fn surface_thaw(t_k: f64) -> f64 {
+    smoothstep(
+        T_FREEZE - SURFACE_FREEZE_HALF_WIDTH_K,
+        T_FREEZE + SURFACE_FREEZE_HALF_WIDTH_K,
+        t_k,
+    )
+}
+
+fn valid_profile(p_pa: &[f64], t_k: &[f64]) -> bool {
+    let n = p_pa.len();
+    if n != t_k.len() || !(2..=MAX_LEVELS).contains(&n) {
+        return false;
+    }
+    let finite = p_pa.iter().chain(t_k).all(|v| v.is_finite() && *v > 0.0);
+    finite && p_pa.windows(2).all(|w| w[1] < w[0])
+}
+
+/// Energy area of a piece with temperature linear in ln p between (p_b, t_b) and (p_t, t_t):
+/// Rd·∫(T − 273.15) d ln p, exact for the linear profile.
+fn piece_area(p_b: f64, t_b: f64, p_t: f64, t_t: f64) -> f64 {
+    RD * (0.5 * (t_b + t_t) - T_FREEZE) * (p_b / p_t).ln()
+}
+
+/// Appends a piece to `out`, merging it into the previous layer when both have the same sign
+/// (a zero-area piece joins its neighbour). Returns the new count, or `None` when `out` is full.
+fn push_piece(
+    out: &mut [Layer; MAX_LEVELS],
+    n: usize,
+    p_b: f64,
+    p_t: f64,
+    area: f64,
+) -> Option<usize> {
+    if n > 0 {
+        let last = &mut out[n - 1];
+        if last.area == 0.0 || area == 0.0 || (last.area > 0.0) == (area > 0.0) {
+            last.p_top = p_t;
+            last.area += area;
+            return Some(n);
+        }
+    }
+    *out.get_mut(n)? = Layer {
+        p_bottom: p_b,
+        p_top: p_t,
+        area,
+    };
+    Some(n + 1)
+}
+
+/// Splits a profile into warm and cold layers and returns each layer's energy area; the
+/// number of layers written to `out` (from the surface upward) is returned.
+///
+/// Input: pressure (Pa) and temperature (K) from the surface upward (p strictly decreasing,
+/// the first point is the surface), temperature linear in ln p between points. Layers are
+/// split at 0 °C crossings and cut at `p_floor_pa` (the engine passes 50 000 Pa). Each
+/// layer's area is A = Rd·(T̄ − 273.15)·ln(p_bottom/p_top) J/kg, the area between the
+/// profile and the 0 °C isotherm on a tephigram, which equals cp·(T̄ − 273.15)·ln(θ_top/θ_bot)
+/// with θ taken on the 0 °C isotherm (Bourgouin, P., 2000: A method to determine
+/// precipitation types. *Wea. Forecasting*, **15**, 583–592, eq. 1 — equation number from
+/// memory). Adjacent layers of the same sign are merged.
+///
+/// Validity: 2…[`MAX_LEVELS`] points, all finite and positive, p strictly decreasing,
+/// `p_floor_pa` finite and positive. Out-of-domain input returns 0 (no layers), as does a
+/// surface at or above the floor.
+///
+/// ```
+/// use trackswing::diagnose::ptype::{energy_areas, Layer, MAX_LEVELS};
+/// // SCIENCE.md check: 1000→975 hPa at +1 °C → 7.27 J/kg.
+/// let mut out = [Layer::default(); MAX_LEVELS];
+/// let n = energy_areas(&[100_000.0, 97_500.0], &[274.15, 274.15], 50_000.0, &mut out);
+/// assert_eq!(n, 1);
+/// assert!((out[0].area - 7.27).abs() < 0.01);
+/// ```
+pub fn energy_areas(
+    p_pa: &[f64],
+    t_k: &[f64],
+    p_floor_pa: f64,
+    out: &mut [Layer; MAX_LEVELS],
+) -> usize {
+    if !valid_profile(p_pa, t_k) || !(p_floor_pa > 0.0 && p_floor_pa.is_finite()) {
+        return 0;
+    }
+    let mut n = 0;
+    for i in 0..p_pa.len() - 1 {
+        let (p_b, t_b) = (p_pa[i], t_k[i]);
+        if p_b <= p_floor_pa {
+            break;
+        }
+        let (mut p_t, mut t_t) = (p_pa[i + 1], t_k[i + 1]);
+        let at_floor = p_t <= p_floor_pa;
+        if at_floor {
+            let frac = (p_b / p_floor_pa).ln() / (p_b / p_t).ln();
+            t_t = t_b + frac * (t_t - t_b);
+            p_t = p_floor_pa;
+        }
+        let (d_b, d_t) = (t_b - T_FREEZE, t_t - T_FREEZE);
+        let pushed = if d_b * d_t < 0.0 {
+            let frac = d_b / (d_b - d_t);
+            let p_x = p_b * (frac * (p_t / p_b).ln()).exp();
+            push_piece(out, n, p_b, p_x, piece_area(p_b, t_b, p_x, T_FREEZE))
+                .and_then(|m| push_piece(out, m, p_x, p_t, piece_area(p_x, T_FREEZE, p_t, t_t)))
+        } else {
+            push_piece(out, n, p_b, p_t, piece_area(p_b, t_b, p_t, t_t))
+        };
+        // Layers alternate in sign and each segment holds at most one crossing, so a profile of
+        // at most MAX_LEVELS points cannot fill `out`; refuse rather than panic all the same.
+        let Some(m) = pushed else { return 0 };
+        n = m;
+        if at_floor {
+            break;
+        }
+    }
+    n
+}
+
+/// Precipitation-type fractions from a temperature profile by Bourgouin's energy-area method,
+/// generalised to any number of layers.
+///
+/// Method: Bourgouin, P., 2000: A method to determine precipitation types. *Wea.
+/// Forecasting*, **15**, 583–592. Thresholds as in open post-processors (the paper's own
+/// wording from memory): surface warm layer PA < 5.6 J/kg snow, > 13.2 rain; warm layer aloft
+/// over a cold layer NA: NA > 66 + 0.66·PA ice pellets, NA < 46 + 0.66·PA freezing rain;
+/// PA aloft < 2 J/kg stays snow. Warm layers above 500 hPa are ignored.
+///
+/// Generalisation: a top-down state machine over the layers of [`energy_areas`], carrying the
+/// shares of snow, ice pellets and liquid and the *exposure* E, the warm area (J/kg) met since
+/// the last refreeze. It starts at 500 hPa as all snow with E = 0.
+/// - A warm layer of area PA adds PA to E; snow and ice pellets keep the share
+///   S(E + PA)/S(E), S(x) = 1 − smoothstep(x₀, 13.2, x), the rest melts. The onset x₀ is 2 J/kg
+///   with cold air below and 5.6 J/kg at the surface, blended by the largest cold area below
+///   the layer, NA_max: x₀ = 5.6 − 3.6·smoothstep(0, 5.6, NA_max). So a lone warm layer gives
+///   Bourgouin's ramps exactly, and two warm layers split by a vanishing cold layer melt exactly
+///   as the single layer they merge into.
+/// - A cold layer of magnitude NA refreezes the share r = smoothstep(46 + 0.66·E,
+///   66 + 0.66·E, NA) of the liquid to ice pellets (E = PA of the warm layer just above in the
+///   classic case) and scales E by 1 − r (a full refreeze resets the exposure).
+/// - At the surface, liquid is freezing rain on a subfreezing surface (first point below
+///   273.15 K) and rain otherwise, ramped over ±0.25 K around 0 °C so the split is continuous.
+///
+/// Three-layer case (warm aloft / cold / warm at the surface), on which open implementations
+/// differ: here it is the two-layer rules applied in sequence. The cold layer refreezes per the
+/// NA rule; the surface warm layer then melts the pellets and any surviving snow with the
+/// surface ramp (5.6 → 13.2 J/kg, continued from the exposure left after the refreeze), and
+/// what is liquid lands as rain. So pellets survive a weak surface warm layer and turn to rain
+/// in a strong one.
+///
+/// Validity: as [`energy_areas`] (2…64 points from the surface upward, p strictly decreasing),
+/// surface below 500 hPa; NaN fractions otherwise. Fractions lie in [0, 1] and sum to 1.
+///
+/// ```
+/// use trackswing::diagnose::ptype::bourgouin;
+/// // Surface warm layer of 20 J/kg (> 13.2, Bourgouin 2000): rain.
+/// // 1000 hPa at +5.43 °C, 0 °C at 950 hPa: A = Rd·(5.43/2)·ln(1000/950) ≈ 20 J/kg.
+/// let f = bourgouin(&[100_000.0, 95_000.0, 50_000.0], &[278.58, 273.15, 243.15]);
+/// assert!((f.rain - 1.0).abs() < 1e-12);
+/// ```
+pub fn bourgouin(p_pa: &[f64], t_k: &[f64]) -> PtypeFractions {
+    let mut buf = [Layer::default(); MAX_LEVELS];
+    let n = energy_areas(p_pa, t_k, BOURGOUIN_FLOOR_PA, &mut buf);
+    if n == 0 {
+        return PtypeFractions::nan();
+    }
+    let layers = &buf[..n];
+    let (mut snow, mut pellets, mut liquid) = (1.0_f64, 0.0_f64, 0.0_f64);
+    let mut exposure = 0.0_f64;
+    for k in (0..n).rev() {
+        let area = layers[k].area;
+        if area > 0.0 {
+            let cold_below = layers[..k].iter().map(|l| -l.area).fold(0.0_f64, f64::max);
+            let onset = SURFACE_MELT_START
+                - (SURFACE_MELT_START - ALOFT_MELT_START)
+                    * smoothstep(0.0, COLD_BELOW_BLEND, cold_below);
+            let before = 1.0 - smoothstep(onset, MELT_COMPLETE, exposure);
+            exposure += area;
+            let after = 1.0 - smoothstep(onset, MELT_COMPLETE, exposure);
+            let keep = if before > 0.0 { after / before } else { 0.0 };
+            liquid += (snow + pellets) * (1.0 - keep);
+            snow *= keep;
+            pellets *= keep;
+        } else if area < 0.0 {
+            let start = REFREEZE_START + REFREEZE_PER_PA * exposure;
+            let end = REFREEZE_END + REFREEZE_PER_PA * exposure;
+            let refreeze = smoothstep(start, end, -area);
+            pellets += liquid * refreeze;
+            liquid *= 1.0 - refreeze;
+            exposure *= 1.0 - refreeze;
+        }
+    }
+    PtypeFractions::with_liquid(snow, pellets, liquid, t_k[0])
+}
+
+/// Partial-thickness thresholds, m [common practice].
+const SNOW_850_700_M: f64 = 1540.0;
+const FREEZING_RAIN_850_700_M: f64 = 1560.0;
+const RAIN_1000_850_M: f64 = 1310.0;
+const RAIN_1000_500_M: f64 = 5400.0;
+/// Ramp half-widths, m: ±5 m is about ±1 K of layer-mean temperature for 850–700 and
+/// 1000–850 hPa (5.7 and 4.8 m/K), and ±20 m the same for 1000–500 hPa (20.3 m/K). The narrow
+/// 850–700 ramps keep a pure ice-pellet plateau (1545–1555 m) inside the 1540–1560 m band.
+const HALF_WIDTH_PARTIAL_M: f64 = 5.0;
+const HALF_WIDTH_1000_500_M: f64 = 20.0;
+
+fn ramp_about(centre: f64, half_width: f64, x: f64) -> f64 {
+    smoothstep(centre - half_width, centre + half_width, x)
+}
+
+/// Precipitation-type fractions from partial thicknesses (m) and the surface wet-bulb
+/// temperature (K), by the forecasters' partial-thickness rules [common practice; no single
+/// peer-reviewed source]:
+/// - 850–700 hPa ≤ 1540 m: snow; 1540–1560 m: ice pellets (melting aloft, refreezing below);
+///   > 1560 m: liquid, which is freezing rain on a surface with wet-bulb ≤ 0 °C, else rain;
+/// - 1000–850 hPa > 1310 m: the low levels melt whatever falls into them (liquid);
+/// - 1000–500 hPa 5400 m: the traditional rain/snow line, used only when 850–700 hPa is
+///   missing.
+///
+/// Ramps (smoothstep): ±5 m about 1540, 1560 and 1310 m (≈ ±1 K of layer-mean temperature),
+/// ±20 m about 5400 m (the same ≈ ±1 K), ±0.25 K about 0 °C for the freezing-rain split.
+///
+/// Missing levels: pass NaN for a thickness whose levels are below ground. A NaN 1000–850 hPa
+/// thickness means no low-level layer to melt in (that term drops out); a NaN 850–700 hPa
+/// thickness falls back to the 1000–500 hPa line; if both 850–700 and 1000–500 are NaN the
+/// result is NaN.
+///
+/// Validity: thicknesses finite and positive (or NaN as above), wet-bulb 173.15–373.15 K;
+/// NaN fractions otherwise.
+///
+/// ```
+/// use trackswing::diagnose::ptype::partial_thickness;
+/// // Common practice: 850–700 hPa at 1520 m (≤ 1540) and 1000–850 hPa at 1280 m: snow.
+/// let f = partial_thickness(1280.0, 1520.0, 5350.0, 272.15);
+/// assert!((f.snow - 1.0).abs() < 1e-12);
+/// ```
+pub fn partial_thickness(
+    dz_1000_850_m: f64,
+    dz_850_700_m: f64,
+    dz_1000_500_m: f64,
+    tw_surface_k: f64,
+) -> PtypeFractions {
+    let usable = |dz: f64| dz.is_nan() || (dz > 0.0 && dz.is_finite());
+    if !(usable(dz_1000_850_m) && usable(dz_850_700_m) && usable(dz_1000_500_m)) {
+        return PtypeFractions::nan();
+    }
+    if !(173.15..=373.15).contains(&tw_surface_k) {
+        return PtypeFractions::nan();
+    }
+    let low_melt = if dz_1000_850_m.is_nan() {
+        0.0
+    } else {
+        ramp_about(RAIN_1000_850_M, HALF_WIDTH_PARTIAL_M, dz_1000_850_m)
+    };
+    let (aloft_partial, aloft_full) = if !dz_850_700_m.is_nan() {
+        (
+            ramp_about(SNOW_850_700_M, HALF_WIDTH_PARTIAL_M, dz_850_700_m),
+            ramp_about(FREEZING_RAIN_850_700_M, HALF_WIDTH_PARTIAL_M, dz_850_700_m),
+        )
+    } else if !dz_1000_500_m.is_nan() {
+        let melt = ramp_about(RAIN_1000_500_M, HALF_WIDTH_1000_500_M, dz_1000_500_m);
+        (melt, melt)
+    } else {
+        return PtypeFractions::nan();
+    };
+    let snow = (1.0 - aloft_partial) * (1.0 - low_melt);
+    let pellets = (aloft_partial - aloft_full) * (1.0 - low_melt);
+    PtypeFractions::with_liquid(snow, pellets, 1.0 - snow - pellets, tw_surface_k)
+}
+
+/// Jennings et al. (2018) logistic coefficients (T in °C, RH in %).
+const JENNINGS_A: f64 = -10.04;
+const JENNINGS_B: f64 = 1.41;
+const JENNINGS_C: f64 = 0.09;
+/// Wet-bulb range, °C, over which a warm layer aloft goes from leaving snow intact to melting
+/// it completely (after Stewart & King 1987: partial below ~1 °C, complete above 3–4 °C).
+const MELT_TW_START_C: f64 = 1.0;
+const MELT_TW_END_C: f64 = 3.0;
+
+/// Precipitation-type fractions from 2 m temperature (K) and relative humidity (%), with a
+/// melting-layer check aloft.
+///
+/// Snow probability: p = 1/(1 + exp(−10.04 + 1.41·T + 0.09·RH)), T in °C, RH in % (Jennings,
+/// K. S., T. S. Winchell, B. Livneh, and N. P. Molotch, 2018: Spatial variation of the
+/// rain–snow temperature threshold across the Northern Hemisphere. *Nature Communications*,
+/// **9**, 1148, bivariate binary logistic model). Melting aloft: if the warmest wet-bulb in a
+/// layer aloft, `warm_layer_max_tw_k`, exceeds about 3 °C the snow melts completely, and below
+/// about 1 °C it survives (Stewart, R. E., and P. King, 1987: Freezing precipitation in winter
+/// storms. *Mon. Wea. Rev.*, **115**, 1270–1279; pages from memory); the share melted ramps
+/// (smoothstep) from 1 °C to 3 °C. The liquid — Jennings' rain share plus the melted snow — is
+/// freezing rain on a subfreezing surface and rain otherwise (±0.25 K ramp about 0 °C). The
+/// method yields no ice pellets.
+///
+/// Pass the column's highest wet-bulb above the surface layer; if nothing aloft is above
+/// freezing, any value ≤ 274.15 K has no effect.
+///
+/// Validity: T and Tw 173.15–373.15 K, 0 ≤ RH ≤ 110 % (values above 100 % are read as 100 %,
+/// the fit's range); NaN fractions otherwise. The fit's data lie in the rain–snow transition
+/// (roughly −10…+10 °C); beyond it the curve is saturated at 0 or 1.
+///
+/// ```
+/// use trackswing::diagnose::ptype::surface_logistic;
+/// // Jennings et al. (2018) check value: 1 °C, 80 % → p(snow) = 0.807 (no warm layer aloft).
+/// let f = surface_logistic(274.15, 80.0, 270.0);
+/// assert!((f.snow - 0.807).abs() < 0.001);
+/// ```
+pub fn surface_logistic(t2_k: f64, rh2_pct: f64, warm_layer_max_tw_k: f64) -> PtypeFractions {
+    let in_t = |t: f64| (173.15..=373.15).contains(&t);
+    if !(in_t(t2_k) && in_t(warm_layer_max_tw_k) && (0.0..=110.0).contains(&rh2_pct)) {
+        return PtypeFractions::nan();
+    }
+    let t_c = t2_k - T_FREEZE;
+    let rh = rh2_pct.min(100.0);
+    let p_snow = 1.0 / (1.0 + (JENNINGS_A + JENNINGS_B * t_c + JENNINGS_C * rh).exp());
+    let melted = smoothstep(
+        T_FREEZE + MELT_TW_START_C,
+        T_FREEZE + MELT_TW_END_C,
+        warm_layer_max_tw_k,
+    );
+    let snow = p_snow * (1.0 - melted);
+    PtypeFractions::with_liquid(snow, 0.0, 1.0 - snow, t2_k)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use proptest::prelude::*;
+
+    const T0: f64 = T_FREEZE;
+
+    fn sum(f: &PtypeFractions) -> f64 {
+        f.snow + f.ice_pellets + f.freezing_rain + f.rain
+    }
+
+    fn assert_valid(f: &PtypeFractions) {
+        for v in [f.snow, f.ice_pellets, f.freezing_rain, f.rain] {
+            assert!((0.0..=1.0).contains(&v), "{f:?}");
+        }
+        assert!((sum(f) - 1.0).abs() < 1e-12, "{f:?}");
+    }
+
+    fn max_change(a: &PtypeFractions, b: &PtypeFractions) -> f64 {
+        [
+            (a.snow - b.snow).abs(),
+            (a.ice_pellets - b.ice_pellets).abs(),
+            (a.freezing_rain - b.freezing_rain).abs(),
+            (a.rain - b.rain).abs(),
+        ]
+        .into_iter()
+        .fold(0.0, f64::max)
+    }
+
+    fn areas(p: &[f64], t: &[f64]) -> Vec<Layer> {
+        let mut out = [Layer::default(); MAX_LEVELS];
+        let n = energy_areas(p, t, BOURGOUIN_FLOOR_PA, &mut out);
+        out[..n].to_vec()
+    }
+
+    /// Peak temperature excess (K) of a triangular layer between `p_b` and `p_t` whose
+    /// energy area is `area` (Rd·(ΔT/2)·ln(p_b/p_t), SCIENCE.md §3).
+    fn triangle_peak(area: f64, p_b: f64, p_t: f64) -> f64 {
+        2.0 * area / (RD * (p_b / p_t).ln())
+    }
+
+    #[test]
+    fn energy_area_check_values() {
+        // SCIENCE.md §3 check values (Bourgouin 2000 area with Rd·ln p); tolerance 0.01 J/kg.
+        for (p_top, dt, expected) in [
+            (97_500.0, 1.0, 7.27),
+            (95_000.0, 1.0, 14.72),
+            (90_000.0, 2.0, 60.49),
+        ] {
+            let layers = areas(&[100_000.0, p_top], &[T0 + dt, T0 + dt]);
+            assert_eq!(layers.len(), 1);
+            assert!((layers[0].area - expected).abs() < 0.01, "{layers:?}");
+        }
+    }
+
+    #[test]
+    fn energy_areas_split_at_zero_and_merge_same_sign() {
+        // +2 °C at 1000 hPa to −2 °C at 900 hPa crosses 0 °C at the ln-p midpoint
+        // (√(1000·900) = 948.68 hPa): two triangles of ±Rd·1·ln(1000/948.68) = ±15.12 J/kg.
+        let layers = areas(
+            &[100_000.0, 90_000.0, 80_000.0],
+            &[T0 + 2.0, T0 - 2.0, T0 - 6.0],
+        );
+        assert_eq!(layers.len(), 2, "{layers:?}");
+        let p_x = (100_000.0_f64 * 90_000.0).sqrt();
+        assert!((layers[0].p_top - p_x).abs() < 1e-6);
+        assert!((layers[0].area - RD * (100_000.0 / p_x).ln()).abs() < 1e-9);
+        // The cold layer merges the 948.68–900 and 900–800 hPa pieces.
+        let cold = -RD * (p_x / 90_000.0).ln() - RD * 4.0 * (90_000.0_f64 / 80_000.0).ln();
+        assert!((layers[1].area - cold).abs() < 1e-9);
+        assert_eq!(layers[1].p_top, 80_000.0);
+    }
+
+    #[test]
+    fn energy_areas_stop_at_the_floor() {
+        // A warm layer above 500 hPa is ignored; the 600–400 hPa segment is cut at 500 hPa
+        // with T interpolated in ln p.
+        let layers = areas(
+            &[100_000.0, 60_000.0, 40_000.0],
+            &[T0 - 10.0, T0 - 10.0, T0 + 10.0],
+        );
+        assert_eq!(layers.len(), 1);
+        assert_eq!(layers[0].p_top, BOURGOUIN_FLOOR_PA);
+        let frac = (60_000.0_f64 / 50_000.0).ln() / (60_000.0_f64 / 40_000.0).ln();
+        let t_floor = T0 - 10.0 + 20.0 * frac;
+        assert!(t_floor < T0);
+        let expected = piece_area(100_000.0, T0 - 10.0, 60_000.0, T0 - 10.0)
+            + piece_area(60_000.0, T0 - 10.0, 50_000.0, t_floor);
+        assert!((layers[0].area - expected).abs() < 1e-9);
+    }
+
+    #[test]
+    fn out_of_domain_profiles() {
+        let mut out = [Layer::default(); MAX_LEVELS];
+        assert_eq!(energy_areas(&[100_000.0], &[270.0], 50_000.0, &mut out), 0);
+        assert_eq!(
+            energy_areas(&[100_000.0, 90_000.0], &[270.0], 50_000.0, &mut out),
+            0
+        );
+        assert_eq!(
+            energy_areas(&[90_000.0, 100_000.0], &[270.0, 270.0], 50_000.0, &mut out),
+            0
+        );
+        assert_eq!(
+            energy_areas(
+                &[100_000.0, 90_000.0],
+                &[270.0, f64::NAN],
+                50_000.0,
+                &mut out
+            ),
+            0
+        );
+        assert_eq!(
+            energy_areas(&[100_000.0, 90_000.0], &[270.0, 270.0], f64::NAN, &mut out),
+            0
+        );
+        assert!(bourgouin(&[100_000.0, 90_000.0], &[270.0, f64::NAN])
+            .snow
+            .is_nan());
+        // Surface above the 500 hPa floor: no layers, NaN.
+        assert!(bourgouin(&[48_000.0, 40_000.0], &[250.0, 240.0])
+            .rain
+            .is_nan());
+        assert!(bourgouin(&[], &[]).snow.is_nan());
+    }
+
+    /// Surface warm layer of energy area `pa` J/kg (0 °C at 950 hPa) under a cold column.
+    fn surface_warm(pa: f64) -> ([f64; 3], [f64; 3]) {
+        let dt = triangle_peak(pa, 100_000.0, 95_000.0);
+        ([100_000.0, 95_000.0, 50_000.0], [T0 + dt, T0, T0 - 30.0])
+    }
+
+    /// Cold surface layer (NA J/kg, 0 °C at `p_x`), warm nose (PA J/kg, 0 °C again 100 hPa
+    /// higher), cold above.
+    fn warm_nose(na: f64, pa: f64, p_x: f64) -> (Vec<f64>, Vec<f64>) {
+        let t_sfc = T0 - triangle_peak(na, 100_000.0, p_x);
+        let p_peak = p_x - 5_000.0;
+        let p_top = p_x - 10_000.0;
+        let dt = triangle_peak(pa, p_x, p_top);
+        (
+            vec![100_000.0, p_x, p_peak, p_top, 50_000.0],
+            vec![t_sfc, T0, T0 + dt, T0, T0 - 25.0],
+        )
+    }
+
+    #[test]
+    fn all_cold_column_is_snow() {
+        // Bourgouin (2000): no warm layer, snow.
+        let f = bourgouin(
+            &[100_000.0, 85_000.0, 70_000.0, 50_000.0],
+            &[T0 - 1.0, T0 - 5.0, T0 - 12.0, T0 - 30.0],
+        );
+        assert_eq!(f.snow, 1.0);
+        assert_valid(&f);
+    }
+
+    #[test]
+    fn surface_warm_layer_thresholds() {
+        // Bourgouin (2000), thresholds from open implementations (paper wording from memory):
+        // PA < 5.6 snow, > 13.2 rain, mixed between. Exact endpoints: tolerance 1e-12.
+        let (p, t) = surface_warm(4.0);
+        assert!((areas(&p, &t)[0].area - 4.0).abs() < 1e-9);
+        assert!((bourgouin(&p, &t).snow - 1.0).abs() < 1e-12);
+        let (p, t) = surface_warm(20.0);
+        assert!((bourgouin(&p, &t).rain - 1.0).abs() < 1e-12);
+        let (p, t) = surface_warm(9.4);
+        let f = bourgouin(&p, &t);
+        assert!(f.snow > 0.2 && f.snow < 0.8 && f.rain > 0.2, "{f:?}");
+        assert_valid(&f);
+    }
+
+    #[test]
+    fn warm_nose_over_deep_cold_layer_gives_ice_pellets() {
+        // Bourgouin (2000): NA = 150 > 66 + 0.66·30 = 85.8 J/kg → ice pellets; common practice:
+        // a deep subfreezing layer under a warm nose gives sleet.
+        let (p, t) = warm_nose(150.0, 30.0, 85_000.0);
+        let layers = areas(&p, &t);
+        assert_eq!(layers.len(), 3);
+        assert!((layers[0].area + 150.0).abs() < 1e-9 && (layers[1].area - 30.0).abs() < 1e-9);
+        let f = bourgouin(&p, &t);
+        assert!(f.ice_pellets > 0.99, "{f:?}");
+        assert_valid(&f);
+    }
+
+    #[test]
+    fn warm_nose_over_shallow_cold_layer_gives_freezing_rain() {
+        // Bourgouin (2000): NA = 20 < 46 + 0.66·30 = 65.8 J/kg → freezing rain; common practice:
+        // a shallow subfreezing layer gives freezing rain.
+        let (p, t) = warm_nose(20.0, 30.0, 97_000.0);
+        let f = bourgouin(&p, &t);
+        assert!(f.freezing_rain > 0.99, "{f:?}");
+        assert_valid(&f);
+        // Between the two thresholds (46 + 0.66·30 … 66 + 0.66·30): a mix of both.
+        let (p, t) = warm_nose(75.8, 30.0, 92_000.0);
+        let f = bourgouin(&p, &t);
+        assert!(
+            (f.ice_pellets - 0.5).abs() < 1e-9 && (f.freezing_rain - 0.5).abs() < 1e-9,
+            "{f:?}"
+        );
+    }
+
+    #[test]
+    fn weak_warm_layer_aloft_leaves_snow() {
+        // PA aloft < 2 J/kg: treat as snow (SCIENCE.md §3).
+        let (p, t) = warm_nose(40.0, 1.5, 90_000.0);
+        assert!((bourgouin(&p, &t).snow - 1.0).abs() < 1e-12);
+    }
+
+    #[test]
+    fn three_layer_case_follows_the_documented_choice() {
+        // Warm nose 30 J/kg, deep cold layer 150 J/kg, then a surface warm layer: pellets
+        // survive 4 J/kg (< 5.6) and melt to rain in 20 J/kg (> 13.2).
+        for (pa_sfc, want_pellets) in [(4.0, true), (20.0, false)] {
+            let dt_sfc = triangle_peak(pa_sfc, 100_000.0, 97_000.0);
+            let t_cold = T0 - triangle_peak(150.0, 97_000.0, 85_000.0);
+            let p = [
+                100_000.0, 97_000.0, 91_000.0, 85_000.0, 80_000.0, 75_000.0, 50_000.0,
+            ];
+            let dt_nose = triangle_peak(30.0, 85_000.0, 75_000.0);
+            let t = [T0 + dt_sfc, T0, t_cold, T0, T0 + dt_nose, T0, T0 - 25.0];
+            let layers = areas(&p, &t);
+            assert_eq!(layers.len(), 4, "{layers:?}");
+            assert!(layers[1].area < -66.0 - 0.66 * 30.0 - 20.0, "{layers:?}");
+            let f = bourgouin(&p, &t);
+            assert_valid(&f);
+            if want_pellets {
+                assert!(f.ice_pellets > 0.99, "{f:?}");
+            } else {
+                assert!(f.rain > 0.99, "{f:?}");
+            }
+        }
+    }
+
+    fn sweep_is_continuous(profile: impl Fn(f64) -> (Vec<f64>, Vec<f64>), label: &str) {
+        let mut prev: Option<PtypeFractions> = None;
+        for i in 0..=1000 {
+            let x = -5.0 + 0.01 * i as f64;
+            let (p, t) = profile(x);
+            let f = bourgouin(&p, &t);
+            assert_valid(&f);
+            if let Some(q) = prev {
+                let d = max_change(&q, &f);
+                assert!(d <= 0.05, "{label}: jump {d} at {x}: {q:?} → {f:?}");
+            }
+            prev = Some(f);
+        }
+    }
+
+    #[test]
+    fn fractions_are_continuous_in_surface_temperature() {
+        // Sweep of the surface temperature from −5 to +5 °C in 0.01 K steps, profile above
+        // fixed: no fraction may change by more than 0.05 between neighbours.
+        let cold_aloft = |x: f64| {
+            (
+                vec![100_000.0, 95_000.0, 85_000.0, 70_000.0, 50_000.0],
+                vec![T0 + x, T0 - 0.5, T0 - 4.0, T0 - 12.0, T0 - 30.0],
+            )
+        };
+        sweep_is_continuous(cold_aloft, "cold aloft");
+        let nose = |x: f64| {
+            (
+                vec![
+                    100_000.0, 97_000.0, 90_000.0, 85_000.0, 80_000.0, 70_000.0, 50_000.0,
+                ],
+                vec![
+                    T0 + x,
+                    T0 - 1.0,
+                    T0 - 0.5,
+                    T0 + 2.5,
+                    T0 + 1.0,
+                    T0 - 6.0,
+                    T0 - 25.0,
+                ],
+            )
+        };
+        sweep_is_continuous(nose, "warm nose");
+    }
+
+    #[test]
+    fn fractions_are_continuous_when_the_whole_column_warms() {
+        // Shifting a warm-nose sounding by −5…+5 K makes layers appear, vanish and merge; the
+        // fractions must still move smoothly (0.01 K steps, at most 0.05 per step).
+        let base_p = [
+            100_000.0, 97_000.0, 93_000.0, 88_000.0, 83_000.0, 78_000.0, 70_000.0, 60_000.0,
+            50_000.0,
+        ];
+        let base_t = [-1.0, -2.5, -1.5, 1.5, 3.0, 0.5, -4.0, -12.0, -22.0];
+        sweep_is_continuous(
+            |d| (base_p.to_vec(), base_t.iter().map(|t| T0 + t + d).collect()),
+            "uniform shift",
+        );
+    }
+
+    #[test]
+    fn surface_freezing_split_matches_bourgouin_outside_the_ramp() {
+        // Liquid on a surface below 0 °C is freezing rain, above is rain (Bourgouin 2000);
+        // the ±0.25 K ramp is this module's continuity choice.
+        let (p, mut t) = warm_nose(20.0, 30.0, 97_000.0);
+        t[0] = T0 - 0.3;
+        assert!((bourgouin(&p, &t).freezing_rain - 1.0).abs() < 1e-12);
+        let p2 = [100_000.0, 99_000.0, 97_000.0, 93_000.0, 90_000.0, 50_000.0];
+        let t2 = [T0 + 0.3, T0 - 0.1, T0, T0 + 3.0, T0, T0 - 25.0];
+        let f = bourgouin(&p2, &t2);
+        assert!(f.freezing_rain.abs() < 1e-12 && f.rain > 0.9, "{f:?}");
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(2000))]
+
+        #[test]
+        fn colder_column_never_has_less_snow(
+            p_sfc in 85_000.0..105_000.0_f64,
+            temps in proptest::collection::vec(-8.0..8.0_f64, 3..20),
+            delta in 0.0..4.0_f64,
+        ) {
+            // Physical monotonicity (common practice: colder air, more snow).
+            let n = temps.len();
+            let p: Vec<f64> = (0..n)
+                .map(|i| p_sfc * (45_000.0 / p_sfc).powf(i as f64 / (n - 1) as f64))
+                .collect();
+            let warm: Vec<f64> = temps.iter().map(|t| T0 + t).collect();
+            let cold: Vec<f64> = warm.iter().map(|t| t - delta).collect();
+            let f_warm = bourgouin(&p, &warm);
+            let f_cold = bourgouin(&p, &cold);
+            assert_valid(&f_warm);
+            assert_valid(&f_cold);
+            prop_assert!(f_cold.snow >= f_warm.snow - 1e-12, "{:?} → {:?}", f_warm, f_cold);
+        }
+    }
+
+    #[test]
+    fn partial_thickness_rules() {
+        // Common practice (SCIENCE.md §3), away from the ±5 m ramps.
+        let snow = partial_thickness(1290.0, 1530.0, 5380.0, T0 - 2.0);
+        assert_eq!(snow.snow, 1.0);
+        let pellets = partial_thickness(1290.0, 1550.0, 5420.0, T0 - 2.0);
+        assert_eq!(pellets.ice_pellets, 1.0);
+        let fzra = partial_thickness(1300.0, 1575.0, 5450.0, T0 - 1.0);
+        assert_eq!(fzra.freezing_rain, 1.0);
+        let rain = partial_thickness(1300.0, 1575.0, 5450.0, T0 + 1.0);
+        assert_eq!(rain.rain, 1.0);
+        // Warm low levels (1000–850 > 1310 m) melt snow to rain.
+        let low_warm = partial_thickness(1330.0, 1530.0, 5420.0, T0 + 2.0);
+        assert_eq!(low_warm.rain, 1.0);
+        // At a threshold the ramp is half-way.
+        let edge = partial_thickness(1290.0, 1540.0, 5400.0, T0 - 2.0);
+        assert!((edge.snow - 0.5).abs() < 1e-12 && (edge.ice_pellets - 0.5).abs() < 1e-12);
+        for f in [snow, pellets, fzra, rain, low_warm, edge] {
+            assert_valid(&f);
+        }
+    }
+
+    #[test]
+    fn partial_thickness_missing_levels() {
+        // 1000 hPa below ground: the 1000–850 term drops out.
+        let f = partial_thickness(f64::NAN, 1530.0, f64::NAN, T0 - 2.0);
+        assert_eq!(f.snow, 1.0);
+        // 850–700 missing: the 5400 m line (common practice) decides.
+        assert_eq!(
+            partial_thickness(1290.0, f64::NAN, 5350.0, T0 - 2.0).snow,
+            1.0
+        );
+        assert_eq!(
+            partial_thickness(1290.0, f64::NAN, 5450.0, T0 + 2.0).rain,
+            1.0
+        );
+        assert!(partial_thickness(f64::NAN, f64::NAN, f64::NAN, T0)
+            .snow
+            .is_nan());
+        assert!(partial_thickness(-5.0, 1530.0, 5400.0, T0).snow.is_nan());
+        assert!(partial_thickness(1290.0, 1530.0, 5400.0, f64::NAN)
+            .snow
+            .is_nan());
+    }
+
+    #[test]
+    fn partial_thickness_is_continuous() {
+        // 0.1 m steps through every threshold: at most 0.05 per step.
+        let mut prev = partial_thickness(1300.0, 1520.0, 5400.0, T0 - 1.0);
+        for i in 1..=600 {
+            let dz = 1520.0 + 0.1 * i as f64;
+            let f = partial_thickness(1300.0 + 0.05 * i as f64, dz, 5400.0, T0 - 1.0);
+            assert_valid(&f);
+            assert!(max_change(&prev, &f) <= 0.05, "{dz}");
+            prev = f;
+        }
+    }
+
+    #[test]
+    fn jennings_check_values() {
+        // Jennings et al. (2018), Nat. Commun. 9, 1148: 1 °C/80 % → 0.807, 1 °C/100 % → 0.409;
+        // tolerance 0.001 (three digits given).
+        let a = surface_logistic(T0 + 1.0, 80.0, T0 - 5.0);
+        assert!((a.snow - 0.807).abs() < 1e-3, "{a:?}");
+        assert!((a.rain - 0.193).abs() < 1e-3, "{a:?}");
+        let b = surface_logistic(T0 + 1.0, 100.0, T0 - 5.0);
+        assert!((b.snow - 0.409).abs() < 1e-3, "{b:?}");
+        assert_valid(&a);
+        assert_valid(&b);
+    }
+
+    #[test]
+    fn melting_layer_aloft_after_stewart_and_king() {
+        // Stewart & King (1987) (pages from memory): Tw aloft above ~3 °C melts snow completely;
+        // on a subfreezing surface the liquid is freezing rain.
+        let f = surface_logistic(T0 - 4.0, 90.0, T0 + 3.5);
+        assert!((f.freezing_rain - 1.0).abs() < 1e-12, "{f:?}");
+        let g = surface_logistic(T0 + 2.0, 90.0, T0 + 3.5);
+        assert!((g.rain - 1.0).abs() < 1e-12, "{g:?}");
+        // Below 1 °C aloft nothing melts: cold surface stays snow (Jennings p ≈ 1 at −4 °C).
+        let h = surface_logistic(T0 - 4.0, 90.0, T0 + 0.5);
+        assert!(h.snow > 0.99, "{h:?}");
+        let mid = surface_logistic(T0 - 4.0, 90.0, T0 + 2.0);
+        assert!((mid.snow - 0.5 * h.snow).abs() < 1e-9, "{mid:?}");
+        assert!(surface_logistic(f64::NAN, 90.0, T0).snow.is_nan());
+        assert!(surface_logistic(T0, 150.0, T0).snow.is_nan());
+    }
+}

@@ -1,0 +1,686 @@
+//! Thermodynamic kernels: vapour pressure, humidity, wet-bulb, potential temperature, thickness.
+//!
+//! Every function takes and returns plain `f64` in SI units (K, Pa, kg/kg, m, %) and returns
+//! NaN for input outside its stated domain. Bibliography keys (AuthorYear) refer to
+//! docs/REFERENCES.md.
+
+/// Specific gas constant of dry air, J kg⁻¹ K⁻¹ (the value used by Bolton 1980 and the
+/// project's science notes).
+///
+/// ```
+/// use trackswing::diagnose::thermo::RD;
+/// assert!((RD - 287.04).abs() < 1e-12);
+/// ```
+pub const RD: f64 = 287.04;
+
+/// Specific heat of dry air at constant pressure, J kg⁻¹ K⁻¹.
+///
+/// ```
+/// use trackswing::diagnose::thermo::{CP, RD};
+/// // cp ≈ 3.5·Rd for a diatomic ideal gas (within 0.1 %).
+/// assert!((CP / (3.5 * RD) - 1.0).abs() < 1e-3);
+/// ```
+pub const CP: f64 = 1004.0;
+
+/// Poisson exponent κ = Rd/cp (dimensionless).
+///
+/// ```
+/// use trackswing::diagnose::thermo::KAPPA;
+/// assert!((KAPPA - 0.2859).abs() < 1e-4);
+/// ```
+pub const KAPPA: f64 = RD / CP;
+
+/// Standard gravity, m s⁻² (ISO 80000-3 conventional value).
+///
+/// ```
+/// use trackswing::diagnose::thermo::G;
+/// assert!((G - 9.80665).abs() < 1e-12);
+/// ```
+pub const G: f64 = 9.80665;
+
+/// Ratio of the gas constants of dry air and water vapour, Rd/Rv (dimensionless).
+///
+/// ```
+/// use trackswing::diagnose::thermo::EPSILON;
+/// assert!((EPSILON - 0.622).abs() < 1e-12);
+/// ```
+pub const EPSILON: f64 = 0.622;
+
+/// Melting point of ice at standard pressure, K (0 °C).
+///
+/// ```
+/// use trackswing::diagnose::thermo::T_FREEZE;
+/// assert!((T_FREEZE - 273.15).abs() < 1e-12);
+/// ```
+pub const T_FREEZE: f64 = 273.15;
+
+/// Temperature lapse rate of the standard atmosphere below 11 km, K m⁻¹
+/// (ISO 2533:1975, Standard Atmosphere), used to move 2 m temperature between terrain heights.
+///
+/// ```
+/// use trackswing::diagnose::thermo::LAPSE_RATE_STD;
+/// // 1 km of ascent cools by 6.5 K.
+/// assert!((LAPSE_RATE_STD * 1000.0 - 6.5).abs() < 1e-12);
+/// ```
+pub const LAPSE_RATE_STD: f64 = 0.0065;
+
+/// Latent heat of vaporisation at 0 °C, J kg⁻¹ (Bolton 1980, eq. 2 at T = 0 °C; equation number
+/// from memory).
+const LATENT_HEAT_VAPORISATION: f64 = 2.501e6;
+
+/// Bolton (1980) eq. 10 coefficients: es = 611.2·exp(17.67·Tc/(Tc + 243.5)) Pa.
+const BOLTON_ES0_PA: f64 = 611.2;
+const BOLTON_A: f64 = 17.67;
+const BOLTON_B_K: f64 = 243.5;
+
+/// Temperatures accepted by the vapour-pressure kernels, K (−100…+100 °C).
+const T_MIN_K: f64 = 173.15;
+const T_MAX_K: f64 = 373.15;
+
+/// Highest relative humidity accepted, %. Model output and interpolation overshoot 100 %
+/// slightly; larger values signal a unit or field mix-up.
+const RH_MAX_PCT: f64 = 110.0;
+
+/// Pressures accepted by [`wet_bulb`], Pa.
+const P_MIN_PA: f64 = 10_000.0;
+const P_MAX_PA: f64 = 110_000.0;
+
+/// Dewpoints up to this far above the temperature are treated as saturation (rounding in model
+/// output), K.
+const SUPERSATURATION_TOLERANCE_K: f64 = 0.5;
+
+fn t_in_domain(t_k: f64) -> bool {
+    (T_MIN_K..=T_MAX_K).contains(&t_k)
+}
+
+/// Saturation vapour pressure over liquid water, Pa, from temperature in K.
+///
+/// es = 611.2·exp(17.67·Tc/(Tc + 243.5)) with Tc in °C: Bolton, D., 1980: The computation of
+/// equivalent potential temperature. *Mon. Wea. Rev.*, **108**, 1046–1053, eq. 10. Chosen
+/// because it is accurate to 0.3 % over −35…+35 °C, cheap, and has a closed-form inverse; it is
+/// also what MetPy ≤ 1.6 uses, so MetPy serves as a reference.
+///
+/// Validity: within 0.3 % for 238.15–308.15 K; computed (with growing error) for
+/// 173.15–373.15 K; NaN outside that or for non-finite input. Below 0 °C this is the
+/// saturation pressure over supercooled water, not ice.
+///
+/// ```
+/// use trackswing::diagnose::thermo::saturation_vapor_pressure;
+/// // Bolton (1980) eq. 10 check value: 20 °C → 23.370 hPa.
+/// let es = saturation_vapor_pressure(293.15);
+/// assert!((es - 2337.0).abs() < 0.1);
+/// ```
+pub fn saturation_vapor_pressure(t_k: f64) -> f64 {
+    if !t_in_domain(t_k) {
+        return f64::NAN;
+    }
+    let tc = t_k - T_FREEZE;
+    BOLTON_ES0_PA * (BOLTON_A * tc / (tc + BOLTON_B_K)).exp()
+}
+
+/// Dewpoint, K, from vapour pressure in Pa: the exact inverse of Bolton (1980) eq. 10,
+/// Td = 243.5·ln(e/611.2)/(17.67 − ln(e/611.2)) °C.
+///
+/// Citation: Bolton, D., 1980, *Mon. Wea. Rev.*, **108**, 1046–1053, eq. 10 (inverted).
+///
+/// Validity: e > 0 and a result within 173.15–373.15 K (the domain of
+/// [`saturation_vapor_pressure`]); NaN otherwise.
+///
+/// ```
+/// use trackswing::diagnose::thermo::dewpoint_from_vapor_pressure;
+/// // Bolton (1980) eq. 10 check value: 12.272 hPa ↔ 10 °C.
+/// let td = dewpoint_from_vapor_pressure(1227.2);
+/// assert!((td - 283.15).abs() < 0.01);
+/// ```
+pub fn dewpoint_from_vapor_pressure(e_pa: f64) -> f64 {
+    if !(e_pa > 0.0 && e_pa.is_finite()) {
+        return f64::NAN;
+    }
+    let ln_ratio = (e_pa / BOLTON_ES0_PA).ln();
+    let td = T_FREEZE + BOLTON_B_K * ln_ratio / (BOLTON_A - ln_ratio);
+    if t_in_domain(td) {
+        td
+    } else {
+        f64::NAN
+    }
+}
+
+/// Dewpoint, K, from temperature (K) and relative humidity over water (%), RH = 100·e/es(T).
+///
+/// Citation: Bolton, D., 1980, *Mon. Wea. Rev.*, **108**, 1046–1053, eq. 10 and its inverse.
+///
+/// Validity: T in 173.15–373.15 K, 0 < RH ≤ 110 % (values above 100 % give Td > T, as model
+/// output sometimes does); NaN otherwise.
+///
+/// ```
+/// use trackswing::diagnose::thermo::dewpoint_from_rh;
+/// // MetPy 1.6.3 dewpoint_from_relative_humidity(20 °C, 50 %) = 282.420 K.
+/// let td = dewpoint_from_rh(293.15, 50.0);
+/// assert!((td - 282.420).abs() < 0.01);
+/// ```
+pub fn dewpoint_from_rh(t_k: f64, rh_pct: f64) -> f64 {
+    if !(rh_pct > 0.0 && rh_pct <= RH_MAX_PCT) {
+        return f64::NAN;
+    }
+    dewpoint_from_vapor_pressure(rh_pct / 100.0 * saturation_vapor_pressure(t_k))
+}
+
+/// Relative humidity over water, %, from temperature and dewpoint (K): 100·es(Td)/es(T).
+///
+/// Citation: Bolton, D., 1980, *Mon. Wea. Rev.*, **108**, 1046–1053, eq. 10.
+///
+/// Validity: both in 173.15–373.15 K; NaN otherwise. Td > T gives RH > 100 %.
+///
+/// ```
+/// use trackswing::diagnose::thermo::rh_from_dewpoint;
+/// // MetPy 1.6.3 relative_humidity_from_dewpoint(20 °C, 10 °C) = 52.512 %.
+/// let rh = rh_from_dewpoint(293.15, 283.15);
+/// assert!((rh - 52.512).abs() < 0.01);
+/// ```
+pub fn rh_from_dewpoint(t_k: f64, td_k: f64) -> f64 {
+    100.0 * saturation_vapor_pressure(td_k) / saturation_vapor_pressure(t_k)
+}
+
+/// Water-vapour mixing ratio, kg/kg, from total pressure and vapour pressure (Pa):
+/// w = ε·e/(p − e).
+///
+/// Citation: definition of the mixing ratio for ideal gases, e.g. Wallace, J. M., and
+/// P. V. Hobbs, 2006: *Atmospheric Science: An Introductory Survey*, 2nd ed., Academic Press,
+/// §3.5 (equation number from memory).
+///
+/// Validity: p > 0, 0 ≤ e < p, both finite; NaN otherwise.
+///
+/// ```
+/// use trackswing::diagnose::thermo::mixing_ratio;
+/// // MetPy 1.6.3 mixing_ratio(12.272 hPa, 1000 hPa) = 0.0077275 (its ε is 0.6219569).
+/// let w = mixing_ratio(100_000.0, 1227.2);
+/// assert!((w - 0.0077275).abs() < 2e-6);
+/// ```
+pub fn mixing_ratio(p_pa: f64, e_pa: f64) -> f64 {
+    if !(p_pa.is_finite() && e_pa.is_finite() && e_pa >= 0.0 && e_pa < p_pa) {
+        return f64::NAN;
+    }
+    EPSILON * e_pa / (p_pa - e_pa)
+}
+
+/// Specific humidity, kg/kg, from pressure (Pa), temperature (K) and relative humidity over
+/// water (%): e = RH/100·es(T), q = ε·e/(p − (1 − ε)·e).
+///
+/// Citation: Bolton, D., 1980, *Mon. Wea. Rev.*, **108**, 1046–1053, eq. 10 for es; q from
+/// its definition (Wallace & Hobbs 2006, §3.5, from memory).
+///
+/// Validity: p > 0, T in 173.15–373.15 K, 0 ≤ RH ≤ 110 %, and e < p; NaN otherwise.
+///
+/// ```
+/// use trackswing::diagnose::thermo::specific_humidity_from_rh;
+/// // MetPy 1.6.3: specific_humidity_from_dewpoint(1000 hPa,
+/// //   dewpoint_from_relative_humidity(15 °C, 70 %)) = 0.0074525.
+/// let q = specific_humidity_from_rh(100_000.0, 288.15, 70.0);
+/// assert!((q - 0.0074525).abs() < 2e-6);
+/// ```
+pub fn specific_humidity_from_rh(p_pa: f64, t_k: f64, rh_pct: f64) -> f64 {
+    if !((0.0..=RH_MAX_PCT).contains(&rh_pct) && p_pa > 0.0 && p_pa.is_finite()) {
+        return f64::NAN;
+    }
+    let e = rh_pct / 100.0 * saturation_vapor_pressure(t_k);
+    if !(e < p_pa) {
+        return f64::NAN;
+    }
+    EPSILON * e / (p_pa - (1.0 - EPSILON) * e)
+}
+
+/// Virtual temperature, K, from temperature (K) and specific humidity (kg/kg):
+/// Tv = T·(1 + q·(1 − ε)/ε), exact for an ideal mixture of dry air and vapour.
+///
+/// Citation: Wallace, J. M., and P. V. Hobbs, 2006: *Atmospheric Science*, 2nd ed., §3.2
+/// (section from memory); identical to MetPy's mixing-ratio form T·(w + ε)/(ε·(1 + w)).
+///
+/// Validity: T > 0, 0 ≤ q < 1; NaN otherwise.
+///
+/// ```
+/// use trackswing::diagnose::thermo::virtual_temperature;
+/// // MetPy 1.6.3 virtual_temperature(300 K, w = 0.010101) = 301.8235 K (q = 0.01).
+/// let tv = virtual_temperature(300.0, 0.01);
+/// assert!((tv - 301.8235).abs() < 0.01);
+/// ```
+pub fn virtual_temperature(t_k: f64, q: f64) -> f64 {
+    if !(t_k > 0.0 && t_k.is_finite() && (0.0..1.0).contains(&q)) {
+        return f64::NAN;
+    }
+    t_k * (1.0 + q * (1.0 - EPSILON) / EPSILON)
+}
+
+/// Wet-bulb temperature, K, from temperature (K) and relative humidity (%) by Stull's
+/// empirical fit (his eq. 1, argument of the trigonometric terms in radians, T in °C):
+/// Tw = T·atan(0.151977·(RH + 8.313659)^½) + atan(T + RH) − atan(RH − 1.676331)
+///      + 0.00391838·RH^1.5·atan(0.023101·RH) − 4.686035.
+///
+/// Citation: Stull, R., 2011: Wet-bulb temperature from relative humidity and air temperature.
+/// *J. Appl. Meteor. Climatol.*, **50**, 2267–2269, eq. 1.
+///
+/// Validity (Stull's): RH 5–99 %, T −20…+50 °C, pressure near 1013 hPa; mean absolute error
+/// < 0.3 K. NaN outside RH 5–99 % or T 253.15–323.15 K. For other pressures use [`wet_bulb`].
+///
+/// ```
+/// use trackswing::diagnose::thermo::wet_bulb_stull;
+/// // Stull (2011) check value: 20 °C, 50 % → 13.699 °C.
+/// let tw = wet_bulb_stull(293.15, 50.0);
+/// assert!((tw - (273.15 + 13.699)).abs() < 0.001);
+/// ```
+pub fn wet_bulb_stull(t_k: f64, rh_pct: f64) -> f64 {
+    if !((5.0..=99.0).contains(&rh_pct) && (253.15..=323.15).contains(&t_k)) {
+        return f64::NAN;
+    }
+    let t = t_k - T_FREEZE;
+    let rh = rh_pct;
+    let tw = t * (0.151977 * (rh + 8.313659).sqrt()).atan() + (t + rh).atan()
+        - (rh - 1.676331).atan()
+        + 0.00391838 * rh.powf(1.5) * (0.023101 * rh).atan()
+        - 4.686035;
+    tw + T_FREEZE
+}
+
+/// Saturation mixing ratio over water at temperature `t_k` and pressure `p_pa`, kg/kg.
+fn saturation_mixing_ratio(p_pa: f64, t_k: f64) -> f64 {
+    mixing_ratio(p_pa, saturation_vapor_pressure(t_k))
+}
+
+/// Lifting condensation level temperature, K, from temperature and dewpoint (K): Bolton
+/// (1980) eq. 15, T_L = 1/(1/(Td − 56) + ln(T/Td)/800) + 56 (accurate to about 0.1 K).
+fn lcl_temperature(t_k: f64, td_k: f64) -> f64 {
+    1.0 / (1.0 / (td_k - 56.0) + (t_k / td_k).ln() / 800.0) + 56.0
+}
+
+/// Wet-bulb temperature, K, at any pressure, from pressure (Pa), temperature (K) and dewpoint
+/// (K): the adiabatic (Normand) wet-bulb, solved as a single energy balance.
+///
+/// Normand's rule lifts the air dry-adiabatically to its lifting condensation level (T_L from
+/// Bolton 1980 eq. 15, p_L = p·(T_L/T)^(1/κ)) and brings it back to p along the saturated
+/// pseudo-adiabat cp·dT/T − Rd·dp/p + L·drs/T = 0. The dry leg conserves cp·ln T − Rd·ln p and
+/// the pressure returns to p, so the whole path reduces to the psychrometric balance written
+/// per unit temperature:
+///
+/// cp·ln(T/Tw) = L·∫ drs/T′ = L·[ws(Tw, p)/Tw − w/T_L + ∫ rs/T′² dT′],
+///
+/// with w = ws(Td, p), the integral taken from T_L to Tw by Simpson's rule with ln p linear in
+/// T′ along the path. ws from Bolton (1980) eq. 10 (over liquid water, also below 0 °C, as
+/// MetPy does), cp = 1004 J kg⁻¹ K⁻¹ and a constant L = 2.501×10⁶ J kg⁻¹ (Bolton 1980, eq. 2
+/// at 0 °C; equation number from memory), constant like MetPy's moist adiabat. The residual
+/// changes sign on [Td, T]; a bracketing Illinois (regula falsi) iteration, started from
+/// [`wet_bulb_stull`] where that is valid, stops at 1×10⁻⁶ K.
+///
+/// Why not the isobaric form cp·(T − Tw) = L·(ws(Tw, p) − w): it describes a ventilated
+/// thermometer, which is warmer than the adiabatic wet-bulb. Against the reference (MetPy 1.6
+/// `wet_bulb_temperature`, Normand's rule) it is 0.125 K warm at 993 hPa/32 °C/Td 15 °C and up
+/// to 0.53 K warm in hot, very dry air (RH 5 %); this form stays within 0.15 K over −30…+30 °C,
+/// 500–1050 hPa, RH 5–99 %, and within 0.01 K on the check value below. The residual gap comes
+/// from Bolton's LCL and from constants that differ from MetPy's by < 0.1 %.
+///
+/// Citations: Bolton, D., 1980, *Mon. Wea. Rev.*, **108**, 1046–1053, eqs. 2, 10 and 15;
+/// Normand, C. W. B., 1921: Wet bulb temperatures and the thermodynamics of the air. *Indian
+/// Meteor. Memoirs*, **23**, 1–22 (from memory); Stull, R., 2011, *J. Appl. Meteor.
+/// Climatol.*, **50**, 2267–2269 (first guess).
+///
+/// Validity: p in 100–1100 hPa, T and Td in 173.15–373.15 K with es(T) < p, Td ≤ T + 0.5 K
+/// (up to 0.5 K of supersaturation is read as saturation); NaN otherwise. Checked against
+/// MetPy over −30…+30 °C and 500–1050 hPa.
+///
+/// ```
+/// use trackswing::diagnose::thermo::wet_bulb;
+/// // MetPy 1.6.3 wet_bulb_temperature(993 hPa, 32 °C, 15 °C) = 20.377 °C (SCIENCE.md: about
+/// // 20.39 °C, ±0.05 K across MetPy versions); tolerance 0.05 K.
+/// let tw = wet_bulb(99_300.0, 305.15, 288.15);
+/// assert!((tw - (273.15 + 20.377)).abs() < 0.05);
+/// ```
+pub fn wet_bulb(p_pa: f64, t_k: f64, td_k: f64) -> f64 {
+    if !((P_MIN_PA..=P_MAX_PA).contains(&p_pa) && t_in_domain(t_k) && t_in_domain(td_k)) {
+        return f64::NAN;
+    }
+    if td_k > t_k + SUPERSATURATION_TOLERANCE_K {
+        return f64::NAN;
+    }
+    let td_k = td_k.min(t_k);
+    if !(saturation_vapor_pressure(t_k) < p_pa) {
+        return f64::NAN;
+    }
+    if t_k - td_k < 1e-9 {
+        return t_k;
+    }
+    let w = saturation_mixing_ratio(p_pa, td_k);
+    let t_lcl = lcl_temperature(t_k, td_k);
+    let ln_p_lcl = p_pa.ln() + (t_lcl / t_k).ln() / KAPPA;
+    let residual = |tw: f64| {
+        let t_mid = 0.5 * (t_lcl + tw);
+        let p_mid = (0.5 * (ln_p_lcl + p_pa.ln())).exp();
+        let f = |t: f64, p: f64| saturation_mixing_ratio(p, t) / (t * t);
+        let integral =
+            (tw - t_lcl) / 6.0 * (f(t_lcl, ln_p_lcl.exp()) + 4.0 * f(t_mid, p_mid) + f(tw, p_pa));
+        let latent = saturation_mixing_ratio(p_pa, tw) / tw - w / t_lcl + integral;
+        CP * (t_k / tw).ln() - LATENT_HEAT_VAPORISATION * latent
+    };
+    let (mut lo, mut hi) = (td_k, t_k);
+    let (mut f_lo, mut f_hi) = (residual(lo), residual(hi));
+    if !(f_lo > 0.0 && f_hi < 0.0) {
+        return f64::NAN;
+    }
+    let stull = wet_bulb_stull(t_k, rh_from_dewpoint(t_k, td_k));
+    if stull > lo && stull < hi {
+        let f = residual(stull);
+        if !f.is_finite() {
+            return f64::NAN;
+        }
+        if f > 0.0 {
+            (lo, f_lo) = (stull, f);
+        } else {
+            (hi, f_hi) = (stull, f);
+        }
+    }
+    // Illinois variant of regula falsi: halving the weight of a retained end point keeps
+    // superlinear convergence where plain false position stalls.
+    let mut side = 0;
+    for _ in 0..100 {
+        let x = (lo * f_hi - hi * f_lo) / (f_hi - f_lo);
+        let f = residual(x);
+        if !f.is_finite() {
+            return f64::NAN;
+        }
+        if f > 0.0 {
+            (lo, f_lo) = (x, f);
+            if side == 1 {
+                f_hi *= 0.5;
+            }
+            side = 1;
+        } else {
+            (hi, f_hi) = (x, f);
+            if side == -1 {
+                f_lo *= 0.5;
+            }
+            side = -1;
+        }
+        if hi - lo < 1e-6 || f == 0.0 {
+            return x;
+        }
+    }
+    0.5 * (lo + hi)
+}
+
+/// Potential temperature, K, from pressure (Pa) and temperature (K): θ = T·(p0/p)^κ with
+/// p0 = 1000 hPa and κ = Rd/cp (Poisson's equation for a dry adiabat).
+///
+/// Citation: Poisson's equation, e.g. Wallace & Hobbs (2006), *Atmospheric Science*, 2nd ed.,
+/// §3.4 (section from memory); Bolton, D., 1980, *Mon. Wea. Rev.*, **108**, 1046–1053, eq. 7
+/// gives the same form for dry air (equation number from memory).
+///
+/// Validity: p > 0, T > 0, finite; NaN otherwise.
+///
+/// ```
+/// use trackswing::diagnose::thermo::potential_temperature;
+/// // MetPy 1.6.3 potential_temperature(800 hPa, 273 K) = 290.97 K.
+/// let theta = potential_temperature(80_000.0, 273.0);
+/// assert!((theta - 290.97).abs() < 0.01);
+/// ```
+pub fn potential_temperature(p_pa: f64, t_k: f64) -> f64 {
+    if !(p_pa > 0.0 && p_pa.is_finite() && t_k > 0.0 && t_k.is_finite()) {
+        return f64::NAN;
+    }
+    t_k * (100_000.0 / p_pa).powf(KAPPA)
+}
+
+/// Hydrostatic thickness of a pressure layer, m, from the hypsometric equation
+/// Δz = (Rd·T̄v/g)·ln(p_bottom/p_top), with T̄v the layer-mean virtual temperature (K).
+///
+/// Citation: hypsometric equation, Wallace & Hobbs (2006), *Atmospheric Science*, 2nd ed.,
+/// §3.2 (section from memory); MetPy `thickness_hydrostatic` is the library reference.
+///
+/// Validity: p_bottom > p_top > 0, T̄v > 0, finite; NaN otherwise.
+///
+/// ```
+/// use trackswing::diagnose::thermo::thickness_hydrostatic;
+/// // SCIENCE.md / MetPy 1.6.3: 1000–500 hPa at T̄v = −7.0 °C → 5400 m (MetPy 5399.89 m).
+/// let dz = thickness_hydrostatic(100_000.0, 50_000.0, 266.15);
+/// assert!((dz - 5400.0).abs() < 1.0);
+/// ```
+pub fn thickness_hydrostatic(p_bottom_pa: f64, p_top_pa: f64, tv_mean_k: f64) -> f64 {
+    if !(p_top_pa > 0.0 && p_bottom_pa > p_top_pa && p_bottom_pa.is_finite()) {
+        return f64::NAN;
+    }
+    if !(tv_mean_k > 0.0 && tv_mean_k.is_finite()) {
+        return f64::NAN;
+    }
+    RD * tv_mean_k / G * (p_bottom_pa / p_top_pa).ln()
+}
+
+/// Layer-mean virtual temperature, K, from a layer's hydrostatic thickness (m): the inverse of
+/// [`thickness_hydrostatic`], T̄v = g·Δz/(Rd·ln(p_bottom/p_top)).
+///
+/// Citation: hypsometric equation, Wallace & Hobbs (2006), *Atmospheric Science*, 2nd ed.,
+/// §3.2 (section from memory).
+///
+/// Validity: p_bottom > p_top > 0, Δz > 0, finite; NaN otherwise.
+///
+/// ```
+/// use trackswing::diagnose::thermo::layer_mean_temperature_from_thickness;
+/// // SCIENCE.md: 1540 m for 850–700 hPa is a layer-mean −2.2 °C.
+/// let tv = layer_mean_temperature_from_thickness(85_000.0, 70_000.0, 1540.0);
+/// assert!((tv - (273.15 - 2.2)).abs() < 0.05);
+/// ```
+pub fn layer_mean_temperature_from_thickness(p_bottom_pa: f64, p_top_pa: f64, dz_m: f64) -> f64 {
+    if !(p_top_pa > 0.0 && p_bottom_pa > p_top_pa && p_bottom_pa.is_finite()) {
+        return f64::NAN;
+    }
+    if !(dz_m > 0.0 && dz_m.is_finite()) {
+        return f64::NAN;
+    }
+    G * dz_m / (RD * (p_bottom_pa / p_top_pa).ln())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn c(tc: f64) -> f64 {
+        tc + T_FREEZE
+    }
+
+    #[test]
+    fn bolton_saturation_vapor_pressure_check_values() {
+        // Bolton (1980), Mon. Wea. Rev. 108, eq. 10, evaluated (SCIENCE.md §2); tolerance 0.001 hPa.
+        for (tc, es_hpa) in [(0.0, 6.112), (10.0, 12.272), (20.0, 23.370), (25.0, 31.674)] {
+            let es = saturation_vapor_pressure(c(tc)) / 100.0;
+            assert!((es - es_hpa).abs() < 1e-3, "{tc} °C: {es} hPa");
+        }
+    }
+
+    #[test]
+    fn saturation_vapor_pressure_out_of_domain_is_nan() {
+        for t in [f64::NAN, f64::INFINITY, -1.0, 0.0, 100.0, 400.0] {
+            assert!(saturation_vapor_pressure(t).is_nan(), "{t}");
+        }
+    }
+
+    #[test]
+    fn dewpoint_inverts_bolton() {
+        // MetPy 1.6.3 dewpoint(1 hPa) = 250.5221 K, dewpoint(12.272 hPa) = 283.1504 K;
+        // same formula, tolerance 1e-3 K.
+        assert!((dewpoint_from_vapor_pressure(100.0) - 250.5221).abs() < 1e-3);
+        assert!((dewpoint_from_vapor_pressure(1227.2) - 283.1504).abs() < 1e-3);
+        // Round trip through Bolton eq. 10 over its validity range; tolerance 1e-9 K.
+        for i in 0..=70 {
+            let t = c(-35.0 + i as f64);
+            let back = dewpoint_from_vapor_pressure(saturation_vapor_pressure(t));
+            assert!((back - t).abs() < 1e-9, "{t}");
+        }
+        for e in [0.0, -5.0, f64::NAN, f64::INFINITY, 1e9] {
+            assert!(dewpoint_from_vapor_pressure(e).is_nan(), "{e}");
+        }
+    }
+
+    #[test]
+    fn humidity_conversions_match_metpy() {
+        // MetPy 1.6.3 (same Bolton formula): dewpoint_from_relative_humidity(-10 °C, 80 %)
+        // = 260.3562 K; tolerance 1e-3 K.
+        assert!((dewpoint_from_rh(c(-10.0), 80.0) - 260.3562).abs() < 1e-3);
+        assert!((rh_from_dewpoint(c(20.0), c(10.0)) - 52.5117).abs() < 1e-3);
+        // Saturated air has RH 100 % exactly.
+        assert!((rh_from_dewpoint(c(5.0), c(5.0)) - 100.0).abs() < 1e-12);
+        // MetPy 1.6.3 specific_humidity_from_dewpoint(850 hPa, 0 °C) = 0.0044844; MetPy's
+        // ε = 0.6219569 against our 0.622 is 7e-5 relative: tolerance 1e-4 relative (4.5e-7).
+        let q = specific_humidity_from_rh(85_000.0, c(0.0), 100.0);
+        assert!((q - 0.004_484_43).abs() < 4.5e-7, "{q}");
+        assert!(dewpoint_from_rh(c(0.0), 0.0).is_nan());
+        assert!(dewpoint_from_rh(c(0.0), 150.0).is_nan());
+        assert!(specific_humidity_from_rh(85_000.0, c(0.0), -1.0).is_nan());
+        assert!(mixing_ratio(1000.0, 1000.0).is_nan());
+        assert!(virtual_temperature(300.0, 1.0).is_nan());
+        assert_eq!(mixing_ratio(100_000.0, 0.0), 0.0);
+    }
+
+    #[test]
+    fn stull_check_values() {
+        // Stull (2011), J. Appl. Meteor. Climatol. 50, eq. 1, evaluated (SCIENCE.md §2);
+        // tolerance 0.001 K.
+        for (tc, rh, tw) in [
+            (20.0, 50.0, 13.699),
+            (0.0, 80.0, -1.672),
+            (-5.0, 90.0, -5.856),
+        ] {
+            let got = wet_bulb_stull(c(tc), rh) - T_FREEZE;
+            assert!((got - tw).abs() < 1e-3, "{tc} {rh}: {got}");
+        }
+        assert!(wet_bulb_stull(c(20.0), 100.0).is_nan());
+        assert!(wet_bulb_stull(c(-30.0), 50.0).is_nan());
+    }
+
+    /// MetPy 1.6.3 `wet_bulb_temperature(p, T, Td)` (Normand's rule), typed in:
+    /// (p hPa, T °C, Td °C, Tw K).
+    const METPY_WET_BULB: [(f64, f64, f64, f64); 22] = [
+        (1000.0, 20.0, 10.0, 287.138),
+        (1000.0, 0.0, -5.0, 271.360),
+        (1000.0, -10.0, -15.0, 262.049),
+        (1000.0, -30.0, -35.0, 242.875),
+        (850.0, 5.0, -5.0, 273.942),
+        (850.0, -5.0, -8.0, 267.138),
+        (850.0, -5.0, -25.0, 263.966),
+        (700.0, -10.0, -20.0, 260.702),
+        (700.0, 0.0, -2.0, 272.202),
+        (700.0, -20.0, -40.0, 251.214),
+        (500.0, -30.0, -40.0, 242.297),
+        (500.0, -20.0, -25.0, 252.112),
+        (500.0, 10.0, -30.0, 269.499),
+        (500.0, 30.0, 0.0, 282.947),
+        (600.0, 10.0, -10.0, 273.720),
+        (925.0, 1.0, -3.0, 272.546),
+        (993.0, 32.0, 15.0, 293.527),
+        (1000.0, 30.0, -15.0, 284.182),
+        (1050.0, 30.0, 25.0, 299.361),
+        (1050.0, 30.0, 10.0, 290.734),
+        (1050.0, 30.0, -10.0, 285.200),
+        (1050.0, -30.0, -50.0, 242.540),
+    ];
+
+    #[test]
+    fn wet_bulb_matches_metpy_normand() {
+        // Tolerance 0.15 K: Bolton's LCL and constants within 0.1 % of MetPy's; the largest gap
+        // on a 7-pressure × 13-temperature × 8-RH grid over 500–1050 hPa, −30…+30 °C,
+        // RH 5–99 % was 0.145 K (500 hPa, 10 °C, RH 5 %).
+        for (p, tc, tdc, tw_ref) in METPY_WET_BULB {
+            let tw = wet_bulb(p * 100.0, c(tc), c(tdc));
+            assert!(
+                (tw - tw_ref).abs() < 0.15,
+                "{p} hPa {tc} °C {tdc} °C: {tw} vs {tw_ref}"
+            );
+        }
+    }
+
+    /// Normand's rule by brute force, as an independent check of the closed-form balance: lift
+    /// to the Bolton (1980) eq. 15 LCL, then RK4 down the pseudo-adiabat
+    /// dT/d ln p = (Rd·T + L·rs)/(cp + L²·rs·ε/(Rd·T²)) (the form MetPy integrates).
+    fn normand_rk4(p: f64, t: f64, td: f64) -> f64 {
+        let t_lcl = lcl_temperature(t, td);
+        let ln_p_lcl = p.ln() + (t_lcl / t).ln() / KAPPA;
+        let l = LATENT_HEAT_VAPORISATION;
+        let slope = |ln_p: f64, tt: f64| {
+            let rs = saturation_mixing_ratio(ln_p.exp(), tt);
+            (RD * tt + l * rs) / (CP + l * l * rs * EPSILON / (RD * tt * tt))
+        };
+        let steps = 400;
+        let h = (p.ln() - ln_p_lcl) / steps as f64;
+        let (mut x, mut y) = (ln_p_lcl, t_lcl);
+        for _ in 0..steps {
+            let k1 = slope(x, y);
+            let k2 = slope(x + 0.5 * h, y + 0.5 * h * k1);
+            let k3 = slope(x + 0.5 * h, y + 0.5 * h * k2);
+            let k4 = slope(x + h, y + h * k3);
+            y += h / 6.0 * (k1 + 2.0 * k2 + 2.0 * k3 + k4);
+            x += h;
+        }
+        y
+    }
+
+    #[test]
+    fn closed_form_matches_integrated_pseudo_adiabat() {
+        // Same constants and LCL, so only the quadrature differs; tolerance 0.05 K.
+        for (p, tc, tdc, _) in METPY_WET_BULB {
+            let (p, t, td) = (p * 100.0, c(tc), c(tdc));
+            let (tw, reference) = (wet_bulb(p, t, td), normand_rk4(p, t, td));
+            assert!(
+                (tw - reference).abs() < 0.05,
+                "{p} {tc} {tdc}: {tw} vs {reference}"
+            );
+            assert!(tw > td && tw < t);
+        }
+    }
+
+    #[test]
+    fn wet_bulb_edges() {
+        // Saturated air: Tw = T exactly; small supersaturation read as saturation.
+        assert_eq!(wet_bulb(90_000.0, c(2.0), c(2.0)), c(2.0));
+        assert_eq!(wet_bulb(90_000.0, c(2.0), c(2.3)), c(2.0));
+        assert!(wet_bulb(90_000.0, c(2.0), c(3.0)).is_nan());
+        assert!(wet_bulb(5_000.0, c(2.0), c(0.0)).is_nan());
+        assert!(wet_bulb(f64::NAN, c(2.0), c(0.0)).is_nan());
+        assert!(wet_bulb(90_000.0, f64::NAN, c(0.0)).is_nan());
+        // es(T) ≥ p: no psychrometric solution.
+        assert!(wet_bulb(10_000.0, c(50.0), c(0.0)).is_nan());
+        // Very dry air far outside Stull's range still converges (bisection fallback);
+        // monotone in dewpoint.
+        let dry = wet_bulb(100_000.0, c(30.0), c(-40.0));
+        let moist = wet_bulb(100_000.0, c(30.0), c(-20.0));
+        assert!(dry.is_finite() && dry < moist, "{dry} {moist}");
+    }
+
+    #[test]
+    fn potential_temperature_matches_metpy() {
+        // MetPy 1.6.3 potential_temperature(500 hPa, 250 K) = 304.7534 K with κ = 0.285714;
+        // our κ = 0.285896 raises θ by 250·ln 2·Δκ·θ/T ≈ 0.04 K: tolerance 0.06 K.
+        assert!((potential_temperature(50_000.0, 250.0) - 304.7534).abs() < 0.06);
+        assert_eq!(potential_temperature(100_000.0, 280.0), 280.0);
+        assert!(potential_temperature(0.0, 280.0).is_nan());
+    }
+
+    #[test]
+    fn thickness_check_values_round_trip() {
+        // SCIENCE.md §2 check values, MetPy 1.6.3 thickness_hydrostatic: 1000–850 hPa at
+        // +0.1 °C → 1299.86 m; 850–700 hPa at −2.2 °C → 1539.83 m. MetPy's Rd is 287.0475:
+        // relative difference 3e-5, tolerance 0.1 m.
+        assert!((thickness_hydrostatic(100_000.0, 85_000.0, c(0.1)) - 1299.86).abs() < 0.1);
+        assert!((thickness_hydrostatic(85_000.0, 70_000.0, c(-2.2)) - 1539.83).abs() < 0.1);
+        // Traditional lines (SCIENCE.md): 1300 m ↔ +0.1 °C, 5400 m ↔ −7.0 °C; tolerance 0.05 K.
+        let t1 = layer_mean_temperature_from_thickness(100_000.0, 85_000.0, 1300.0);
+        assert!((t1 - c(0.1)).abs() < 0.05, "{t1}");
+        let t2 = layer_mean_temperature_from_thickness(100_000.0, 50_000.0, 5400.0);
+        assert!((t2 - c(-7.0)).abs() < 0.05, "{t2}");
+        let dz = thickness_hydrostatic(92_500.0, 60_000.0, 260.0);
+        assert!(
+            (layer_mean_temperature_from_thickness(92_500.0, 60_000.0, dz) - 260.0).abs() < 1e-9
+        );
+        assert!(thickness_hydrostatic(50_000.0, 100_000.0, 260.0).is_nan());
+        assert!(layer_mean_temperature_from_thickness(100_000.0, 50_000.0, -1.0).is_nan());
+    }
+
+    #[test]
+    fn standard_lapse_rate_iso_2533() {
+        // ISO 2533: 288.15 K at sea level, 216.65 K at 11 km; tolerance 1e-9 K.
+        assert!((288.15 - LAPSE_RATE_STD * 11_000.0 - 216.65).abs() < 1e-9);
+    }
+}

@@ -1,0 +1,30 @@
+//! trackswing: how much a winter storm's snowfall depends on where its low tracks.
+//!
+//! The pipeline, one module per stage, in order:
+//! [`read`] (fields, track, towns) → [`shift`] (storm-relative displacement of the fields per
+//! scenario) → [`diagnose`] (precipitation type and snow-to-liquid ratio per column) →
+//! [`accumulate`] (per-scenario running totals) → [`summarise`] (min/max/range, towns) →
+//! [`write`] (GeoTIFF, GeoJSON, CSV, manifest). [`engine`] drives the stages over the time steps
+//! and is the one place where work runs in parallel.
+//!
+//! Decision support for trained forecasters: not an official forecast or warning. Defer to the
+//! national weather service and local emergency management.
+
+pub mod accumulate;
+pub mod case;
+pub mod demo;
+pub mod diagnose;
+pub mod engine;
+pub mod geotiff;
+pub mod grid;
+pub mod progress;
+pub mod read;
+pub mod scenario;
+pub mod shift;
+pub mod summarise;
+pub mod write;
+
+/// The caution every output and help text carries.
+pub const CAUTION: &str =
+    "Decision support for trained forecasters only: not an official forecast or \
+warning. Defer to the national weather service and local emergency management.";

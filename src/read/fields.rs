@@ -1,0 +1,366 @@
+//! Model fields from GeoTIFF files: one file of ground-attached fields (terrain) and one
+//! multi-band file per time step.
+//!
+//! Bands are found by their description, never by position: a CF standard name, with
+//! `@<level>` for levelled fields — `air_temperature@850hPa`, `geopotential_height@850hPa`,
+//! `relative_humidity@850hPa` for every isobaric level; `air_temperature@2m`,
+//! `relative_humidity@2m`; `precipitation_amount` (kg m⁻², fallen during the step ending at the
+//! valid time). The step's valid time is the dataset metadata item `valid_time` (RFC 3339).
+//! The terrain file holds `surface_altitude` (m).
+//!
+//! Units are the CF canonical ones (K, %, m, kg m⁻²). Values outside physical ranges are
+//! refused with the file, band and cell named, because a temperature in °C read as K, or RH as a
+//! fraction, would silently give wrong maps. Missing cells (nodata, NaN) stay NaN.
+
+use crate::geotiff::{read_geotiff, GeoTiffError, Raster};
+use crate::grid::{Grid, GridError};
+use chrono::{DateTime, Utc};
+use std::path::{Path, PathBuf};
+
+/// Why model fields cannot be used.
+#[derive(Debug, thiserror::Error)]
+pub enum FieldError {
+    /// The GeoTIFF itself could not be read.
+    #[error(transparent)]
+    GeoTiff(#[from] GeoTiffError),
+    /// The grid is unusable.
+    #[error("{path}: {source}")]
+    Grid {
+        /// The file.
+        path: PathBuf,
+        /// The cause.
+        source: GridError,
+    },
+    /// A required band is absent.
+    #[error("{path}: no band described as '{band}' ({why})")]
+    Missing {
+        /// The file.
+        path: PathBuf,
+        /// The band description that was expected.
+        band: String,
+        /// Why it is needed.
+        why: String,
+    },
+    /// Values outside the physical range.
+    #[error("{path}: band '{band}': {what}")]
+    Implausible {
+        /// The file.
+        path: PathBuf,
+        /// The band.
+        band: String,
+        /// What was found and what was expected.
+        what: String,
+    },
+    /// The file's grid differs from the first file's.
+    #[error("{path}: its grid ({got}) differs from {first} ({want}); every file of a case must share one grid")]
+    GridMismatch {
+        /// The file.
+        path: PathBuf,
+        /// The first file of the case.
+        first: PathBuf,
+        /// This file's grid.
+        got: String,
+        /// The first file's grid.
+        want: String,
+    },
+    /// Something else about the file's layout.
+    #[error("{path}: {what}")]
+    Layout {
+        /// The file.
+        path: PathBuf,
+        /// What was wrong and what was expected.
+        what: String,
+    },
+}
+
+/// Where each variable sits in a cell's interleaved column of values.
+///
+/// Storm-attached variables of one cell are stored together so that sampling a displaced point
+/// reads four short contiguous runs of memory (one per bilinear neighbour).
+#[derive(Clone, Debug, PartialEq)]
+pub struct StepLayout {
+    /// Isobaric levels, Pa, from the highest pressure (lowest level) upward.
+    pub levels_pa: Vec<f64>,
+}
+
+impl StepLayout {
+    /// Index of the temperature (K) at level `k`.
+    pub fn t(&self, k: usize) -> usize {
+        3 * k
+    }
+    /// Index of the geopotential height (m) at level `k`.
+    pub fn z(&self, k: usize) -> usize {
+        3 * k + 1
+    }
+    /// Index of the relative humidity (%) at level `k`.
+    pub fn rh(&self, k: usize) -> usize {
+        3 * k + 2
+    }
+    /// Index of the 2 m temperature (K).
+    pub fn t2(&self) -> usize {
+        3 * self.levels_pa.len()
+    }
+    /// Index of the 2 m relative humidity (%).
+    pub fn rh2(&self) -> usize {
+        3 * self.levels_pa.len() + 1
+    }
+    /// Index of the step's precipitation (kg m⁻²).
+    pub fn precip(&self) -> usize {
+        3 * self.levels_pa.len() + 2
+    }
+    /// Index of the model terrain height under the column (m): carried with the storm so the
+    /// 2 m temperature can be corrected when moved over different ground.
+    pub fn terrain(&self) -> usize {
+        3 * self.levels_pa.len() + 3
+    }
+    /// Values per cell.
+    pub fn nvar(&self) -> usize {
+        3 * self.levels_pa.len() + 4
+    }
+}
+
+/// Ground-attached fields.
+#[derive(Clone, Debug)]
+pub struct StaticFields {
+    /// The grid every file of the case shares.
+    pub grid: Grid,
+    /// Surface altitude, m, row-major.
+    pub terrain: Vec<f32>,
+    /// The file.
+    pub path: PathBuf,
+}
+
+/// One time step's storm-attached fields.
+#[derive(Clone, Debug)]
+pub struct StepFields {
+    /// Valid time (end of the precipitation interval).
+    pub valid: DateTime<Utc>,
+    /// Variable layout within each cell.
+    pub layout: StepLayout,
+    /// `nvar` values per cell, cell-major.
+    pub columns: Vec<f32>,
+    /// The file.
+    pub path: PathBuf,
+}
+
+fn grid_text(g: &Grid) -> String {
+    let gt = g.georef.geotransform;
+    format!(
+        "{}×{} cells, origin {:.6},{:.6}, spacing {:.6}×{:.6}",
+        g.nx, g.ny, gt[0], gt[3], gt[1], gt[5]
+    )
+}
+
+fn band<'a>(r: &'a Raster, path: &Path, name: &str, why: &str) -> Result<&'a [f32], FieldError> {
+    r.descriptions
+        .iter()
+        .position(|d| d.trim() == name)
+        .map(|i| r.bands[i].as_slice())
+        .ok_or_else(|| FieldError::Missing {
+            path: path.to_path_buf(),
+            band: name.to_string(),
+            why: why.to_string(),
+        })
+}
+
+/// Checks that every finite value lies in `lo..=hi`, naming the first offender.
+fn check_range(
+    path: &Path,
+    name: &str,
+    v: &[f32],
+    lo: f32,
+    hi: f32,
+    hint: &str,
+) -> Result<(), FieldError> {
+    if let Some((i, x)) = v
+        .iter()
+        .enumerate()
+        .find(|(_, x)| x.is_finite() && !(lo..=hi).contains(*x))
+    {
+        return Err(FieldError::Implausible {
+            path: path.to_path_buf(),
+            band: name.to_string(),
+            what: format!("cell {i} holds {x}, outside the plausible {lo}…{hi}; {hint}"),
+        });
+    }
+    Ok(())
+}
+
+/// Reads the terrain file.
+pub fn read_static(path: &Path) -> Result<StaticFields, FieldError> {
+    let r = read_geotiff(path)?;
+    let grid =
+        Grid::new(r.width, r.height, r.georef.clone()).map_err(|source| FieldError::Grid {
+            path: path.to_path_buf(),
+            source,
+        })?;
+    let terrain = band(&r, path, "surface_altitude", "terrain height in m")?.to_vec();
+    check_range(
+        path,
+        "surface_altitude",
+        &terrain,
+        -500.0,
+        9000.0,
+        "expected metres above sea level",
+    )?;
+    Ok(StaticFields {
+        grid,
+        terrain,
+        path: path.to_path_buf(),
+    })
+}
+
+/// Parses `…@850hPa` descriptions into the list of isobaric levels, Pa, highest pressure first.
+fn isobaric_levels(r: &Raster) -> Vec<f64> {
+    let mut levels: Vec<f64> = r
+        .descriptions
+        .iter()
+        .filter_map(|d| d.trim().strip_prefix("air_temperature@"))
+        .filter_map(|l| l.strip_suffix("hPa"))
+        .filter_map(|l| l.parse::<f64>().ok())
+        .filter(|p| p.is_finite() && *p > 0.0)
+        .map(|p| p * 100.0)
+        .collect();
+    levels.sort_by(|a, b| b.total_cmp(a));
+    levels.dedup();
+    levels
+}
+
+/// Writes a level as it appears in band descriptions: 850 hPa → `850hPa`, 92.5 hPa → `92.5hPa`.
+pub fn level_tag(p_pa: f64) -> String {
+    let hpa = p_pa / 100.0;
+    if (hpa - hpa.round()).abs() < 1e-9 {
+        format!("{}hPa", hpa.round() as i64)
+    } else {
+        format!("{hpa}hPa")
+    }
+}
+
+/// Reads one step file, checks it against the case grid and returns its interleaved columns.
+/// `terrain` is the ground height of the case, copied into the columns (see
+/// [`StepLayout::terrain`]).
+pub fn read_step(path: &Path, statics: &StaticFields) -> Result<StepFields, FieldError> {
+    let r = read_geotiff(path)?;
+    let grid =
+        Grid::new(r.width, r.height, r.georef.clone()).map_err(|source| FieldError::Grid {
+            path: path.to_path_buf(),
+            source,
+        })?;
+    if !grid.same_as(&statics.grid) {
+        return Err(FieldError::GridMismatch {
+            path: path.to_path_buf(),
+            first: statics.path.clone(),
+            got: grid_text(&grid),
+            want: grid_text(&statics.grid),
+        });
+    }
+    let layout_err = |what: String| FieldError::Layout {
+        path: path.to_path_buf(),
+        what,
+    };
+    let valid = r
+        .dataset_metadata
+        .iter()
+        .find(|(k, _)| k == "valid_time")
+        .map(|(_, v)| v.clone())
+        .ok_or_else(|| {
+            layout_err(
+                "no 'valid_time' metadata item (an RFC 3339 time such as 2026-01-14T06:00:00Z)"
+                    .into(),
+            )
+        })?;
+    let valid = DateTime::parse_from_rfc3339(valid.trim())
+        .map_err(|_| layout_err(format!("'valid_time' = '{valid}' is not an RFC 3339 time")))?
+        .with_timezone(&Utc);
+    let levels_pa = isobaric_levels(&r);
+    if levels_pa.len() < 2 {
+        return Err(layout_err(format!(
+            "found {} isobaric level(s) of air_temperature; at least two are needed (bands named like air_temperature@850hPa)",
+            levels_pa.len()
+        )));
+    }
+    let layout = StepLayout { levels_pa };
+    let n = grid.len();
+    let nvar = layout.nvar();
+    let mut columns = vec![f32::NAN; n * nvar];
+    let mut put = |var: usize, values: &[f32]| {
+        for (c, v) in values.iter().enumerate() {
+            columns[c * nvar + var] = *v;
+        }
+    };
+    const T_HINT: &str = "temperatures must be in kelvin (a value near 0–30 suggests °C)";
+    const RH_HINT: &str = "relative humidity must be in percent, 0–100";
+    for (k, &p) in layout.levels_pa.iter().enumerate() {
+        let tag = level_tag(p);
+        for (name, var, lo, hi, hint) in [
+            ("air_temperature", layout.t(k), 150.0, 340.0, T_HINT),
+            (
+                "geopotential_height",
+                layout.z(k),
+                -1000.0,
+                40000.0,
+                "expected metres",
+            ),
+            ("relative_humidity", layout.rh(k), 0.0, 100.5, RH_HINT),
+        ] {
+            let full = format!("{name}@{tag}");
+            let v = band(
+                &r,
+                path,
+                &full,
+                "every isobaric level needs temperature, height and humidity",
+            )?;
+            check_range(path, &full, v, lo, hi, hint)?;
+            put(var, v);
+        }
+    }
+    for (name, var, lo, hi, hint) in [
+        ("air_temperature@2m", layout.t2(), 150.0, 340.0, T_HINT),
+        ("relative_humidity@2m", layout.rh2(), 0.0, 100.5, RH_HINT),
+        (
+            "precipitation_amount",
+            layout.precip(),
+            -0.01,
+            1000.0,
+            "expected kg m-2 (mm) per step, not negative",
+        ),
+    ] {
+        let v = band(
+            &r,
+            path,
+            name,
+            "needed to decide type and amount at the ground",
+        )?;
+        check_range(path, name, v, lo, hi, hint)?;
+        put(var, v);
+    }
+    put(layout.terrain(), &statics.terrain);
+    for c in 0..n {
+        let col = &mut columns[c * nvar..(c + 1) * nvar];
+        // Rounding noise only: the range checks above refused anything larger.
+        col[layout.precip()] = col[layout.precip()].max(0.0);
+        for k in 0..layout.levels_pa.len() {
+            col[layout.rh(k)] = col[layout.rh(k)].min(100.0);
+        }
+        col[layout.rh2()] = col[layout.rh2()].min(100.0);
+        for k in 1..layout.levels_pa.len() {
+            let (z0, z1) = (col[layout.z(k - 1)], col[layout.z(k)]);
+            if z1 <= z0 {
+                return Err(FieldError::Implausible {
+                    path: path.to_path_buf(),
+                    band: format!("geopotential_height@{}", level_tag(layout.levels_pa[k])),
+                    what: format!(
+                        "cell {c}: height {z1} m is not above {z0} m at {}; heights must increase upward",
+                        level_tag(layout.levels_pa[k - 1])
+                    ),
+                });
+            }
+        }
+    }
+    Ok(StepFields {
+        valid,
+        layout,
+        columns,
+        path: path.to_path_buf(),
+    })
+}

@@ -1,0 +1,116 @@
+//! What the binary shows a person: a progress bar while it runs and a short summary after.
+
+use indicatif::{ProgressBar, ProgressStyle};
+use std::io::IsTerminal;
+use std::sync::Mutex;
+use trackswing::case::Case;
+use trackswing::engine::RunResult;
+use trackswing::progress::Progress;
+use trackswing::write::Written;
+
+/// A progress bar on stderr when it is a terminal; warnings are kept for the summary.
+pub struct Bar {
+    bar: Mutex<Option<ProgressBar>>,
+    show: bool,
+    warnings: Mutex<Vec<String>>,
+}
+
+impl Bar {
+    pub fn new(quiet: bool) -> Self {
+        Self {
+            bar: Mutex::new(None),
+            show: !quiet && std::io::stderr().is_terminal(),
+            warnings: Mutex::new(Vec::new()),
+        }
+    }
+}
+
+impl Progress for Bar {
+    fn start(&self, what: &str, total: u64) {
+        if !self.show {
+            return;
+        }
+        let b = ProgressBar::new(total);
+        b.set_style(
+            ProgressStyle::with_template("{msg:>12} [{bar:30}] {pos}/{len} ({elapsed})")
+                .expect("static template")
+                .progress_chars("=> "),
+        );
+        b.set_message(what.to_string());
+        // Only runs lasting more than a moment show the bar.
+        b.enable_steady_tick(std::time::Duration::from_millis(250));
+        *self.bar.lock().expect("bar lock") = Some(b);
+    }
+    fn advance(&self, n: u64) {
+        if let Some(b) = self.bar.lock().expect("bar lock").as_ref() {
+            b.inc(n);
+        }
+    }
+    fn finish(&self) {
+        if let Some(b) = self.bar.lock().expect("bar lock").take() {
+            b.finish_and_clear();
+        }
+    }
+    fn warn(&self, message: &str) {
+        self.warnings
+            .lock()
+            .expect("warnings lock")
+            .push(message.to_string());
+    }
+}
+
+/// Prints what was written and the towns whose totals swing most.
+pub fn summary(
+    case: &Case,
+    r: &RunResult,
+    files: &[Written],
+    bar: &Bar,
+    took: std::time::Duration,
+) {
+    let u = case.units;
+    println!("trackswing: {}", case.title);
+    println!(
+        "{} scenarios × {} steps × {}×{} cells in {:.1} s",
+        r.scenarios.len(),
+        r.valid_times.len(),
+        r.grid.nx,
+        r.grid.ny,
+        took.as_secs_f64()
+    );
+    for w in bar.warnings.lock().expect("warnings lock").iter() {
+        println!("warning: {w}");
+    }
+    println!("layers written to {}:", case.out_dir.display());
+    for f in files {
+        println!("  {:<38} {}", f.file, f.description);
+    }
+    let towns = trackswing::summarise::towns(r);
+    let ranked = trackswing::summarise::by_swing(&towns);
+    if !ranked.is_empty() {
+        println!(
+            "towns whose snowfall swings most with track error ({}):",
+            u.snow_unit()
+        );
+        println!(
+            "  {:<20} {:>9} {:>7} {:>7} {:>7}  {}",
+            "town", "as model", "min", "max", "range", "smallest when / largest when"
+        );
+        for t in ranked.iter().take(5) {
+            if t.min.is_nan() {
+                println!("  {:<20} missing in some scenario", t.name);
+                continue;
+            }
+            println!(
+                "  {:<20} {:>9.1} {:>7.1} {:>7.1} {:>7.1}  {} / {}",
+                t.name,
+                u.snow(t.snowfall[r.baseline]),
+                u.snow(t.min),
+                u.snow(t.max),
+                u.snow(t.range()),
+                r.scenarios[t.argmin].in_words(),
+                r.scenarios[t.argmax].in_words()
+            );
+        }
+    }
+    println!("{}", trackswing::CAUTION);
+}

@@ -1,0 +1,116 @@
+//! `manifest.json`: every file written, with kind, units and description; the scenarios; the
+//! settings; and a SHA-256 of every input, so an analyst can tell two runs apart. Written last.
+
+use super::{write_text_atomic, WriteError, Written};
+use crate::case::Case;
+use crate::engine::RunResult;
+use serde::Serialize;
+use sha2::{Digest, Sha256};
+use std::path::Path;
+
+#[derive(Serialize)]
+struct Input {
+    role: String,
+    path: String,
+    sha256: String,
+}
+
+#[derive(Serialize)]
+struct ScenarioEntry {
+    band: usize,
+    cross_km: f64,
+    along_km: f64,
+    label: String,
+    baseline: bool,
+}
+
+#[derive(Serialize)]
+struct Manifest<'a> {
+    trackswing_version: &'a str,
+    caution: &'a str,
+    title: &'a str,
+    case_file: String,
+    member: &'a str,
+    written_utc: String,
+    crs: &'a str,
+    grid: serde_json::Value,
+    units: crate::case::Units,
+    methods: &'a crate::diagnose::Methods,
+    taper: &'a crate::shift::Taper,
+    steps: Vec<String>,
+    scenarios: Vec<ScenarioEntry>,
+    files: &'a [Written],
+    inputs: Vec<Input>,
+}
+
+fn sha256_of(path: &Path) -> Result<String, WriteError> {
+    let bytes = std::fs::read(path).map_err(|source| WriteError::Io {
+        path: path.to_path_buf(),
+        source,
+    })?;
+    Ok(format!("{:x}", Sha256::digest(&bytes)))
+}
+
+/// Writes `manifest.json` describing `files` (which must already be in place).
+pub fn write_manifest(
+    dir: &Path,
+    case: &Case,
+    r: &RunResult,
+    files: &[Written],
+) -> Result<(), WriteError> {
+    let mut inputs = vec![Input {
+        role: "case".into(),
+        path: case.path.display().to_string(),
+        sha256: sha256_of(&case.path)?,
+    }];
+    let mut add = |role: &str, p: &Path| -> Result<(), WriteError> {
+        inputs.push(Input {
+            role: role.into(),
+            path: p.display().to_string(),
+            sha256: sha256_of(p)?,
+        });
+        Ok(())
+    };
+    add("terrain", &case.member.terrain)?;
+    for s in &case.member.steps {
+        add("step", s)?;
+    }
+    if let Some(t) = &case.member.track {
+        add("track", t)?;
+    }
+    if let Some(t) = &case.towns {
+        add("towns", t)?;
+    }
+    let gt = r.grid.georef.geotransform;
+    let m = Manifest {
+        trackswing_version: env!("CARGO_PKG_VERSION"),
+        caution: crate::CAUTION,
+        title: &case.title,
+        case_file: case.path.display().to_string(),
+        member: &case.member.name,
+        written_utc: chrono::Utc::now().to_rfc3339_opts(chrono::SecondsFormat::Secs, true),
+        crs: "EPSG:4326",
+        grid: serde_json::json!({"columns": r.grid.nx, "rows": r.grid.ny, "geotransform": gt}),
+        units: case.units,
+        methods: &case.methods,
+        taper: &case.taper,
+        steps: r.valid_times.iter().map(|t| t.to_rfc3339()).collect(),
+        scenarios: r
+            .scenarios
+            .iter()
+            .enumerate()
+            .map(|(i, s)| ScenarioEntry {
+                band: i + 1,
+                cross_km: s.cross_km,
+                along_km: s.along_km,
+                label: s.label(),
+                baseline: s.is_baseline(),
+            })
+            .collect(),
+        files,
+        inputs,
+    };
+    let text = serde_json::to_string_pretty(&m).expect("manifest serialises");
+    write_text_atomic(dir, "manifest.json", &(text + "\n"))?;
+    Ok(())
+}

@@ -1,0 +1,161 @@
+//! Stage 6, write: GeoTIFF rasters, GeoJSON lines and points, the towns table, the manifest.
+//!
+//! Every file is written under a temporary name in the output folder and renamed into place
+//! once complete; the manifest is written last, so a folder with a manifest holds a complete
+//! set and an interrupted run never leaves a half-written layer under a final name.
+
+pub mod lines;
+pub mod manifest;
+pub mod rasters;
+pub mod towns;
+
+use std::io::Write;
+use std::path::{Path, PathBuf};
+
+/// Why outputs could not be written.
+#[derive(Debug, thiserror::Error)]
+pub enum WriteError {
+    /// A file or folder could not be written.
+    #[error("{path}: cannot write: {source}")]
+    Io {
+        /// The file or folder.
+        path: PathBuf,
+        /// The cause.
+        source: std::io::Error,
+    },
+    /// The GeoTIFF encoder failed.
+    #[error(transparent)]
+    GeoTiff(#[from] crate::geotiff::GeoTiffError),
+    /// Contouring failed.
+    #[error("contouring the rain–snow line failed: {0}")]
+    Contour(String),
+    /// The output folder is unusable.
+    #[error("{path}: {what}")]
+    Folder {
+        /// The folder.
+        path: PathBuf,
+        /// What is wrong.
+        what: String,
+    },
+}
+
+/// What a file is, for the manifest.
+#[derive(Clone, Copy, Debug, PartialEq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Kind {
+    /// GeoTIFF.
+    Raster,
+    /// GeoJSON.
+    Vector,
+    /// CSV.
+    Table,
+}
+
+/// One written file, for the manifest.
+#[derive(Clone, Debug, serde::Serialize)]
+pub struct Written {
+    /// File name within the output folder.
+    pub file: String,
+    /// Raster, vector or table.
+    pub kind: Kind,
+    /// Units of the values (`cm`, `mm`, `1` for fractions, or a list for tables).
+    pub units: String,
+    /// What it shows.
+    pub description: String,
+    /// Band descriptions for multi-band rasters.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub bands: Vec<String>,
+}
+
+/// Writes `bytes` (produced by `fill`) to `dir/name` atomically: a temporary file in the same
+/// folder, flushed and synced, then renamed.
+pub fn write_atomic(
+    dir: &Path,
+    name: &str,
+    fill: impl FnOnce(&Path) -> Result<(), WriteError>,
+) -> Result<PathBuf, WriteError> {
+    let final_path = dir.join(name);
+    let tmp = dir.join(format!(".{name}.partial"));
+    let result = fill(&tmp).and_then(|_| {
+        std::fs::File::open(&tmp)
+            .and_then(|f| f.sync_all())
+            .map_err(|source| WriteError::Io {
+                path: tmp.clone(),
+                source,
+            })?;
+        std::fs::rename(&tmp, &final_path).map_err(|source| WriteError::Io {
+            path: final_path.clone(),
+            source,
+        })
+    });
+    if result.is_err() {
+        let _ = std::fs::remove_file(&tmp);
+    }
+    result.map(|_| final_path)
+}
+
+/// Writes text atomically.
+pub fn write_text_atomic(dir: &Path, name: &str, text: &str) -> Result<PathBuf, WriteError> {
+    write_atomic(dir, name, |tmp| {
+        let mut f = std::fs::File::create(tmp).map_err(|source| WriteError::Io {
+            path: tmp.to_path_buf(),
+            source,
+        })?;
+        f.write_all(text.as_bytes())
+            .map_err(|source| WriteError::Io {
+                path: tmp.to_path_buf(),
+                source,
+            })
+    })
+}
+
+/// Creates the output folder if needed and checks it can be written.
+pub fn prepare_folder(dir: &Path) -> Result<(), WriteError> {
+    if dir.exists() && !dir.is_dir() {
+        return Err(WriteError::Folder {
+            path: dir.to_path_buf(),
+            what: "exists and is not a folder".into(),
+        });
+    }
+    std::fs::create_dir_all(dir).map_err(|source| WriteError::Io {
+        path: dir.to_path_buf(),
+        source,
+    })
+}
+
+/// Writes every layer of a run into `case.out_dir`, the manifest last. Returns the files.
+pub fn write_all(
+    case: &crate::case::Case,
+    r: &crate::engine::RunResult,
+) -> Result<Vec<Written>, WriteError> {
+    let dir = &case.out_dir;
+    prepare_folder(dir)?;
+    let meta = vec![
+        (
+            "trackswing_version".to_string(),
+            env!("CARGO_PKG_VERSION").to_string(),
+        ),
+        ("case_title".to_string(), case.title.clone()),
+        ("caution".to_string(), crate::CAUTION.to_string()),
+    ];
+    let mut files = rasters::write_rasters(dir, r, case.units, &meta)?;
+    files.push(lines::write_rain_snow_lines(dir, r)?);
+    let towns = crate::summarise::towns(r);
+    files.extend(towns::write_towns(
+        dir,
+        &towns,
+        &r.scenarios,
+        r.baseline,
+        case.units,
+    )?);
+    manifest::write_manifest(dir, case, r, &files)?;
+    let mut all = files;
+    all.push(Written {
+        file: "manifest.json".into(),
+        kind: Kind::Table,
+        units: String::new(),
+        description: "What was written, from which inputs, with which settings".into(),
+        bands: Vec::new(),
+    });
+    Ok(all)
+}

@@ -1,0 +1,180 @@
+//! The towns table (CSV) and points (GeoJSON) with every scenario's snowfall.
+
+use super::{write_text_atomic, Kind, WriteError, Written};
+use crate::case::Units;
+use crate::scenario::Scenario;
+use crate::summarise::TownSummary;
+use geojson::{Feature, FeatureCollection, Geometry, JsonObject};
+use std::path::Path;
+
+/// Makes a text cell safe for spreadsheets: a leading `=`, `+`, `-` or `@` would be run as a
+/// formula, so such text gets a leading apostrophe (OWASP "CSV injection" guidance).
+pub fn spreadsheet_safe(s: &str) -> String {
+    if s.starts_with(['=', '+', '-', '@', '\t', '\r']) {
+        format!("'{s}")
+    } else {
+        s.to_string()
+    }
+}
+
+fn num(v: f32, decimals: usize) -> String {
+    if v.is_finite() {
+        format!("{v:.decimals$}")
+    } else {
+        String::new()
+    }
+}
+
+/// Column name of one scenario's snowfall, e.g. `snow_cm_c+20_a-50`.
+fn scenario_column(s: &Scenario, unit: &str) -> String {
+    let f = |v: f64| {
+        if v > 0.0 {
+            format!("+{v}")
+        } else {
+            format!("{v}")
+        }
+    };
+    format!("snow_{unit}_c{}_a{}", f(s.cross_km), f(s.along_km))
+}
+
+/// Writes `towns.csv` and `towns.geojson`.
+pub fn write_towns(
+    dir: &Path,
+    towns: &[TownSummary],
+    scenarios: &[Scenario],
+    baseline: usize,
+    units: Units,
+) -> Result<Vec<Written>, WriteError> {
+    let u = units.snow_unit();
+    let mut header = vec![
+        "name".to_string(),
+        "lat".into(),
+        "lon".into(),
+        format!("baseline_{u}"),
+        format!("min_{u}"),
+        format!("max_{u}"),
+        format!("range_{u}"),
+        "min_offset".into(),
+        "max_offset".into(),
+        "baseline_snow_fraction".into(),
+    ];
+    header.extend(scenarios.iter().map(|s| scenario_column(s, u)));
+    let mut w = csv::Writer::from_writer(Vec::new());
+    let csv_err = |e: csv::Error| WriteError::Io {
+        path: dir.join("towns.csv"),
+        source: std::io::Error::other(e.to_string()),
+    };
+    w.write_record(&header).map_err(csv_err)?;
+    let mut features = Vec::new();
+    for t in towns {
+        let missing = t.min.is_nan();
+        let mut row = vec![
+            spreadsheet_safe(&t.name),
+            format!("{:.5}", t.lat),
+            format!("{:.5}", t.lon),
+            num(units.snow(t.snowfall[baseline]), 1),
+            num(units.snow(t.min), 1),
+            num(units.snow(t.max), 1),
+            num(units.snow(t.range()), 1),
+            if missing {
+                String::new()
+            } else {
+                scenarios[t.argmin].in_words()
+            },
+            if missing {
+                String::new()
+            } else {
+                scenarios[t.argmax].in_words()
+            },
+            num(t.snow_fraction[baseline], 2),
+        ];
+        row.extend(t.snowfall.iter().map(|v| num(units.snow(*v), 1)));
+        w.write_record(&row).map_err(csv_err)?;
+
+        let mut p = JsonObject::new();
+        p.insert("name".into(), t.name.clone().into());
+        let mut put = |k: String, v: f32| {
+            let val = if v.is_finite() {
+                serde_json::Value::from(((v as f64) * 10.0).round() / 10.0)
+            } else {
+                serde_json::Value::Null
+            };
+            p.insert(k, val);
+        };
+        put(format!("baseline_{u}"), units.snow(t.snowfall[baseline]));
+        put(format!("min_{u}"), units.snow(t.min));
+        put(format!("max_{u}"), units.snow(t.max));
+        put(format!("range_{u}"), units.snow(t.range()));
+        for (s, v) in scenarios.iter().zip(&t.snowfall) {
+            put(scenario_column(s, u), units.snow(*v));
+        }
+        let frac = t.snow_fraction[baseline];
+        p.insert(
+            "baseline_snow_fraction".into(),
+            if frac.is_finite() {
+                (((frac as f64) * 100.0).round() / 100.0).into()
+            } else {
+                serde_json::Value::Null
+            },
+        );
+        features.push(Feature {
+            bbox: None,
+            geometry: Some(Geometry::new_point([
+                (t.lon * 1e5).round() / 1e5,
+                (t.lat * 1e5).round() / 1e5,
+            ])),
+            id: None,
+            properties: Some(p),
+            foreign_members: None,
+        });
+    }
+    let bytes = w.into_inner().map_err(|e| WriteError::Io {
+        path: dir.join("towns.csv"),
+        source: std::io::Error::other(e.to_string()),
+    })?;
+    let text = String::from_utf8(bytes).expect("csv writes the UTF-8 it was given");
+    write_text_atomic(dir, "towns.csv", &text)?;
+    let fc = FeatureCollection {
+        bbox: None,
+        features,
+        foreign_members: None,
+    };
+    write_text_atomic(dir, "towns.geojson", &fc.to_string())?;
+    Ok(vec![
+        Written {
+            file: "towns.csv".into(),
+            kind: Kind::Table,
+            units: format!("snowfall in {u}; lat/lon in degrees; fractions 0–1"),
+            description: "Every town's snowfall for every track offset, with its baseline, smallest, largest and range".into(),
+            bands: Vec::new(),
+        },
+        Written {
+            file: "towns.geojson".into(),
+            kind: Kind::Vector,
+            units: format!("snowfall in {u}"),
+            description: "Towns as points with the same values as towns.csv".into(),
+            bands: Vec::new(),
+        },
+    ])
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn formulas_are_neutralised() {
+        assert_eq!(spreadsheet_safe("=HYPERLINK(1)"), "'=HYPERLINK(1)");
+        assert_eq!(spreadsheet_safe("-2+3"), "'-2+3");
+        assert_eq!(spreadsheet_safe("Alder Ford"), "Alder Ford");
+    }
+
+    #[test]
+    fn scenario_columns_carry_both_offsets() {
+        let s = Scenario {
+            cross_km: 20.0,
+            along_km: -50.0,
+        };
+        assert_eq!(scenario_column(&s, "cm"), "snow_cm_c+20_a-50");
+    }
+}

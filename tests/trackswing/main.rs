@@ -1,0 +1,8 @@
+//! Integration tests: the engine on synthetic cases, the binary on the demo and on bad input.
+
+mod bad_input;
+mod demo;
+mod engine;
+mod geotiff_gdal;
+mod reference;
+mod support;

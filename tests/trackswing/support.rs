@@ -1,0 +1,181 @@
+//! Synthetic cases written with the crate's own GeoTIFF writer (whose output is checked against
+//! GDAL in the geotiff module's tests).
+
+use std::path::{Path, PathBuf};
+use trackswing::geotiff::{write_geotiff, BandSpec, Crs, Georef, SampleEncoding, WriteOptions};
+
+pub const LEVELS: [f64; 5] = [1000.0, 925.0, 850.0, 700.0, 500.0];
+
+/// A synthetic storm on a lon/lat grid near the equator (so that a fixed number of km is the
+/// same number of rows everywhere), moving east along the equator.
+pub struct Synthetic {
+    pub nx: usize,
+    pub ny: usize,
+    pub lon0: f64,
+    pub lat0: f64,
+    pub d: f64,
+    pub steps: usize,
+    /// Added to every temperature, K.
+    pub warm: f64,
+    /// Flat terrain (so a shifted storm sees the same ground everywhere).
+    pub flat: bool,
+}
+
+impl Default for Synthetic {
+    fn default() -> Self {
+        Self {
+            nx: 40,
+            ny: 30,
+            lon0: 10.0,
+            lat0: 1.5,
+            d: 0.1,
+            steps: 3,
+            warm: 0.0,
+            flat: false,
+        }
+    }
+}
+
+pub fn georef(s: &Synthetic) -> Georef {
+    Georef {
+        crs: Crs::Wgs84Geographic,
+        geotransform: [s.lon0 - s.d / 2.0, s.d, 0.0, s.lat0 + s.d / 2.0, 0.0, -s.d],
+    }
+}
+
+fn write(path: &Path, s: &Synthetic, bands: Vec<(String, Vec<f32>)>, meta: Vec<(String, String)>) {
+    let specs: Vec<BandSpec> = bands
+        .iter()
+        .map(|(d, v)| BandSpec {
+            data: v,
+            description: d.clone(),
+            metadata: vec![],
+        })
+        .collect();
+    let opts = WriteOptions {
+        encoding: SampleEncoding::Float32,
+        nodata: -9999.0,
+        dataset_metadata: meta,
+        band_scaling: vec![],
+    };
+    write_geotiff(path, s.nx, s.ny, &georef(s), &specs, &opts).unwrap();
+}
+
+/// Temperature offset (K) of the synthetic air mass: warm to the south, a gradient across the
+/// rows so the rain–snow line crosses the grid.
+fn t_anom(s: &Synthetic, row: usize, col: usize) -> f64 {
+    let y = row as f64 / (s.ny - 1) as f64; // 0 north … 1 south
+    let x = col as f64 / (s.nx - 1) as f64;
+    -6.0 + 12.0 * y + 1.5 * (3.0 * x).sin() + s.warm
+}
+
+pub fn write_case(dir: &Path, s: &Synthetic, extra: &str) -> PathBuf {
+    std::fs::create_dir_all(dir.join("f")).unwrap();
+    let n = s.nx * s.ny;
+    let terrain: Vec<f32> = (0..n)
+        .map(|i| {
+            let (r, c) = (i / s.nx, i % s.nx);
+            if s.flat {
+                return 200.0;
+            }
+            (200.0 + 150.0 * ((r as f64) * 0.3).sin() * ((c as f64) * 0.2).cos()) as f32
+        })
+        .collect();
+    write(
+        &dir.join("terrain.tif"),
+        s,
+        vec![("surface_altitude".into(), terrain.clone())],
+        vec![],
+    );
+    for k in 0..s.steps {
+        let mut bands = Vec::new();
+        let mut z = vec![0.0f64; n];
+        let mut t_prev = vec![0.0f64; n];
+        for (li, p) in LEVELS.iter().enumerate() {
+            let mut t = vec![0.0f32; n];
+            let mut rh = vec![0.0f32; n];
+            for i in 0..n {
+                let (r, c) = (i / s.nx, i % s.nx);
+                let base = [273.0, 271.5, 270.0, 262.0, 245.0][li];
+                let tk = base + t_anom(s, r, c) * [1.0, 1.0, 0.9, 0.6, 0.3][li];
+                t[i] = tk as f32;
+                rh[i] = 95.0;
+                if li == 0 {
+                    z[i] = 100.0;
+                } else {
+                    let tm = 0.5 * (tk + t_prev[i]);
+                    z[i] += 287.04 * tm / 9.80665 * (LEVELS[li - 1] / p).ln();
+                }
+                t_prev[i] = tk;
+            }
+            let tag = format!("{}hPa", *p as i64);
+            bands.push((format!("air_temperature@{tag}"), t));
+            bands.push((
+                format!("geopotential_height@{tag}"),
+                z.iter().map(|v| *v as f32).collect(),
+            ));
+            bands.push((format!("relative_humidity@{tag}"), rh));
+        }
+        let t2: Vec<f32> = (0..n)
+            .map(|i| {
+                (273.5 + t_anom(s, i / s.nx, i % s.nx) - 0.0065 * (terrain[i] as f64 - 100.0))
+                    as f32
+            })
+            .collect();
+        bands.push(("air_temperature@2m".into(), t2));
+        bands.push(("relative_humidity@2m".into(), vec![90.0; n]));
+        let precip: Vec<f32> = (0..n)
+            .map(|i| {
+                let (r, c) = (i / s.nx, i % s.nx);
+                let dx = (c as f64 - (10.0 + 5.0 * k as f64)) / 12.0;
+                let dy = (r as f64 - 15.0) / 10.0;
+                (3.0 * (-(dx * dx + dy * dy)).exp()) as f32
+            })
+            .collect();
+        bands.push(("precipitation_amount".into(), precip));
+        let meta = vec![(
+            "valid_time".into(),
+            format!("2026-01-14T{:02}:00:00Z", 3 * (k + 1)),
+        )];
+        write(&dir.join(format!("f/s_{k:02}.tif")), s, bands, meta);
+    }
+    // Due east along the equator band, at the grid's middle row.
+    let lat = s.lat0 - s.d * (s.ny as f64 - 1.0) / 2.0;
+    std::fs::write(
+        dir.join("track.csv"),
+        format!(
+            "time,lat,lon\n2026-01-14T00:00:00Z,{lat},{}\n2026-01-15T00:00:00Z,{lat},{}\n",
+            s.lon0,
+            s.lon0 + 2.0
+        ),
+    )
+    .unwrap();
+    std::fs::write(dir.join("towns.csv"), "name,lat,lon\nMidpoint,0.0,12.0\n").unwrap();
+    let case = dir.join("case.toml");
+    std::fs::write(
+        &case,
+        format!(
+            r#"title = "synthetic test storm"
+towns = "towns.csv"
+[[member]]
+name = "synthetic"
+terrain = "terrain.tif"
+steps = "f/s_*.tif"
+track = "track.csv"
+[shift]
+core_radius_km = 5000
+outer_radius_km = 6000
+lapse_rate_k_per_km = 6.5
+[output]
+folder = "out"
+{extra}
+"#
+        ),
+    )
+    .unwrap();
+    case
+}
+
+pub fn bin() -> std::process::Command {
+    std::process::Command::new(env!("CARGO_BIN_EXE_trackswing"))
+}

@@ -39,7 +39,13 @@ impl PtypeFractions {
     }
 
     /// Splits `liquid` between freezing rain and rain by the surface temperature `t_surface_k`.
+    /// Shares are clamped to [0, 1] against rounding (a product chain can reach 1 + 2⁻⁵²).
     fn with_liquid(snow: f64, ice_pellets: f64, liquid: f64, t_surface_k: f64) -> Self {
+        let (snow, ice_pellets, liquid) = (
+            snow.clamp(0.0, 1.0),
+            ice_pellets.clamp(0.0, 1.0),
+            liquid.clamp(0.0, 1.0),
+        );
         let freezing = 1.0 - surface_thaw(t_surface_k);
         PtypeFractions {
             snow,
@@ -190,7 +196,7 @@ pub fn energy_areas(
     p_floor_pa: f64,
     out: &mut [Layer; MAX_LEVELS],
 ) -> usize {
-    if !valid_profile(p_pa, t_k) || !(p_floor_pa > 0.0 && p_floor_pa.is_finite()) {
+    if !(valid_profile(p_pa, t_k) && p_floor_pa > 0.0 && p_floor_pa.is_finite()) {
         return 0;
     }
     let mut n = 0;

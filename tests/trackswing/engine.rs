@@ -86,8 +86,10 @@ fn cross_track_shift_of_k_cells_translates_the_result() {
     let (base, moved) = (&r.totals[0], &r.totals[1]);
     assert_eq!(r.scenarios[1].cross_km, km);
     let mut checked = 0;
+    // Interior cells: the edge columns may sample a hair beyond the grid, since the geodesic
+    // heading along a parallel is not exactly 90°.
     for row in 0..s.ny - k {
-        for col in 0..s.nx {
+        for col in 1..s.nx - 1 {
             let a = moved.snowfall[row * s.nx + col];
             let b = base.snowfall[(row + k) * s.nx + col];
             assert!(
@@ -100,7 +102,7 @@ fn cross_track_shift_of_k_cells_translates_the_result() {
             checked += 1;
         }
     }
-    assert_eq!(checked, (s.ny - k) * s.nx);
+    assert_eq!(checked, (s.ny - k) * (s.nx - 2));
     // The last k rows took their values from beyond the grid's southern edge: missing.
     assert!(moved.snowfall[(s.ny - 1) * s.nx].is_nan());
 }

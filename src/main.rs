@@ -55,11 +55,13 @@ fn run_case(
     let result = trackswing::engine::run(&case, threads, &progress).map_err(|e| {
         Failure::Input(anyhow::Error::from(e).context("the run stopped; nothing was written"))
     })?;
+    let clock = std::time::Instant::now();
     let files = trackswing::write::write_all(&case, &result)
         .with_context(|| format!("writing the layers into {}", case.out_dir.display()))
         .map_err(Failure::Output)?;
     if !common.quiet {
-        report::summary(&case, &result, &files, &progress, started.elapsed());
+        let write_s = clock.elapsed().as_secs_f64();
+        report::summary(&case, &result, &files, &progress, started.elapsed(), write_s);
     }
     Ok(())
 }

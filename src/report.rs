@@ -66,41 +66,50 @@ pub fn summary(
     files: &[Written],
     bar: &Bar,
     took: std::time::Duration,
+    write_s: f64,
 ) {
+    use std::fmt::Write as _;
+    use std::io::Write as _;
+    let mut out = String::new();
     let u = case.units;
-    println!("trackswing: {}", case.title);
-    println!(
-        "{} scenarios × {} steps × {}×{} cells in {:.1} s",
+    let _ = writeln!(out, "trackswing: {}", case.title);
+    let evals = (r.scenarios.len() * r.valid_times.len() * r.grid.len()) as f64;
+    let _ = writeln!(out, 
+        "{} scenarios × {} steps × {}×{} cells in {:.2} s (read {:.2} s, shift+diagnose {:.2} s, write {:.2} s; {:.3e} cell·step·scenario/s)",
         r.scenarios.len(),
         r.valid_times.len(),
         r.grid.nx,
         r.grid.ny,
-        took.as_secs_f64()
+        took.as_secs_f64(),
+        r.timings.read_s,
+        r.timings.compute_s,
+        write_s,
+        evals / r.timings.compute_s.max(1e-9)
     );
     for w in bar.warnings.lock().expect("warnings lock").iter() {
-        println!("warning: {w}");
+        let _ = writeln!(out, "warning: {w}");
     }
-    println!("layers written to {}:", case.out_dir.display());
+    let _ = writeln!(out, "layers written to {}:", case.out_dir.display());
     for f in files {
-        println!("  {:<38} {}", f.file, f.description);
+        let _ = writeln!(out, "  {:<38} {}", f.file, f.description);
     }
     let towns = trackswing::summarise::towns(r);
     let ranked = trackswing::summarise::by_swing(&towns);
     if !ranked.is_empty() {
-        println!(
+        let _ = writeln!(out, 
             "towns whose snowfall swings most with track error ({}):",
             u.snow_unit()
         );
-        println!(
+        let _ = writeln!(out, 
             "  {:<20} {:>9} {:>7} {:>7} {:>7}  {}",
             "town", "as model", "min", "max", "range", "smallest when / largest when"
         );
         for t in ranked.iter().take(5) {
             if t.min.is_nan() {
-                println!("  {:<20} missing in some scenario", t.name);
+                let _ = writeln!(out, "  {:<20} missing in some scenario", t.name);
                 continue;
             }
-            println!(
+            let _ = writeln!(out, 
                 "  {:<20} {:>9.1} {:>7.1} {:>7.1} {:>7.1}  {} / {}",
                 t.name,
                 u.snow(t.snowfall[r.baseline]),
@@ -112,5 +121,7 @@ pub fn summary(
             );
         }
     }
-    println!("{}", trackswing::CAUTION);
+    let _ = writeln!(out, "{}", trackswing::CAUTION);
+    // A closed pipe (e.g. `| head`) is not an error worth a panic.
+    let _ = std::io::stdout().lock().write_all(out.as_bytes());
 }

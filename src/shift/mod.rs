@@ -105,6 +105,38 @@ pub fn source_index(
     )
 }
 
+/// Bilinear weights of a fractional (`col`, `row`): the top-left neighbour's (column, row) and
+/// the fractions towards the next column and row. `None` outside the cell-centre hull.
+#[inline]
+pub fn bilinear_weights(grid: &Grid, col: f32, row: f32) -> Option<(usize, usize, f32, f32)> {
+    let (nx, ny) = (grid.nx, grid.ny);
+    if !(col >= 0.0 && row >= 0.0 && col <= (nx - 1) as f32 && row <= (ny - 1) as f32) {
+        return None;
+    }
+    let i0 = (col as usize).min(nx - 2);
+    let j0 = (row as usize).min(ny - 2);
+    Some((i0, j0, col - i0 as f32, row - j0 as f32))
+}
+
+/// Bilinear sample of variable `var` of `nvar` interleaved values at precomputed weights.
+#[inline]
+pub fn sample_one(
+    columns: &[f32],
+    nvar: usize,
+    nx: usize,
+    (i0, j0, fx, fy): (usize, usize, f32, f32),
+    var: usize,
+) -> f32 {
+    let at = |di: usize, dj: usize| columns[((j0 + dj) * nx + i0 + di) * nvar + var];
+    let top = if fx > 0.0 { at(0, 0) + fx * (at(1, 0) - at(0, 0)) } else { at(0, 0) };
+    if fy > 0.0 {
+        let bottom = if fx > 0.0 { at(0, 1) + fx * (at(1, 1) - at(0, 1)) } else { at(0, 1) };
+        top + fy * (bottom - top)
+    } else {
+        top
+    }
+}
+
 /// Bilinear sample of all `nvar` interleaved values at fractional (`col`, `row`) into `out`.
 /// Returns false (and leaves `out` untouched) when the point lies outside the cell-centre hull.
 /// Neighbours with zero weight are not read, so a point exactly on a cell takes that cell's
@@ -118,30 +150,53 @@ pub fn sample_bilinear(
     row: f32,
     out: &mut [f32],
 ) -> bool {
-    let (nx, ny) = (grid.nx, grid.ny);
-    if !(col >= 0.0 && row >= 0.0 && col <= (nx - 1) as f32 && row <= (ny - 1) as f32) {
-        return false;
+    match bilinear_weights(grid, col, row) {
+        Some(w) => {
+            sample_at(columns, nvar, grid.nx, w, out);
+            true
+        }
+        None => false,
     }
-    let i0 = (col.floor() as usize).min(nx - 2);
-    let j0 = (row.floor() as usize).min(ny - 2);
-    let fx = col - i0 as f32;
-    let fy = row - j0 as f32;
+}
+
+/// [`sample_bilinear`] at precomputed weights; written as straight loops over the variables so
+/// the compiler vectorises them.
+#[inline]
+pub fn sample_at(
+    columns: &[f32],
+    nvar: usize,
+    nx: usize,
+    (i0, j0, fx, fy): (usize, usize, f32, f32),
+    out: &mut [f32],
+) {
+    let base = |di: usize, dj: usize| ((j0 + dj) * nx + i0 + di) * nvar;
     let out = &mut out[..nvar];
-    out.fill(0.0);
-    for (di, dj, w) in [
-        (0, 0, (1.0 - fx) * (1.0 - fy)),
-        (1, 0, fx * (1.0 - fy)),
-        (0, 1, (1.0 - fx) * fy),
-        (1, 1, fx * fy),
-    ] {
-        if w > 0.0 {
-            let base = ((j0 + dj) * nx + i0 + di) * nvar;
-            for (o, v) in out.iter_mut().zip(&columns[base..base + nvar]) {
-                *o += w * v;
+    let a = &columns[base(0, 0)..base(0, 0) + nvar];
+    match (fx > 0.0, fy > 0.0) {
+        (false, false) => out.copy_from_slice(a),
+        (true, false) => {
+            let b = &columns[base(1, 0)..base(1, 0) + nvar];
+            for v in 0..nvar {
+                out[v] = a[v] + fx * (b[v] - a[v]);
+            }
+        }
+        (false, true) => {
+            let c = &columns[base(0, 1)..base(0, 1) + nvar];
+            for v in 0..nvar {
+                out[v] = a[v] + fy * (c[v] - a[v]);
+            }
+        }
+        (true, true) => {
+            let b = &columns[base(1, 0)..base(1, 0) + nvar];
+            let c = &columns[base(0, 1)..base(0, 1) + nvar];
+            let d = &columns[base(1, 1)..base(1, 1) + nvar];
+            for v in 0..nvar {
+                let top = a[v] + fx * (b[v] - a[v]);
+                let bottom = c[v] + fx * (d[v] - c[v]);
+                out[v] = top + fy * (bottom - top);
             }
         }
     }
-    true
 }
 
 #[cfg(test)]

@@ -375,7 +375,15 @@ fn step_block(
             }
             col.copy_from_slice(&columns[c * nvar..(c + 1) * nvar]);
         } else {
-            let (sc, sr) = source_index(c % grid.nx, c / grid.nx, lon[c], lat[c], &metric[c], shift, taper);
+            let (sc, sr) = source_index(
+                c % grid.nx,
+                c / grid.nx,
+                lon[c],
+                lat[c],
+                &metric[c],
+                shift,
+                taper,
+            );
             let Some(w) = bilinear_weights(grid, sc, sr) else {
                 outside += 1;
                 rows.set_missing(i);

@@ -61,7 +61,14 @@ fn run_case(
         .map_err(Failure::Output)?;
     if !common.quiet {
         let write_s = clock.elapsed().as_secs_f64();
-        report::summary(&case, &result, &files, &progress, started.elapsed(), write_s);
+        report::summary(
+            &case,
+            &result,
+            &files,
+            &progress,
+            started.elapsed(),
+            write_s,
+        );
     }
     Ok(())
 }

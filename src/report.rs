@@ -74,7 +74,8 @@ pub fn summary(
     let u = case.units;
     let _ = writeln!(out, "trackswing: {}", case.title);
     let evals = (r.scenarios.len() * r.valid_times.len() * r.grid.len()) as f64;
-    let _ = writeln!(out, 
+    let _ = writeln!(
+        out,
         "{} scenarios × {} steps × {}×{} cells in {:.2} s (read {:.2} s, shift+diagnose {:.2} s, write {:.2} s; {:.3e} cell·step·scenario/s)",
         r.scenarios.len(),
         r.valid_times.len(),
@@ -96,11 +97,13 @@ pub fn summary(
     let towns = trackswing::summarise::towns(r);
     let ranked = trackswing::summarise::by_swing(&towns);
     if !ranked.is_empty() {
-        let _ = writeln!(out, 
+        let _ = writeln!(
+            out,
             "towns whose snowfall swings most with track error ({}):",
             u.snow_unit()
         );
-        let _ = writeln!(out, 
+        let _ = writeln!(
+            out,
             "  {:<20} {:>9} {:>7} {:>7} {:>7}  {}",
             "town", "as model", "min", "max", "range", "smallest when / largest when"
         );
@@ -109,7 +112,8 @@ pub fn summary(
                 let _ = writeln!(out, "  {:<20} missing in some scenario", t.name);
                 continue;
             }
-            let _ = writeln!(out, 
+            let _ = writeln!(
+                out,
                 "  {:<20} {:>9.1} {:>7.1} {:>7.1} {:>7.1}  {} / {}",
                 t.name,
                 u.snow(t.snowfall[r.baseline]),

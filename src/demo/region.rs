@@ -17,15 +17,30 @@ const LON0: f64 = 0.5 * (WEST + EAST);
 const LAT0: f64 = 0.5 * (NORTH + SOUTH);
 const KM_PER_DEG: f64 = EARTH_RADIUS_KM * std::f64::consts::PI / 180.0;
 
-/// Map frame of the storm: x east and y north in km from the region's centre, a sinusoidal
-/// projection on a sphere. Distances within the region are true to a few per cent, enough for
-/// an invented storm whose shapes are defined in this frame.
-pub(crate) fn to_km(lat: f64, lon: f64) -> (f64, f64) {
-    let x = (lon - LON0) * KM_PER_DEG * lat.to_radians().cos();
-    (x, (lat - LAT0) * KM_PER_DEG)
+/// Map frame of the storm along one parallel: x east and y north in km from the region's
+/// centre, a sinusoidal projection on a sphere, with the cosine of the latitude worked out
+/// once per row. Distances within the region are true to a few per cent, enough for an
+/// invented storm whose shapes are defined in this frame.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct MapRow {
+    y: f64,
+    km_per_deg_lon: f64,
 }
 
-/// Inverse of [`to_km`]: (lat, lon) in degrees.
+impl MapRow {
+    pub(crate) fn new(lat: f64) -> Self {
+        MapRow {
+            y: (lat - LAT0) * KM_PER_DEG,
+            km_per_deg_lon: KM_PER_DEG * lat.to_radians().cos(),
+        }
+    }
+
+    pub(crate) fn to_km(self, lon: f64) -> (f64, f64) {
+        ((lon - LON0) * self.km_per_deg_lon, self.y)
+    }
+}
+
+/// Inverse of [`MapRow::to_km`]: (lat, lon) in degrees.
 pub(crate) fn to_geo(x: f64, y: f64) -> (f64, f64) {
     let lat = LAT0 + y / KM_PER_DEG;
     (lat, LON0 + x / (KM_PER_DEG * lat.to_radians().cos()))
@@ -60,16 +75,32 @@ pub(crate) fn bump(u: f64) -> f64 {
 
 /// Cubic smoothstep from 0 at `lo` to 1 at `hi`.
 pub(crate) fn smoothstep(lo: f64, hi: f64, v: f64) -> f64 {
-    let t = ((v - lo) / (hi - lo)).clamp(0.0, 1.0);
+    let t = ((v - lo) * (1.0 / (hi - lo))).clamp(0.0, 1.0);
     t * t * (3.0 - 2.0 * t)
 }
 
-/// Ground at map point (x, y) km. Deterministic and smooth (sines and Gaussians only).
+/// A sine-like wave of period 2π built from parabola arcs (continuous with its slope), so
+/// the ground needs no trigonometric call per cell; its peaks are ±1 like a sine's.
+pub(crate) fn wave(theta: f64) -> f64 {
+    let v = theta * std::f64::consts::FRAC_1_PI;
+    let f = v - 2.0 * (0.5 * v).floor();
+    if f < 1.0 {
+        4.0 * f * (1.0 - f)
+    } else {
+        -4.0 * (f - 1.0) * (2.0 - f)
+    }
+}
+
+/// Ground at map point (x, y) km. Deterministic and smooth; square roots and polynomials
+/// only, so a whole grid of it costs little more than its memory.
 pub(crate) fn ground(x: f64, y: f64) -> Ground {
     let (dx, dy) = (x - COAST_CENTRE.0, y - COAST_CENTRE.1);
-    let along = COAST_RADIUS_KM * (-dx).atan2(dy);
-    let wiggle = 18.0 * (along / 110.0).sin() + 9.0 * (along / 47.0 + 1.3).sin();
-    ground_profile(dx.hypot(dy) - COAST_RADIUS_KM - wiggle, along)
+    let r = (dx * dx + dy * dy).sqrt();
+    // A coordinate along the coast, km: R·sin of the angle round the arc, monotonic over the
+    // region (the arc spans well under ±90°).
+    let along = -COAST_RADIUS_KM * dx / r;
+    let wiggle = 18.0 * wave(along * (1.0 / 110.0)) + 9.0 * wave(along * (1.0 / 47.0) + 1.3);
+    ground_profile(r - COAST_RADIUS_KM - wiggle, along)
 }
 
 /// Ground `d` km inland of the coastline (negative at sea) and `along` km along it.
@@ -78,17 +109,12 @@ fn ground_profile(d: f64, along: f64) -> Ground {
     let base = 100.0 * smoothstep(0.0, 150.0, d)
         + 160.0 * smoothstep(150.0, 260.0, d)
         + 380.0 * smoothstep(330.0, 500.0, d);
-    let ridge_crest = 1180.0 * (1.0 + 0.12 * (along / 90.0 + 0.4).sin());
-    let ridge = ridge_crest * (-((d - 225.0) / 30.0).powi(2)).exp();
-    let hills = 25.0 * (along / 23.0).sin() * (d / 17.0).sin() * smoothstep(10.0, 60.0, d);
-    let z = if d > 0.0 {
-        (base + ridge + hills).max(0.0) * land
-    } else {
-        0.0
-    };
+    let ridge_crest = 1180.0 * (1.0 + 0.12 * wave(along * (1.0 / 90.0) + 0.4));
+    let ridge = ridge_crest * bump((d - 225.0) * (1.0 / 55.0));
+    let z = if d > 0.0 { (base + ridge) * land } else { 0.0 };
     let marine = 2.5 * (1.0 - smoothstep(-20.0, 50.0, d));
-    let pool_plain = -4.5 * bump((d - 150.0) / 60.0);
-    let pool_valley = -5.0 * bump((d - 300.0) / 60.0);
+    let pool_plain = -4.5 * bump((d - 150.0) * (1.0 / 60.0));
+    let pool_valley = -5.0 * bump((d - 300.0) * (1.0 / 60.0));
     Ground {
         z,
         land,
@@ -99,7 +125,7 @@ fn ground_profile(d: f64, along: f64) -> Ground {
 /// How strongly the near-ground anomaly reaches a level `z_agl` m above the ground: full at and
 /// below the ground, half at 450 m, a rational fall-off that needs no exponential.
 pub(crate) fn ground_weight(z_agl: f64) -> f64 {
-    let h = z_agl.max(0.0) / 450.0;
+    let h = z_agl.max(0.0) * (1.0 / 450.0);
     1.0 / (1.0 + h * h)
 }
 
@@ -110,7 +136,7 @@ mod tests {
     #[test]
     fn frame_round_trip() {
         for (lat, lon) in [(42.0, -34.0), (46.8, -25.4), (51.9, -16.0)] {
-            let (x, y) = to_km(lat, lon);
+            let (x, y) = MapRow::new(lat).to_km(lon);
             let (lat2, lon2) = to_geo(x, y);
             assert!((lat - lat2).abs() < 1e-9 && (lon - lon2).abs() < 1e-9);
         }
@@ -119,9 +145,18 @@ mod tests {
     #[test]
     fn frame_distance_along_a_meridian() {
         // One degree of latitude on a 6371 km sphere is 111.19 km (common practice).
-        let (_, y0) = to_km(45.0, -25.0);
-        let (_, y1) = to_km(46.0, -25.0);
+        let (_, y0) = MapRow::new(45.0).to_km(-25.0);
+        let (_, y1) = MapRow::new(46.0).to_km(-25.0);
         assert!((y1 - y0 - 111.19).abs() < 0.01);
+    }
+
+    #[test]
+    fn wave_is_sine_like() {
+        for k in -400..400 {
+            let theta = 0.05 * f64::from(k);
+            // A parabolic wave stays within 0.06 of the sine it replaces.
+            assert!((wave(theta) - theta.sin()).abs() < 0.06, "{theta}");
+        }
     }
 
     #[test]

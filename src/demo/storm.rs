@@ -1,6 +1,6 @@
 //! The invented storm, in storm time s (0 at the first step, 1 at the last), so any step count
 //! shows the same storm from entry to exit. Shapes are in the region's km frame
-//! ([`super::region::to_km`]); storm-relative coordinates are `a` km ahead of the low along its
+//! ([`super::region::MapRow`]); storm-relative coordinates are `a` km ahead of the low along its
 //! motion and `b` km to the left of it.
 
 use super::region::bump;
@@ -12,13 +12,13 @@ const PATH: [(f64, f64); 3] = [(-520.0, -470.0), (-150.0, 150.0), (480.0, 420.0)
 /// Pressure far from the low, hPa.
 const BACKGROUND_HPA: f64 = 1014.0;
 /// The cold anticyclone to the north-west that feeds the trapped cold air: centre (km), peak
-/// excess (hPa) and e-folding radius (km).
+/// excess (hPa) and radius (km) of its rational profile.
 const HIGH: (f64, f64, f64, f64) = (-700.0, 650.0, 9.0, 650.0);
 /// Radius of the depression's rational profile, km.
 const LOW_RADIUS_KM: f64 = 320.0;
 
 /// Liquid falling in storm-time 1 under the peak of the precipitation shape, kg m⁻² (tuned so
-/// the heaviest storm totals are 35–40 mm).
+/// the heaviest storm totals on the shipped grid come to about 33 mm).
 pub(crate) const PRECIP_PER_STORM_TIME: f64 = 118.0;
 
 /// Centre of the depression profile (not quite the pressure minimum: the background tilts it).
@@ -48,6 +48,13 @@ fn depth_hpa(s: f64) -> f64 {
 /// Strength of the precipitation through the storm's life, 0…1.
 fn precip_strength(s: f64) -> f64 {
     (0.6 + 0.4 * (std::f64::consts::PI * s).sin()).max(0.0)
+}
+
+/// Sea-level pressure without the low at map point (x, y) km, hPa; it does not change in time.
+fn background_hpa(x: f64, y: f64) -> f64 {
+    let (hx, hy, h_peak, h_radius) = HIGH;
+    let hr2 = ((x - hx).powi(2) + (y - hy).powi(2)) / (h_radius * h_radius);
+    BACKGROUND_HPA + h_peak / ((1.0 + hr2) * (1.0 + hr2))
 }
 
 /// The storm at one storm time.
@@ -105,11 +112,9 @@ impl StormState {
 
     /// Sea-level pressure at map point (x, y) km, hPa.
     pub(crate) fn mslp_hpa(&self, x: f64, y: f64) -> f64 {
-        let (hx, hy, h_peak, h_radius) = HIGH;
-        let hr2 = ((x - hx).powi(2) + (y - hy).powi(2)) / (h_radius * h_radius);
         let (cx, cy) = self.profile_centre;
         let r2 = ((x - cx).powi(2) + (y - cy).powi(2)) / (LOW_RADIUS_KM * LOW_RADIUS_KM);
-        BACKGROUND_HPA + h_peak * (-hr2).exp() - self.depth / (1.0 + r2)
+        background_hpa(x, y) - self.depth / (1.0 + r2)
     }
 
     /// Storm-relative coordinates of map point (x, y): (km ahead, km to the left).
@@ -125,22 +130,22 @@ impl StormState {
 /// cold-frontal band behind and to the right. Compact bumps, so it is exactly zero far away.
 pub(crate) fn precip_shape(a: f64, b: f64) -> f64 {
     let comma_axis = 210.0 - 0.0006 * (a + 30.0) * (a + 30.0);
-    let comma = bump((b - comma_axis) / 200.0) * bump((a + 30.0) / 430.0);
-    let warm_front = bump((a - 240.0) / 220.0) * bump((b - 40.0) / 260.0);
-    let cold_front = bump((a + 150.0) / 300.0) * bump((b + 200.0) / 90.0);
+    let comma = bump((b - comma_axis) * (1.0 / 200.0)) * bump((a + 30.0) * (1.0 / 430.0));
+    let warm_front = bump((a - 240.0) * (1.0 / 220.0)) * bump((b - 40.0) * (1.0 / 260.0));
+    let cold_front = bump((a + 150.0) * (1.0 / 300.0)) * bump((b + 200.0) * (1.0 / 90.0));
     comma + 0.5 * warm_front + 0.25 * cold_front
 }
 
 /// Dryness of the dry slot wrapping in behind and right of the low, 0…1.
 pub(crate) fn dry_slot(a: f64, b: f64) -> f64 {
-    bump((a + 120.0) / 200.0) * bump((b + 40.0) / 120.0)
+    bump((a + 120.0) * (1.0 / 200.0)) * bump((b + 40.0) * (1.0 / 120.0))
 }
 
 /// Along-track weights of the storm-attached thermal pattern at `a` km ahead: the warm
 /// bulge ahead of the low (warm advection) and the cold surge behind it, each 0…1.
 pub(crate) fn front_weights(a: f64) -> (f64, f64) {
-    let w = (a - 200.0) / 250.0;
-    let c = (a + 100.0) / 250.0;
+    let w = (a - 200.0) * (1.0 / 250.0);
+    let c = (a + 100.0) * (1.0 / 250.0);
     (1.0 / (1.0 + w * w), 0.5 - 0.5 * c / (1.0 + c * c).sqrt())
 }
 
@@ -175,7 +180,8 @@ pub(crate) struct LevelPattern {
     pub front_left_km: f64,
     pub warm_bulge_km: f64,
     pub cold_surge_km: f64,
-    pub half_width_km: f64,
+    /// Inverse of the zone's half-width, km⁻¹.
+    pub inv_half_width_km: f64,
     pub rh_dry: f64,
     pub rh_wet: f64,
     pub rh_slot: f64,
@@ -202,7 +208,7 @@ impl LevelPattern {
             front_left_km: lerp(&FRONT_LEFT_KM),
             warm_bulge_km: lerp(&WARM_BULGE_KM),
             cold_surge_km: lerp(&COLD_SURGE_KM),
-            half_width_km: lerp(&ZONE_HALF_WIDTH_KM),
+            inv_half_width_km: 1.0 / lerp(&ZONE_HALF_WIDTH_KM),
             rh_dry: lerp(&RH_DRY),
             rh_wet: lerp(&RH_WET),
             rh_slot: lerp(&RH_SLOT),
@@ -215,7 +221,7 @@ impl LevelPattern {
     pub(crate) fn temperature(&self, b: f64, warm_bulge: f64, cold_surge: f64) -> f64 {
         let front =
             self.front_left_km + self.warm_bulge_km * warm_bulge - self.cold_surge_km * cold_surge;
-        let u = (front - b) / self.half_width_km;
+        let u = (front - b) * self.inv_half_width_km;
         self.t_cold + self.t_contrast * (0.5 + 0.5 * u / (1.0 + u * u).sqrt())
     }
 }

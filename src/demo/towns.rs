@@ -9,19 +9,19 @@ use super::Town;
 pub fn towns() -> Vec<Town> {
     let t = |name, lat, lon| Town { name, lat, lon };
     vec![
-        t("Brinmouth", 45.32, -30.14),
-        t("Sallowquay", 48.50, -26.59),
-        t("Vellick Head", 49.83, -22.93),
-        t("Marrowby", 46.69, -29.54),
-        t("Pellmarsh", 48.60, -27.63),
-        t("Quenfield", 45.06, -31.75),
-        t("Vessington Cross", 47.76, -29.29),
-        t("Ostlemere Mills", 50.24, -24.16),
-        t("Kellaring", 46.51, -31.28),
-        t("Fennick Junction", 49.84, -27.34),
-        t("Greymantle Gap", 48.48, -30.41),
-        t("Wendle Hollow", 48.25, -32.19),
-        t("Dunmerrow", 50.99, -27.79),
-        t("Harlowdeep", 50.66, -31.64),
+        t("Brinmouth", 45.47, -30.43),
+        t("Sallowquay", 48.30, -26.33),
+        t("Vellick Head", 49.81, -22.92),
+        t("Marrowby", 46.76, -29.66),
+        t("Pellmarsh", 48.02, -28.76),
+        t("Quenfield", 45.22, -31.59),
+        t("Vessington Cross", 46.94, -30.46),
+        t("Ostlemere Mills", 50.32, -24.60),
+        t("Kellaring", 46.67, -31.58),
+        t("Fennick Junction", 49.61, -27.06),
+        t("Greymantle Gap", 48.61, -30.62),
+        t("Wendle Hollow", 48.31, -32.32),
+        t("Dunmerrow", 50.85, -27.61),
+        t("Harlowdeep", 50.73, -31.74),
     ]
 }

@@ -128,9 +128,17 @@ pub fn sample_one(
     var: usize,
 ) -> f32 {
     let at = |di: usize, dj: usize| columns[((j0 + dj) * nx + i0 + di) * nvar + var];
-    let top = if fx > 0.0 { at(0, 0) + fx * (at(1, 0) - at(0, 0)) } else { at(0, 0) };
+    let top = if fx > 0.0 {
+        at(0, 0) + fx * (at(1, 0) - at(0, 0))
+    } else {
+        at(0, 0)
+    };
     if fy > 0.0 {
-        let bottom = if fx > 0.0 { at(0, 1) + fx * (at(1, 1) - at(0, 1)) } else { at(0, 1) };
+        let bottom = if fx > 0.0 {
+            at(0, 1) + fx * (at(1, 1) - at(0, 1))
+        } else {
+            at(0, 1)
+        };
         top + fy * (bottom - top)
     } else {
         top

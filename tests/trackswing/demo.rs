@@ -130,3 +130,60 @@ fn demo_sleet_and_freezing_rain_occur() {
         );
     }
 }
+
+#[test]
+fn a_track_shift_of_50_to_60_km_turns_quenfield_from_snow_to_rain() {
+    // The demo was built to show the main job: near the rain–snow line a few tens of km of track
+    // error flip the type (common practice). Quenfield, on the south-west plain near the line,
+    // is mostly snow as modelled and mostly rain with the low 50–60 km further left (inland).
+    use trackswing::case::{Case, Overrides};
+    let case = Case::load(
+        &demo_grid().join("case.toml"),
+        &Overrides {
+            cross: Some("-60:60:5".into()),
+            along: Some("0".into()),
+            ..Default::default()
+        },
+    )
+    .unwrap();
+    let r = trackswing::engine::run(&case, 2, &trackswing::progress::Silent).unwrap();
+    let towns = trackswing::summarise::towns(&r);
+    let q = towns.iter().find(|t| t.name == "Quenfield").unwrap();
+    let at = |cross: f64| {
+        let i = r
+            .scenarios
+            .iter()
+            .position(|s| s.cross_km == cross && s.along_km == 0.0)
+            .unwrap();
+        let rain = 1.0
+            - q.snow_fraction[i]
+            - value(&r, i, q, |t| &t.ice_pellets) / value(&r, i, q, |t| &t.liquid)
+            - value(&r, i, q, |t| &t.freezing_rain) / value(&r, i, q, |t| &t.liquid);
+        (q.snow_fraction[i], rain)
+    };
+    let (snow0, _) = at(0.0);
+    assert!(snow0 > 0.6, "as modelled Quenfield is mostly snow: {snow0}");
+    let (snow25, _) = at(25.0);
+    assert!(snow25 > 0.5, "a 25 km shift keeps it snow: {snow25}");
+    let flipped: Vec<f64> = [50.0, 55.0, 60.0]
+        .into_iter()
+        .filter(|c| {
+            let (s, rain) = at(*c);
+            s < 0.5 && rain > 0.5
+        })
+        .collect();
+    assert!(
+        !flipped.is_empty(),
+        "no flip to mostly rain at 50–60 km left: {:?}",
+        [50.0, 55.0, 60.0].map(at)
+    );
+}
+
+fn value(
+    r: &trackswing::engine::RunResult,
+    scenario: usize,
+    town: &trackswing::summarise::TownSummary,
+    f: fn(&trackswing::accumulate::Totals) -> &Vec<f32>,
+) -> f32 {
+    trackswing::summarise::value_at(&r.grid, f(&r.totals[scenario]), town.lon, town.lat)
+}

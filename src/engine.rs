@@ -34,20 +34,12 @@ pub enum EngineError {
     #[error(transparent)]
     Towns(#[from] TownsError),
     /// The track does not cover a step.
-    #[error("{path}: the track runs {start}…{end} but step {step} ({file}) is valid at {valid}; the track must cover every step when offsets other than 0 are run")]
+    #[error("{path}: {what}; the track must cover every step when offsets other than 0 are run")]
     TrackTooShort {
         /// Track file.
         path: PathBuf,
-        /// First track time.
-        start: String,
-        /// Last track time.
-        end: String,
-        /// Step number (1-based).
-        step: usize,
-        /// Step file.
-        file: PathBuf,
-        /// The step's valid time.
-        valid: String,
+        /// Which step it misses.
+        what: String,
     },
     /// The track never enters the grid.
     #[error(
@@ -225,11 +217,14 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
                         let (a, b) = t.span();
                         EngineError::TrackTooShort {
                             path: t.source.clone(),
-                            start: a.to_rfc3339(),
-                            end: b.to_rfc3339(),
-                            step: k + 1,
-                            file: path.clone(),
-                            valid: step.valid.to_rfc3339(),
+                            what: format!(
+                                "the track runs {}…{} but step {} ({}) is valid at {}",
+                                a.to_rfc3339(),
+                                b.to_rfc3339(),
+                                k + 1,
+                                path.display(),
+                                step.valid.to_rfc3339()
+                            ),
                         }
                     })?;
                 Ok(StepShift {

@@ -104,8 +104,8 @@ pub fn summary(
         );
         let _ = writeln!(
             out,
-            "  {:<20} {:>9} {:>7} {:>7} {:>7}  {}",
-            "town", "as model", "min", "max", "range", "smallest when / largest when"
+            "  {:<20} {:>9} {:>7} {:>7} {:>7}  smallest when / largest when",
+            "town", "as model", "min", "max", "range"
         );
         for t in ranked.iter().take(5) {
             if t.min.is_nan() {

@@ -189,11 +189,10 @@ fn check_range(
 /// Reads the terrain file.
 pub fn read_static(path: &Path) -> Result<StaticFields, FieldError> {
     let r = read_geotiff(path)?;
-    let grid =
-        Grid::new(r.width, r.height, r.georef.clone()).map_err(|source| FieldError::Grid {
-            path: path.to_path_buf(),
-            source,
-        })?;
+    let grid = Grid::new(r.width, r.height, r.georef).map_err(|source| FieldError::Grid {
+        path: path.to_path_buf(),
+        source,
+    })?;
     let terrain = band(&r, path, "surface_altitude", "terrain height in m")?.to_vec();
     check_range(
         path,
@@ -241,11 +240,10 @@ pub fn level_tag(p_pa: f64) -> String {
 /// [`StepLayout::terrain`]).
 pub fn read_step(path: &Path, statics: &StaticFields) -> Result<StepFields, FieldError> {
     let r = read_geotiff(path)?;
-    let grid =
-        Grid::new(r.width, r.height, r.georef.clone()).map_err(|source| FieldError::Grid {
-            path: path.to_path_buf(),
-            source,
-        })?;
+    let grid = Grid::new(r.width, r.height, r.georef).map_err(|source| FieldError::Grid {
+        path: path.to_path_buf(),
+        source,
+    })?;
     if !grid.same_as(&statics.grid) {
         return Err(FieldError::GridMismatch {
             path: path.to_path_buf(),

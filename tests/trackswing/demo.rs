@@ -106,6 +106,30 @@ fn demo_writes_every_layer_and_the_same_bytes_on_one_thread() {
         .unwrap()
         .iter()
         .all(|i| i["sha256"].as_str().unwrap().len() == 64));
+    let (header, rows) = towns_csv(&a);
+    let scenarios = m["scenarios"].as_array().unwrap().len();
+    assert_eq!(
+        scenarios, 63,
+        "the demo case runs 21 cross × 3 along offsets"
+    );
+    assert_eq!(header.len(), 10 + scenarios);
+    assert_eq!(rows.len(), 14, "every demo town has a row");
+    // The range column is max − min of the per-scenario columns, to the printed rounding.
+    for row in &rows {
+        let vals: Vec<f64> = row[10..].iter().filter_map(|v| v.parse().ok()).collect();
+        if vals.len() == scenarios {
+            let (lo, hi) = vals
+                .iter()
+                .fold((f64::MAX, f64::MIN), |(a, b), v| (a.min(*v), b.max(*v)));
+            let range: f64 = row[6].parse().unwrap();
+            assert!(
+                (range - (hi - lo)).abs() <= 0.11,
+                "{}: {range} vs {}",
+                row[0],
+                hi - lo
+            );
+        }
+    }
     // No temporary files left behind.
     assert!(std::fs::read_dir(&a).unwrap().all(|e| !e
         .unwrap()
@@ -186,4 +210,73 @@ fn value(
     f: fn(&trackswing::accumulate::Totals) -> &Vec<f32>,
 ) -> f32 {
     trackswing::summarise::value_at(&r.grid, f(&r.totals[scenario]), town.lon, town.lat)
+}
+
+#[test]
+fn gdal_reads_the_demo_layers_where_trackswing_put_them() {
+    // Reference: GDAL (gdalinfo -json, gdallocationinfo), reading our GeoTIFFs independently.
+    if !crate::reference::gdal::gdal_available() {
+        return;
+    }
+    let d = tempfile::tempdir().unwrap();
+    run_demo(d.path(), &["--cross", "-20:20:20", "--along", "0"]);
+    let terrain = trackswing::geotiff::read_geotiff(&demo_grid().join("terrain.tif")).unwrap();
+    for f in [
+        "snowfall_baseline.tif",
+        "snowfall_by_scenario.tif",
+        "snowfall_range.tif",
+    ] {
+        let p = d.path().join(f);
+        let out = std::process::Command::new("gdalinfo")
+            .arg("-json")
+            .arg(&p)
+            .output()
+            .unwrap();
+        assert!(out.status.success());
+        let info: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+        let wkt = info["coordinateSystem"]["wkt"].as_str().unwrap();
+        assert!(wkt.contains("ID[\"EPSG\",4326]"), "{f}: {wkt}");
+        let gt: Vec<f64> = info["geoTransform"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|v| v.as_f64().unwrap())
+            .collect();
+        for (a, b) in gt.iter().zip(terrain.georef.geotransform) {
+            assert!((a - b).abs() < 1e-9, "{f}: geotransform {gt:?}");
+        }
+        assert_eq!(info["size"][0].as_u64(), Some(terrain.width as u64));
+        assert_eq!(info["size"][1].as_u64(), Some(terrain.height as u64));
+        // The corners GDAL reports are the grid's outer edges (pixel-is-area).
+        let ul = &info["cornerCoordinates"]["upperLeft"];
+        assert!(
+            (ul[0].as_f64().unwrap() - gt[0]).abs() < 1e-9
+                && (ul[1].as_f64().unwrap() - gt[3]).abs() < 1e-9
+        );
+        let band = &info["bands"][0];
+        assert_eq!(band["noDataValue"].as_f64(), Some(-9999.0), "{f}");
+        assert_eq!(band["type"].as_str(), Some("Float32"));
+    }
+    // A town's baseline value through GDAL equals trackswing's at the same pixel.
+    let ours = trackswing::geotiff::read_geotiff(&d.path().join("snowfall_baseline.tif")).unwrap();
+    let (col, row) = (40usize, 60usize);
+    let out = std::process::Command::new("gdallocationinfo")
+        .args(["-valonly"])
+        .arg(d.path().join("snowfall_baseline.tif"))
+        .args([col.to_string(), row.to_string()])
+        .output()
+        .unwrap();
+    let gdal: f32 = String::from_utf8_lossy(&out.stdout).trim().parse().unwrap();
+    let mine = ours.bands[0][row * ours.width + col];
+    assert!(
+        (gdal - mine).abs() <= 1e-6 * mine.abs().max(1.0),
+        "GDAL {gdal} vs trackswing {mine}"
+    );
+    let bands =
+        trackswing::geotiff::read_geotiff(&d.path().join("snowfall_by_scenario.tif")).unwrap();
+    assert_eq!(bands.descriptions.len(), 3);
+    assert!(bands
+        .descriptions
+        .iter()
+        .any(|x| x == "snowfall, cross -20 km, along 0 km"));
 }

@@ -218,6 +218,8 @@ pub struct Overrides {
     pub units: Option<String>,
     /// `--snow-ratio`.
     pub snow_ratio: Option<String>,
+    /// `--force`: replace a non-empty output folder trackswing did not write.
+    pub force: bool,
 }
 
 /// A case ready to run.
@@ -243,6 +245,8 @@ pub struct Case {
     pub out_dir: PathBuf,
     /// Output units.
     pub units: Units,
+    /// Replace a non-empty output folder trackswing did not write.
+    pub force: bool,
 }
 
 /// Default core radius, km: the displacement is complete over the low's circulation and
@@ -434,7 +438,17 @@ impl Case {
             },
             out_dir,
             units,
+            force: over.force,
         })
+    }
+
+    /// Every input file of the run: the case, terrain, steps, track and towns.
+    pub fn inputs(&self) -> Vec<PathBuf> {
+        let mut v = vec![self.path.clone(), self.member.terrain.clone()];
+        v.extend(self.member.steps.iter().cloned());
+        v.extend(self.member.track.iter().cloned());
+        v.extend(self.towns.iter().cloned());
+        v
     }
 }
 

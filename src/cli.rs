@@ -57,6 +57,9 @@ pub struct Common {
     /// Snow-to-liquid ratio method: fixed or max-column-temperature.
     #[arg(long, value_name = "METHOD")]
     pub snow_ratio: Option<String>,
+    /// Replace the output folder even if it holds files trackswing did not write.
+    #[arg(long)]
+    pub force: bool,
     /// Print nothing but errors.
     #[arg(long, short)]
     pub quiet: bool,

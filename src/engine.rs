@@ -73,6 +73,18 @@ pub enum EngineError {
         /// What is wrong.
         what: String,
     },
+    /// The run would not fit in memory.
+    #[error("the run needs about {need_mib} MiB ({scenarios} scenarios × {cells} cells) but only {avail_mib} MiB of memory is available; run fewer offsets, a coarser range, or split the offsets into shards (runs of part of the offsets each, whose layers merge scenario by scenario)")]
+    TooBig {
+        /// Estimated need, MiB.
+        need_mib: u64,
+        /// Available, MiB.
+        avail_mib: u64,
+        /// Scenarios.
+        scenarios: usize,
+        /// Cells.
+        cells: usize,
+    },
     /// The thread pool could not be built.
     #[error("cannot start {0} worker threads")]
     Threads(usize),
@@ -161,12 +173,23 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
         .iter()
         .position(Scenario::is_baseline)
         .expect("scenario_set always includes the baseline");
+    let n = grid.len();
+    if let Some(avail) = available_memory() {
+        let need = memory_estimate(n, scenarios.len());
+        if need > avail / 10 * 9 {
+            return Err(EngineError::TooBig {
+                need_mib: need >> 20,
+                avail_mib: avail >> 20,
+                scenarios: scenarios.len(),
+                cells: n,
+            });
+        }
+    }
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(threads.max(1))
         .build()
         .map_err(|_| EngineError::Threads(threads))?;
 
-    let n = grid.len();
     let mut totals: Vec<Totals> = scenarios.iter().map(|_| Totals::new(n)).collect();
     let mut valid_times = Vec::new();
     let mut centres = Vec::new();
@@ -285,6 +308,21 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
         layout: layout.expect("a case has at least one step"),
         timings,
     })
+}
+
+/// Bytes a run holds at its peak: the per-scenario totals (five f32 per cell) plus one output
+/// band per scenario while the stack is written. One step's fields add a few bands' worth per
+/// level, small beside the totals once there are more than a handful of scenarios.
+pub fn memory_estimate(cells: usize, scenarios: usize) -> u64 {
+    (cells as u64) * (scenarios as u64) * (5 + 1) * 4
+}
+
+/// Memory available to new allocations, bytes (Linux `MemAvailable`); `None` where unknown.
+fn available_memory() -> Option<u64> {
+    let text = std::fs::read_to_string("/proc/meminfo").ok()?;
+    let line = text.lines().find(|l| l.starts_with("MemAvailable:"))?;
+    let kib: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
+    Some(kib * 1024)
 }
 
 fn levels_text(l: &StepLayout) -> String {

@@ -38,6 +38,7 @@ fn run_case(
         out: common.out.clone().or(default_out),
         units: common.units.clone(),
         snow_ratio: common.snow_ratio.clone(),
+        force: common.force,
     };
     let case = Case::load(case_path, &over).map_err(|e| Failure::Input(e.into()))?;
     let threads = common.threads.unwrap_or_else(|| {

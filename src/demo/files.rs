@@ -58,7 +58,15 @@ fn scaling(f: &Field) -> (f64, f64) {
         "geopotential_height" => (0.5, 8000.0),
         "relative_humidity" => (0.005, 50.0),
         "air_pressure_at_mean_sea_level" => (1.0, 100_000.0),
-        "precipitation_amount" => (0.001, 0.0),
+        // 0.001 mm steps hold 32 mm per step; a case of very few, long steps needs coarser ones.
+        "precipitation_amount" => {
+            let max = f.data.iter().fold(0.0f32, |a, b| a.max(*b)) as f64;
+            let mut scale = 0.001;
+            while max / scale > 32_000.0 {
+                scale *= 2.0;
+            }
+            (scale, 0.0)
+        }
         _ => (0.1, 0.0),
     }
 }

@@ -1,9 +1,11 @@
 //! Stage 6, write: GeoTIFF rasters, GeoJSON lines and points, the towns table, the manifest.
 //!
-//! Every file is written under a temporary name in the output folder and renamed into place
-//! once complete; the manifest is written last, so a folder with a manifest holds a complete
-//! set and an interrupted run never leaves a half-written layer under a final name.
+//! The whole set is written into a staging folder beside the output folder and swapped in at
+//! once ([`folder::Staging`]); within it each file is written under a temporary name and renamed
+//! when complete, and the manifest is written last. An interrupted run leaves the previous
+//! complete set (or nothing), never a half-written layer or a mix of two runs.
 
+pub mod folder;
 pub mod lines;
 pub mod manifest;
 pub mod rasters;
@@ -109,27 +111,30 @@ pub fn write_text_atomic(dir: &Path, name: &str, text: &str) -> Result<PathBuf, 
     })
 }
 
-/// Creates the output folder if needed and checks it can be written.
-pub fn prepare_folder(dir: &Path) -> Result<(), WriteError> {
-    if dir.exists() && !dir.is_dir() {
-        return Err(WriteError::Folder {
-            path: dir.to_path_buf(),
-            what: "exists and is not a folder".into(),
-        });
-    }
-    std::fs::create_dir_all(dir).map_err(|source| WriteError::Io {
-        path: dir.to_path_buf(),
-        source,
-    })
-}
-
-/// Writes every layer of a run into `case.out_dir`, the manifest last. Returns the files.
+/// Writes every layer of a run into `case.out_dir`, the manifest last, replacing any previous
+/// set as a whole. Returns the files.
 pub fn write_all(
     case: &crate::case::Case,
     r: &crate::engine::RunResult,
 ) -> Result<Vec<Written>, WriteError> {
-    let dir = &case.out_dir;
-    prepare_folder(dir)?;
+    let staging = folder::Staging::begin(&case.out_dir, &case.inputs(), case.force)?;
+    match write_set(staging.dir(), case, r) {
+        Ok(files) => {
+            staging.commit()?;
+            Ok(files)
+        }
+        Err(e) => {
+            staging.abandon();
+            Err(e)
+        }
+    }
+}
+
+fn write_set(
+    dir: &Path,
+    case: &crate::case::Case,
+    r: &crate::engine::RunResult,
+) -> Result<Vec<Written>, WriteError> {
     let meta = vec![
         (
             "trackswing_version".to_string(),
@@ -151,7 +156,7 @@ pub fn write_all(
     manifest::write_manifest(dir, case, r, &files)?;
     let mut all = files;
     all.push(Written {
-        file: "manifest.json".into(),
+        file: folder::MANIFEST.into(),
         kind: Kind::Table,
         units: String::new(),
         description: "What was written, from which inputs, with which settings".into(),

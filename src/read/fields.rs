@@ -151,16 +151,31 @@ fn grid_text(g: &Grid) -> String {
     )
 }
 
+/// The band described as `name`; an error when it is absent or appears more than once (two
+/// bands claiming one field and level leave no way to know which is meant).
 fn band<'a>(r: &'a Raster, path: &Path, name: &str, why: &str) -> Result<&'a [f32], FieldError> {
-    r.descriptions
+    let mut found = r
+        .descriptions
         .iter()
-        .position(|d| d.trim() == name)
-        .map(|i| r.bands[i].as_slice())
-        .ok_or_else(|| FieldError::Missing {
+        .enumerate()
+        .filter(|(_, d)| d.trim() == name)
+        .map(|(i, _)| i);
+    let first = found.next().ok_or_else(|| FieldError::Missing {
+        path: path.to_path_buf(),
+        band: name.to_string(),
+        why: why.to_string(),
+    })?;
+    if let Some(second) = found.next() {
+        return Err(FieldError::Layout {
             path: path.to_path_buf(),
-            band: name.to_string(),
-            why: why.to_string(),
-        })
+            what: format!(
+                "bands {} and {} are both described as '{name}'; each field and level may appear once",
+                first + 1,
+                second + 1
+            ),
+        });
+    }
+    Ok(r.bands[first].as_slice())
 }
 
 /// Checks that every finite value lies in `lo..=hi`, naming the first offender.

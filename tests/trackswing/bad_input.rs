@@ -199,3 +199,200 @@ fn humidity_over_100_percent() {
         &["s_00.tif", "relative_humidity@700hPa", "percent"],
     );
 }
+
+#[test]
+fn truncated_geotiff() {
+    let (d, c) = case("");
+    let p = d.path().join("f/s_01.tif");
+    let bytes = std::fs::read(&p).unwrap();
+    std::fs::write(&p, &bytes[..bytes.len() / 2]).unwrap();
+    fails_cleanly(&c, &[], &["s_01.tif"]);
+}
+
+#[test]
+fn a_file_of_the_wrong_kind() {
+    let (d, c) = case("");
+    std::fs::write(d.path().join("f/s_00.tif"), "time,lat,lon\n").unwrap();
+    fails_cleanly(&c, &[], &["s_00.tif", "TIFF"]);
+}
+
+#[test]
+fn a_duplicated_level() {
+    let (d, c) = case("");
+    // Append a second band claiming to be the 850 hPa temperature.
+    use trackswing::geotiff::{
+        read_geotiff, write_geotiff, BandSpec, SampleEncoding, WriteOptions,
+    };
+    let p = d.path().join("f/s_00.tif");
+    let r = read_geotiff(&p).unwrap();
+    let mut descs = r.descriptions.clone();
+    let mut bands = r.bands.clone();
+    let i = descs
+        .iter()
+        .position(|x| x == "air_temperature@850hPa")
+        .unwrap();
+    descs.push(descs[i].clone());
+    bands.push(bands[i].clone());
+    let specs: Vec<BandSpec> = bands
+        .iter()
+        .zip(&descs)
+        .map(|(b, d)| BandSpec {
+            data: b,
+            description: d.clone(),
+            metadata: vec![],
+        })
+        .collect();
+    let opts = WriteOptions {
+        encoding: SampleEncoding::Float32,
+        nodata: -9999.0,
+        dataset_metadata: r.dataset_metadata.clone(),
+        band_scaling: vec![],
+    };
+    write_geotiff(&p, r.width, r.height, &r.georef, &specs, &opts).unwrap();
+    fails_cleanly(
+        &c,
+        &[],
+        &["s_00.tif", "air_temperature@850hPa", "appear once"],
+    );
+}
+
+#[test]
+fn a_level_missing_at_one_step() {
+    let (d, c) = case("");
+    rewrite(&d.path().join("f/s_01.tif"), |desc, b| {
+        (!desc.ends_with("@700hPa")).then(|| b.to_vec())
+    });
+    fails_cleanly(&c, &[], &["s_01.tif", "levels", "differ"]);
+}
+
+#[test]
+fn negative_precipitation() {
+    let (d, c) = case("");
+    rewrite(&d.path().join("f/s_00.tif"), |desc, b| {
+        Some(if desc == "precipitation_amount" {
+            b.iter().map(|v| v - 1.0).collect()
+        } else {
+            b.to_vec()
+        })
+    });
+    fails_cleanly(
+        &c,
+        &[],
+        &["s_00.tif", "precipitation_amount", "not negative"],
+    );
+}
+
+#[test]
+fn non_monotonic_heights() {
+    let (d, c) = case("");
+    rewrite(&d.path().join("f/s_00.tif"), |desc, b| {
+        Some(if desc == "geopotential_height@925hPa" {
+            b.iter().map(|v| v - 1000.0).collect()
+        } else {
+            b.to_vec()
+        })
+    });
+    fails_cleanly(
+        &c,
+        &[],
+        &["s_00.tif", "geopotential_height@925hPa", "increase upward"],
+    );
+}
+
+#[test]
+fn duplicated_or_unordered_track_times() {
+    let (d, c) = case("");
+    std::fs::write(
+        d.path().join("track.csv"),
+        "time,lat,lon\n2026-01-14T00:00:00Z,0,11\n2026-01-14T00:00:00Z,0,11.5\n2026-01-15T00:00:00Z,0,12\n",
+    )
+    .unwrap();
+    fails_cleanly(
+        &c,
+        &["--cross", "-10:10:10"],
+        &["track.csv", "line 3", "must increase"],
+    );
+}
+
+#[test]
+fn duplicate_town_names() {
+    let (d, c) = case("");
+    std::fs::write(
+        d.path().join("towns.csv"),
+        "name,lat,lon\nA,0.5,11\nA,0.6,11.2\n",
+    )
+    .unwrap();
+    fails_cleanly(&c, &[], &["towns.csv", "line 3", "twice"]);
+}
+
+#[test]
+fn case_value_of_the_wrong_type() {
+    let (_d, c) = case("[methods]\nfixed_ratio = \"ten\"");
+    fails_cleanly(&c, &[], &["case.toml", "fixed_ratio"]);
+}
+
+#[test]
+fn output_path_is_a_file() {
+    let (d, c) = case("");
+    let f = d.path().join("out");
+    std::fs::write(&f, b"not a folder").unwrap();
+    let o = bin().arg("run").arg(&c).output().unwrap();
+    assert_eq!(o.status.code(), Some(4));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("not a folder"));
+    assert_eq!(std::fs::read(&f).unwrap(), b"not a folder");
+}
+
+#[test]
+fn missing_cells_stay_nodata_never_zero_snow() {
+    let (d, c) = case("");
+    // Knock out the 850 hPa temperature in a 4×4 block inside the precipitation.
+    let hole = |i: usize| (14..18).contains(&(i / 40)) && (8..12).contains(&(i % 40));
+    rewrite(&d.path().join("f/s_00.tif"), |desc, b| {
+        Some(if desc == "air_temperature@850hPa" {
+            b.iter()
+                .enumerate()
+                .map(|(i, v)| if hole(i) { f32::NAN } else { *v })
+                .collect()
+        } else {
+            b.to_vec()
+        })
+    });
+    let o = bin()
+        .arg("run")
+        .arg(&c)
+        .args(["--cross", "0"])
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let r = trackswing::geotiff::read_geotiff(&d.path().join("out/snowfall_baseline.tif")).unwrap();
+    let snow = &r.bands[0];
+    assert!(
+        (0..snow.len())
+            .filter(|i| hole(*i))
+            .all(|i| snow[i].is_nan()),
+        "the hole must be nodata"
+    );
+    assert!(
+        (0..snow.len())
+            .filter(|i| !hole(*i))
+            .all(|i| snow[i].is_finite()),
+        "and only the hole"
+    );
+}
+
+#[test]
+fn offsets_that_push_the_storm_off_the_grid_warn_with_the_share() {
+    let (_d, c) = case("");
+    let o = bin()
+        .arg("run")
+        .arg(&c)
+        .args(["--cross=-300,0,300"])
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert!(
+        text.contains("beyond the grid edge") && text.contains("% of cell-steps"),
+        "{text}"
+    );
+}

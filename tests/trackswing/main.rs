@@ -4,6 +4,7 @@ mod atomic;
 mod bad_input;
 mod demo;
 mod engine;
+mod fuzz;
 mod geotiff_gdal;
 mod reference;
 mod support;

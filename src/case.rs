@@ -68,10 +68,15 @@ pub struct MemberFile {
     /// A short name for tables and the manifest.
     pub name: String,
     /// GeoTIFF with `surface_altitude`, m.
-    pub terrain: String,
+    pub terrain: Option<String>,
     /// One GeoTIFF per time step.
-    pub steps: StepFiles,
-    /// Storm track (CSV or GeoJSON); needed unless only the zero offset is run.
+    pub steps: Option<StepFiles>,
+    /// Model output instead of `terrain` + `steps`: GRIB2 files (or, with the `gdal` feature,
+    /// any raster GDAL reads) as a folder, a pattern with one `*`, a file, or a list of these;
+    /// fields, levels and times are found in them.
+    pub model: Option<StepFiles>,
+    /// Storm track (CSV or GeoJSON), or `"find"` to follow the low in the model's sea-level
+    /// pressure; needed unless only the zero offset is run.
     pub track: Option<String>,
 }
 
@@ -192,17 +197,44 @@ impl Units {
     }
 }
 
+/// How a member's fields are stored.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum InputFormat {
+    /// A terrain GeoTIFF and one GeoTIFF per step.
+    GeoTiff,
+    /// Model files (GRIB2, or any GDAL raster with the `gdal` feature) in which the fields are
+    /// found: `steps` lists every file and `terrain` is the first of them.
+    Model,
+}
+
 /// One member with its files resolved and checked to exist.
 #[derive(Clone, Debug)]
 pub struct Member {
     /// Name.
     pub name: String,
-    /// Terrain GeoTIFF.
+    /// Terrain GeoTIFF (for model files: the first file).
     pub terrain: PathBuf,
-    /// Step GeoTIFFs in time order.
+    /// Step GeoTIFFs in time order (for model files: every file).
     pub steps: Vec<PathBuf>,
     /// Track file.
     pub track: Option<PathBuf>,
+    /// How the fields are stored.
+    pub format: InputFormat,
+    /// Find the track from the model's sea-level pressure (`track = "find"`).
+    pub find_track: bool,
+}
+
+impl Member {
+    /// Every input file of the member, each once.
+    pub fn input_files(&self) -> Vec<&Path> {
+        let mut v: Vec<&Path> = Vec::new();
+        for p in std::iter::once(&self.terrain).chain(&self.steps) {
+            if !v.contains(&p.as_path()) {
+                v.push(p);
+            }
+        }
+        v
+    }
 }
 
 /// Settings given on the command line, which win over the case file.
@@ -301,28 +333,63 @@ impl Case {
                 ))
             }
         };
-        let steps = match &m.steps {
-            StepFiles::List(list) => list
-                .iter()
-                .enumerate()
-                .map(|(i, s)| existing(&format!("member[0].steps[{i}]"), s))
-                .collect::<Result<Vec<_>, _>>()?,
-            StepFiles::Pattern(p) => {
-                expand_pattern(dir, p).map_err(|what| invalid("member[0].steps", what))?
-            }
+        let find_track = m.track.as_deref() == Some("find");
+        let track = match m.track.as_deref() {
+            Some("find") | None => None,
+            Some(t) => Some(existing("member[0].track", t)?),
         };
-        if steps.is_empty() {
-            return Err(invalid("member[0].steps", "no step files listed".into()));
-        }
-        let member = Member {
-            name: m.name.clone(),
-            terrain: existing("member[0].terrain", &m.terrain)?,
-            steps,
-            track: m
-                .track
-                .as_deref()
-                .map(|t| existing("member[0].track", t))
-                .transpose()?,
+        let member = match (&m.terrain, &m.steps, &m.model) {
+            (Some(terrain), Some(steps), None) => {
+                let steps = match steps {
+                    StepFiles::List(list) => list
+                        .iter()
+                        .enumerate()
+                        .map(|(i, s)| existing(&format!("member[0].steps[{i}]"), s))
+                        .collect::<Result<Vec<_>, _>>()?,
+                    StepFiles::Pattern(p) => expand_pattern(dir, p)
+                        .map_err(|what| invalid("member[0].steps", what))?,
+                };
+                if steps.is_empty() {
+                    return Err(invalid("member[0].steps", "no step files listed".into()));
+                }
+                Member {
+                    name: m.name.clone(),
+                    terrain: existing("member[0].terrain", terrain)?,
+                    steps,
+                    track,
+                    format: InputFormat::GeoTiff,
+                    find_track,
+                }
+            }
+            (None, None, Some(model)) => {
+                let items: Vec<String> = match model {
+                    StepFiles::Pattern(p) => vec![p.clone()],
+                    StepFiles::List(l) => l.clone(),
+                };
+                let mut files = Vec::new();
+                for (i, item) in items.iter().enumerate() {
+                    let field = if items.len() == 1 {
+                        "member[0].model".to_string()
+                    } else {
+                        format!("member[0].model[{i}]")
+                    };
+                    files.extend(expand_model(dir, item).map_err(|what| invalid(&field, what))?);
+                }
+                Member {
+                    name: m.name.clone(),
+                    terrain: files[0].clone(),
+                    steps: files,
+                    track,
+                    format: InputFormat::Model,
+                    find_track,
+                }
+            }
+            _ => {
+                return Err(invalid(
+                    "member[0]",
+                    "give either terrain and steps (GeoTIFF files) or model (GRIB2 files: a folder, a pattern or a list), not both".into(),
+                ))
+            }
         };
         let towns = file
             .towns
@@ -349,10 +416,10 @@ impl Case {
         let cross_km = offsets("cross_km", &over.cross, &file.offsets.cross_km)?;
         let along_km = offsets("along_km", &over.along, &file.offsets.along_km)?;
         let only_zero = cross_km.iter().chain(&along_km).all(|v| *v == 0.0);
-        if member.track.is_none() && !only_zero {
+        if member.track.is_none() && !member.find_track && !only_zero {
             return Err(invalid(
                 "member[0].track",
-                "offsets other than 0 need the storm track (a CSV or GeoJSON file)".into(),
+                "offsets other than 0 need the storm track (a CSV or GeoJSON file, or \"find\" to follow the low in the model's sea-level pressure)".into(),
             ));
         }
 
@@ -496,6 +563,110 @@ fn expand_pattern(dir: &Path, pattern: &str) -> Result<Vec<PathBuf>, String> {
         ));
     }
     Ok(files)
+}
+
+/// Expands one `model` item: a folder (every regular file in it not starting with '.'), a
+/// pattern with one `*`, or a file; sorted by name.
+fn expand_model(dir: &Path, item: &str) -> Result<Vec<PathBuf>, String> {
+    let p = dir.join(item);
+    if p.is_dir() {
+        let entries =
+            std::fs::read_dir(&p).map_err(|e| format!("cannot list '{}': {e}", p.display()))?;
+        let mut files: Vec<PathBuf> = entries
+            .filter_map(|e| e.ok())
+            .map(|e| e.path())
+            .filter(|f| f.is_file())
+            .filter(|f| {
+                f.file_name()
+                    .and_then(|n| n.to_str())
+                    .is_some_and(|n| !n.starts_with('.'))
+            })
+            .collect();
+        files.sort();
+        if files.is_empty() {
+            return Err(format!("the folder '{}' holds no files", p.display()));
+        }
+        return Ok(files);
+    }
+    expand_pattern(dir, item)
+}
+
+/// Model files named on the command line (`trackswing run FILES...`): each a file, a folder or
+/// a pattern, relative to the current folder.
+pub fn expand_model_args(items: &[PathBuf]) -> Result<Vec<PathBuf>, CaseError> {
+    let mut files = Vec::new();
+    for item in items {
+        let text = item.to_string_lossy();
+        files.extend(
+            expand_model(Path::new(""), &text).map_err(|what| CaseError::Invalid {
+                path: PathBuf::from("command line"),
+                field: text.to_string(),
+                what,
+            })?,
+        );
+    }
+    Ok(files)
+}
+
+impl Case {
+    /// A case for model files given on the command line, with the default methods: `track` is
+    /// a track file or `find`; offsets default to 0; outputs go to `--out` or
+    /// `./trackswing-out`.
+    pub fn from_model_files(
+        files: &[PathBuf],
+        track: Option<&str>,
+        towns: Option<&Path>,
+        over: &Overrides,
+    ) -> Result<Self, CaseError> {
+        let files = expand_model_args(files)?;
+        let abs = |p: &Path| -> String {
+            std::path::absolute(p)
+                .unwrap_or_else(|_| p.to_path_buf())
+                .to_string_lossy()
+                .into_owned()
+        };
+        let name = files[0]
+            .file_stem()
+            .and_then(|s| s.to_str())
+            .unwrap_or("model")
+            .to_string();
+        let file = CaseFile {
+            title: format!(
+                "model files {}{}",
+                files[0].display(),
+                if files.len() > 1 {
+                    format!(" and {} more", files.len() - 1)
+                } else {
+                    String::new()
+                }
+            ),
+            towns: towns.map(abs),
+            member: vec![MemberFile {
+                name,
+                terrain: None,
+                steps: None,
+                model: Some(StepFiles::List(files.iter().map(|f| abs(f)).collect())),
+                track: track.map(|t| {
+                    if t == "find" {
+                        t.to_string()
+                    } else {
+                        abs(Path::new(t))
+                    }
+                }),
+            }],
+            offsets: OffsetsFile::default(),
+            shift: ShiftFile::default(),
+            methods: MethodsFile::default(),
+            output: OutputFile {
+                folder: Some(abs(Path::new("trackswing-out"))),
+                units: None,
+            },
+        };
+        let mut case = Self::resolve(Path::new("command line"), file, over)?;
+        // No case file exists; the manifest hashes `path`, so it names the first model file.
+        case.path = files[0].clone();
+        Ok(case)
+    }
 }
 
 #[cfg(test)]

@@ -26,8 +26,15 @@ pub struct Cli {
 /// Subcommands.
 #[derive(Subcommand, Debug)]
 pub enum Command {
-    /// Run a case file: shift the track by every offset and write the layers.
+    /// Run a case file, or model files (GRIB2) with the default methods: shift the track by
+    /// every offset and write the layers.
     Run(RunArgs),
+    /// List what model files hold (fields, levels, valid times, grid, projection, extent) and
+    /// which case requirements they meet.
+    Inspect(InspectArgs),
+    /// Find the storm track from the model's sea-level pressure and write it as CSV and
+    /// GeoJSON for `run --track`.
+    Track(TrackArgs),
     /// Run the shipped demo case (an invented storm over an invented region).
     Demo(DemoArgs),
     /// Write the invented demo storm's input files (used to build demo-grid/ and benchmark cases).
@@ -68,12 +75,42 @@ pub struct Common {
 /// `trackswing run`.
 #[derive(Args, Debug)]
 pub struct RunArgs {
-    /// The case file (TOML).
-    #[arg(value_name = "CASE.toml")]
-    pub case: PathBuf,
+    /// The case file (TOML), or model files (GRIB2 files, folders or patterns with one '*').
+    #[arg(value_name = "CASE.toml|FILES", required = true, num_args = 1..)]
+    pub inputs: Vec<PathBuf>,
+    /// With model files: the storm track (CSV or GeoJSON), or `find` to follow the low in the
+    /// model's sea-level pressure. Needed for offsets other than 0.
+    #[arg(long, value_name = "FILE|find")]
+    pub track: Option<String>,
+    /// With model files: towns CSV (name,lat,lon).
+    #[arg(long, value_name = "FILE")]
+    pub towns: Option<PathBuf>,
     /// Shared settings.
     #[command(flatten)]
     pub common: Common,
+}
+
+/// `trackswing inspect`.
+#[derive(Args, Debug)]
+pub struct InspectArgs {
+    /// Model files, folders or patterns with one '*'.
+    #[arg(value_name = "FILE|DIR", required = true, num_args = 1..)]
+    pub inputs: Vec<PathBuf>,
+}
+
+/// `trackswing track`.
+#[derive(Args, Debug)]
+pub struct TrackArgs {
+    /// Model files (GRIB2) holding mean sea-level pressure, folders or patterns.
+    #[arg(value_name = "FILES", required = true, num_args = 1..)]
+    pub inputs: Vec<PathBuf>,
+    /// Start at the pressure minimum nearest this point (degrees north, east) instead of the
+    /// deepest closed low.
+    #[arg(long, value_name = "LAT,LON", allow_hyphen_values = true)]
+    pub start: Option<String>,
+    /// Folder for track.csv and track.geojson.
+    #[arg(long, value_name = "DIR", default_value = ".")]
+    pub out: PathBuf,
 }
 
 /// `trackswing demo`.
@@ -105,4 +142,7 @@ pub struct MakeDemoArgs {
     /// Isobaric levels.
     #[arg(long)]
     pub levels: Option<usize>,
+    /// Write the case as GRIB2 model output (one file per valid time) instead of GeoTIFF.
+    #[arg(long)]
+    pub grib2: bool,
 }

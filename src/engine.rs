@@ -11,9 +11,11 @@ use crate::case::Case;
 use crate::diagnose::{diagnose_column, Methods};
 use crate::grid::Grid;
 use crate::progress::Progress;
-use crate::read::fields::{read_static, read_step};
+use crate::read::source::{open as open_source, Source};
+use crate::read::track_finder::{find_track, to_track, FinderError};
 use crate::read::{
-    read_towns, read_track, FieldError, StepLayout, Town, TownsError, Track, TrackError,
+    read_towns, read_track, FieldError, SourceError, StepLayout, Town, TownsError, Track,
+    TrackError,
 };
 use crate::scenario::{scenario_set, Scenario};
 use crate::shift::{bilinear_weights, sample_at, sample_one, source_index, StepShift, Taper};
@@ -27,6 +29,17 @@ pub enum EngineError {
     /// Model fields.
     #[error(transparent)]
     Field(#[from] FieldError),
+    /// Model fields from any source.
+    #[error(transparent)]
+    Source(#[from] SourceError),
+    /// The track could not be found from sea-level pressure.
+    #[error("{path}: finding the track: {source}")]
+    Finder {
+        /// The first model file.
+        path: PathBuf,
+        /// The cause.
+        source: FinderError,
+    },
     /// The track.
     #[error(transparent)]
     Track(#[from] TrackError),
@@ -137,9 +150,18 @@ const CELLS_PER_TASK: usize = 4096;
 
 /// Runs a case on `threads` worker threads.
 pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunResult, EngineError> {
-    let statics = read_static(&case.member.terrain)?;
+    let source = open_source(&case.member, &|m: &str| progress.warn(m))?;
+    let statics = source.statics();
     let grid = statics.grid.clone();
-    let track = case.member.track.as_deref().map(read_track).transpose()?;
+    let track = match &case.member.track {
+        Some(p) => Some(read_track(p)?),
+        None if case.member.find_track => Some(found_track(
+            source.as_ref(),
+            &case.member.terrain,
+            progress,
+        )?),
+        None => None,
+    };
     if let Some(t) = &track {
         if !t
             .points
@@ -195,10 +217,11 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
     let mut centres = Vec::new();
     let mut layout: Option<StepLayout> = None;
     let mut timings = Timings::default();
-    progress.start("time steps", case.member.steps.len() as u64);
-    for (k, path) in case.member.steps.iter().enumerate() {
+    progress.start("time steps", source.step_count() as u64);
+    for k in 0..source.step_count() {
         let clock = std::time::Instant::now();
-        let step = read_step(path, &statics)?;
+        let step = source.step(k)?;
+        let path = step.path.clone();
         timings.read_s += clock.elapsed().as_secs_f64();
         let clock = std::time::Instant::now();
         if let Some(l) = &layout {
@@ -297,7 +320,7 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
     }
     Ok(RunResult {
         grid,
-        terrain: statics.terrain,
+        terrain: statics.terrain.clone(),
         scenarios,
         baseline,
         totals,
@@ -323,6 +346,49 @@ fn available_memory() -> Option<u64> {
     let line = text.lines().find(|l| l.starts_with("MemAvailable:"))?;
     let kib: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
     Some(kib * 1024)
+}
+
+/// The track followed in the model's sea-level pressure (`track = "find"`).
+fn found_track(
+    source: &dyn Source,
+    first_file: &std::path::Path,
+    progress: &dyn Progress,
+) -> Result<Track, EngineError> {
+    let grid = &source.statics().grid;
+    let mut steps = Vec::with_capacity(source.step_count());
+    for k in 0..source.step_count() {
+        let valid = match source.valid_time(k) {
+            Some(v) => v,
+            None => source.step(k)?.valid,
+        };
+        let p = source.mslp(k)?.ok_or_else(|| EngineError::Finder {
+            path: first_file.to_path_buf(),
+            source: FinderError::NoPressure {
+                step: k + 1,
+                valid: valid.to_rfc3339(),
+            },
+        })?;
+        steps.push((valid, p));
+    }
+    let (found, lost) = find_track(grid, &steps, None).map_err(|source| EngineError::Finder {
+        path: first_file.to_path_buf(),
+        source,
+    })?;
+    if let Some(k) = lost {
+        progress.warn(&format!(
+            "the track finder lost the low after step {k} of {}",
+            steps.len()
+        ));
+    }
+    if found.len() < 2 {
+        return Err(EngineError::Finder {
+            path: first_file.to_path_buf(),
+            source: FinderError::NoStart(
+                "the low was found at one step only; a track needs two positions".into(),
+            ),
+        });
+    }
+    Ok(to_track(&found, first_file.to_path_buf()))
 }
 
 fn levels_text(l: &StepLayout) -> String {

@@ -56,6 +56,195 @@ pub struct CellMetric {
     pub row_per_km_north: f32,
 }
 
+/// How a grid's x/y axes relate to the Earth.
+///
+/// GRIB2 grids come on lat/lon or on a map projection (grid definition templates 3.0, 3.30,
+/// 3.20; WMO-No. 306 Vol. I.2). Projected grids keep their projection here so the output stage
+/// can write it as a projected CRS (see [`MapProjection::proj_string`]); until `geotiff::Crs`
+/// has projected variants, [`Grid::georef`] of a projected grid carries the projected
+/// geotransform (metres) under a placeholder `Crs::Wgs84Geographic`, and callers that write
+/// GeoTIFFs must check [`Grid::is_projected`] first.
+#[derive(Clone, Debug, PartialEq)]
+pub enum Projection {
+    /// x = longitude, y = latitude, degrees. A model's spherical Earth is taken as WGS 84 here,
+    /// as GIS software does for lat/lon model output (the difference is below a grid length).
+    LonLat,
+    /// A map projection; x and y in metres.
+    Map(MapProjection),
+}
+
+/// The Earth a projected grid's coordinates are defined on (GRIB2 code table 3.2).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Earth {
+    /// Semi-major axis, m.
+    pub a: f64,
+    /// Semi-minor axis, m (equal to `a` for a sphere).
+    pub b: f64,
+}
+
+/// A conformal map projection of a regional model's grid.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum MapKind {
+    /// Lambert conformal conic (GRIB2 template 3.30): standard parallels `lat_1`, `lat_2`,
+    /// latitude of origin `lat_0`, central meridian `lon_0`, degrees.
+    LambertConformal {
+        /// First standard parallel.
+        lat_1: f64,
+        /// Second standard parallel (equal to `lat_1` for the tangent cone).
+        lat_2: f64,
+        /// Latitude of origin.
+        lat_0: f64,
+        /// Central meridian (GRIB's LoV).
+        lon_0: f64,
+    },
+    /// Polar stereographic (GRIB2 template 3.20): true scale at `lat_ts`, central meridian
+    /// `lon_0`, degrees; projected from the north pole when `north`.
+    PolarStereographic {
+        /// Latitude of true scale (GRIB's LaD).
+        lat_ts: f64,
+        /// Central meridian (GRIB's LoV).
+        lon_0: f64,
+        /// North-polar aspect.
+        north: bool,
+    },
+}
+
+/// A map projection with its Earth.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct MapProjection {
+    /// The projection and its parameters.
+    pub kind: MapKind,
+    /// The Earth model.
+    pub earth: Earth,
+}
+
+impl MapProjection {
+    /// The projection as a PROJ string (what `gdalsrsinfo`, PROJ and proj4rs read).
+    pub fn proj_string(&self) -> String {
+        let e = format!("+a={} +b={} +units=m +no_defs", self.earth.a, self.earth.b);
+        match self.kind {
+            MapKind::LambertConformal {
+                lat_1,
+                lat_2,
+                lat_0,
+                lon_0,
+            } => format!(
+                "+proj=lcc +lat_1={lat_1} +lat_2={lat_2} +lat_0={lat_0} +lon_0={lon_0} +x_0=0 +y_0=0 {e}"
+            ),
+            MapKind::PolarStereographic {
+                lat_ts,
+                lon_0,
+                north,
+            } => format!(
+                "+proj=stere +lat_0={} +lat_ts={lat_ts} +lon_0={lon_0} +x_0=0 +y_0=0 {e}",
+                if north { 90 } else { -90 }
+            ),
+        }
+    }
+
+    /// The geographic coordinate system on the same Earth, as a PROJ string.
+    pub fn geographic_string(&self) -> String {
+        format!(
+            "+proj=longlat +a={} +b={} +no_defs",
+            self.earth.a, self.earth.b
+        )
+    }
+
+    /// A short human-readable name with the parameters.
+    pub fn describe(&self) -> String {
+        let earth = if self.earth.a == self.earth.b {
+            format!("sphere R = {} m", self.earth.a)
+        } else {
+            format!("ellipsoid a = {} m, b = {} m", self.earth.a, self.earth.b)
+        };
+        match self.kind {
+            MapKind::LambertConformal {
+                lat_1,
+                lat_2,
+                lat_0,
+                lon_0,
+            } => format!(
+                "Lambert conformal conic (standard parallels {lat_1}°, {lat_2}°; origin {lat_0}°N; central meridian {lon_0}°; {earth})"
+            ),
+            MapKind::PolarStereographic {
+                lat_ts,
+                lon_0,
+                north,
+            } => format!(
+                "{} polar stereographic (true scale at {lat_ts}°; central meridian {lon_0}°; {earth})",
+                if north { "north" } else { "south" }
+            ),
+        }
+    }
+}
+
+/// Forward and inverse transforms of one map projection, through proj4rs (a pure-Rust port of
+/// PROJ's projection formulas).
+#[derive(Clone)]
+struct Projector {
+    map: proj4rs::Proj,
+    geo: proj4rs::Proj,
+}
+
+impl std::fmt::Debug for Projector {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str("Projector")
+    }
+}
+
+impl Projector {
+    fn new(p: &MapProjection) -> Result<Self, GridError> {
+        let parse = |s: String| {
+            proj4rs::Proj::from_proj_string(&s)
+                .map_err(|e| GridError::Projection(format!("{s}: {e}")))
+        };
+        Ok(Self {
+            map: parse(p.proj_string())?,
+            geo: parse(p.geographic_string())?,
+        })
+    }
+
+    /// Projected x/y (m) of a lon/lat point (degrees); NaN where the projection has no value.
+    fn forward(&self, lon: f64, lat: f64) -> (f64, f64) {
+        let mut pt = (lon.to_radians(), lat.to_radians(), 0.0);
+        match proj4rs::transform::transform(&self.geo, &self.map, &mut pt) {
+            Ok(()) => (pt.0, pt.1),
+            Err(_) => (f64::NAN, f64::NAN),
+        }
+    }
+
+    /// Lon/lat (degrees) of projected x/y (m).
+    fn inverse(&self, x: f64, y: f64) -> (f64, f64) {
+        let mut pt = (x, y, 0.0);
+        match proj4rs::transform::transform(&self.map, &self.geo, &mut pt) {
+            Ok(()) => (pt.0.to_degrees(), pt.1.to_degrees()),
+            Err(_) => (f64::NAN, f64::NAN),
+        }
+    }
+}
+
+/// A spacing for people: rounded to 9 significant digits so 0.39999999999999997 reads 0.4.
+fn tidy(v: f64) -> f64 {
+    if v == 0.0 || !v.is_finite() {
+        return v;
+    }
+    let k = 10f64.powi(8 - v.abs().log10().floor() as i32);
+    (v * k).round() / k
+}
+
+/// Projected x/y (m) of a lon/lat point (degrees) on `map`, through proj4rs.
+pub fn project(map: &MapProjection, lon: f64, lat: f64) -> Result<(f64, f64), GridError> {
+    let (x, y) = Projector::new(map)?.forward(lon, lat);
+    if x.is_finite() && y.is_finite() {
+        Ok((x, y))
+    } else {
+        Err(GridError::Projection(format!(
+            "{lon}°E {lat}°N has no place on {}",
+            map.describe()
+        )))
+    }
+}
+
 /// A model grid with its georeferencing, cell-centre coordinates and per-cell metric.
 #[derive(Clone, Debug)]
 pub struct Grid {
@@ -63,8 +252,12 @@ pub struct Grid {
     pub nx: usize,
     /// Rows (north → south).
     pub ny: usize,
-    /// How the grid sits on the Earth; written unchanged into every output GeoTIFF.
+    /// How the grid sits on the Earth; written unchanged into every output GeoTIFF. For a
+    /// projected grid the geotransform is in the projection's metres (see [`Projection`]).
     pub georef: Georef,
+    /// Lat/lon or the map projection of `georef`'s x/y.
+    pub projection: Projection,
+    projector: Option<Projector>,
     lon: Vec<f64>,
     lat: Vec<f64>,
     metric: Vec<CellMetric>,
@@ -84,7 +277,14 @@ pub enum GridError {
         /// Rows.
         ny: usize,
     },
+    /// The projection could not be set up or does not cover the grid.
+    #[error("map projection: {0}")]
+    Projection(String),
 }
+
+/// Distance of the finite differences that give a projected grid's metric, km: small against a
+/// grid length, large against rounding of metre coordinates.
+const METRIC_STEP_KM: f64 = 0.5;
 
 impl Grid {
     /// Builds the grid and its metric from a GeoTIFF georeference.
@@ -125,10 +325,92 @@ impl Grid {
             nx,
             ny,
             georef,
+            projection: Projection::LonLat,
+            projector: None,
             lon,
             lat,
             metric,
         })
+    }
+
+    /// Builds a grid on a map projection: `geotransform` is north-up in projected metres
+    /// (GDAL's convention, outer corner of the top-left cell). Every cell centre's lon/lat comes
+    /// from the inverse projection, and its metric from central differences of the forward
+    /// projection over ±[`METRIC_STEP_KM`] east and north of the centre — once per run, so the
+    /// shift kernel runs no projection.
+    pub fn projected(
+        nx: usize,
+        ny: usize,
+        geotransform: [f64; 6],
+        map: MapProjection,
+    ) -> Result<Self, GridError> {
+        if nx < 2 || ny < 2 {
+            return Err(GridError::TooSmall { nx, ny });
+        }
+        let gt = geotransform;
+        if gt[2] != 0.0 || gt[4] != 0.0 || gt[1] <= 0.0 || gt[5] >= 0.0 {
+            return Err(GridError::NotNorthUp(gt));
+        }
+        let pj = Projector::new(&map)?;
+        let n = nx * ny;
+        let mut lon = Vec::with_capacity(n);
+        let mut lat = Vec::with_capacity(n);
+        let mut metric = Vec::with_capacity(n);
+        let h = METRIC_STEP_KM;
+        for row in 0..ny {
+            for col in 0..nx {
+                let x = gt[0] + (col as f64 + 0.5) * gt[1];
+                let y = gt[3] + (row as f64 + 0.5) * gt[5];
+                let (lo, la) = pj.inverse(x, y);
+                if !(lo.is_finite() && la.is_finite()) {
+                    return Err(GridError::Projection(format!(
+                        "cell ({col}, {row}) at x = {x} m, y = {y} m has no lon/lat"
+                    )));
+                }
+                let (kx, ky) = km_per_degree(la);
+                let (xe, ye) = pj.forward(lo + h / kx, la);
+                let (xw, yw) = pj.forward(lo - h / kx, la);
+                let (xn, yn) = pj.forward(lo, la + h / ky);
+                let (xs, ys) = pj.forward(lo, la - h / ky);
+                // Metres per km east / north in projected x and y.
+                let (dxe, dye) = ((xe - xw) / (2.0 * h), (ye - yw) / (2.0 * h));
+                let (dxn, dyn_) = ((xn - xs) / (2.0 * h), (yn - ys) / (2.0 * h));
+                let m = CellMetric {
+                    km_per_deg_lon: kx as f32,
+                    km_per_deg_lat: ky as f32,
+                    col_per_km_east: (dxe / gt[1]) as f32,
+                    col_per_km_north: (dxn / gt[1]) as f32,
+                    row_per_km_east: (dye / gt[5]) as f32,
+                    row_per_km_north: (dyn_ / gt[5]) as f32,
+                };
+                if ![dxe, dye, dxn, dyn_].iter().all(|v| v.is_finite()) {
+                    return Err(GridError::Projection(format!(
+                        "no local metric at cell ({col}, {row}), {lo:.4}°E {la:.4}°N"
+                    )));
+                }
+                lon.push(lo);
+                lat.push(la);
+                metric.push(m);
+            }
+        }
+        Ok(Self {
+            nx,
+            ny,
+            georef: Georef {
+                crs: Crs::Wgs84Geographic,
+                geotransform,
+            },
+            projection: Projection::Map(map),
+            projector: Some(pj),
+            lon,
+            lat,
+            metric,
+        })
+    }
+
+    /// True when the grid is on a map projection rather than lat/lon.
+    pub fn is_projected(&self) -> bool {
+        matches!(self.projection, Projection::Map(_))
     }
 
     /// Number of cells.
@@ -157,33 +439,94 @@ impl Grid {
     }
 
     /// Fractional (column, row) of a lon/lat point, in cell-centre index space (0.0 is the centre
-    /// of the first column). `None` when the point lies outside the cell-centre hull.
+    /// of the first column). `None` when the point lies outside the cell-centre hull. On a
+    /// lat/lon grid, longitudes are taken modulo 360° so a point given as −170° falls on a grid
+    /// running 150°…230°.
     pub fn index_of(&self, lon: f64, lat: f64) -> Option<(f64, f64)> {
         let gt = self.georef.geotransform;
-        match self.georef.crs {
-            Crs::Wgs84Geographic => {
-                let col = (lon - gt[0]) / gt[1] - 0.5;
-                let row = (lat - gt[3]) / gt[5] - 0.5;
-                let inside = col >= 0.0
-                    && row >= 0.0
-                    && col <= (self.nx - 1) as f64
-                    && row <= (self.ny - 1) as f64;
-                inside.then_some((col, row))
+        let (col, row) = match &self.projector {
+            None => {
+                let mut col = (lon - gt[0]) / gt[1] - 0.5;
+                let period = 360.0 / gt[1];
+                if col < -0.5 && col + period <= self.nx as f64 {
+                    col += period;
+                } else if col > self.nx as f64 - 0.5 && col - period >= -0.5 {
+                    col -= period;
+                }
+                (col, (lat - gt[3]) / gt[5] - 0.5)
             }
-        }
+            Some(p) => {
+                let (x, y) = p.forward(lon, lat);
+                ((x - gt[0]) / gt[1] - 0.5, (y - gt[3]) / gt[5] - 0.5)
+            }
+        };
+        let inside =
+            col >= 0.0 && row >= 0.0 && col <= (self.nx - 1) as f64 && row <= (self.ny - 1) as f64;
+        inside.then_some((col, row))
     }
 
     /// Lon/lat of a fractional (column, row) in cell-centre index space.
     pub fn lonlat_of(&self, col: f64, row: f64) -> (f64, f64) {
         let gt = self.georef.geotransform;
-        match self.georef.crs {
-            Crs::Wgs84Geographic => (gt[0] + (col + 0.5) * gt[1], gt[3] + (row + 0.5) * gt[5]),
+        let (x, y) = (gt[0] + (col + 0.5) * gt[1], gt[3] + (row + 0.5) * gt[5]);
+        match &self.projector {
+            None => (x, y),
+            Some(p) => p.inverse(x, y),
         }
     }
 
-    /// True when both grids have the same size and georeference.
+    /// True when both grids have the same size, georeference and projection.
     pub fn same_as(&self, other: &Grid) -> bool {
-        self.nx == other.nx && self.ny == other.ny && self.georef == other.georef
+        self.nx == other.nx
+            && self.ny == other.ny
+            && self.georef == other.georef
+            && self.projection == other.projection
+    }
+
+    /// One line: size, projection and spacing, e.g. for messages and `trackswing inspect`.
+    pub fn describe(&self) -> String {
+        let gt = self.georef.geotransform;
+        match &self.projection {
+            Projection::LonLat => format!(
+                "{}×{} cells on lat/lon, {}° × {}°, cell centres lon {:.4}…{:.4}, lat {:.4}…{:.4}",
+                self.nx,
+                self.ny,
+                tidy(gt[1]),
+                tidy(-gt[5]),
+                gt[0] + 0.5 * gt[1],
+                gt[0] + (self.nx as f64 - 0.5) * gt[1],
+                gt[3] + (self.ny as f64 - 0.5) * gt[5],
+                gt[3] + 0.5 * gt[5],
+            ),
+            Projection::Map(m) => format!(
+                "{}×{} cells of {} m × {} m, {}, x {:.1}…{:.1} m, y {:.1}…{:.1} m",
+                self.nx,
+                self.ny,
+                tidy(gt[1]),
+                tidy(-gt[5]),
+                m.describe(),
+                gt[0],
+                gt[0] + self.nx as f64 * gt[1],
+                gt[3] + self.ny as f64 * gt[5],
+                gt[3],
+            ),
+        }
+    }
+
+    /// The lon/lat box of the cell centres, (west, south, east, north), degrees.
+    pub fn lonlat_bounds(&self) -> (f64, f64, f64, f64) {
+        let fold = |a: (f64, f64, f64, f64), (lo, la): (&f64, &f64)| {
+            (a.0.min(*lo), a.1.min(*la), a.2.max(*lo), a.3.max(*la))
+        };
+        self.lon.iter().zip(&self.lat).fold(
+            (
+                f64::INFINITY,
+                f64::INFINITY,
+                f64::NEG_INFINITY,
+                f64::NEG_INFINITY,
+            ),
+            fold,
+        )
     }
 }
 

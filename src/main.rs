@@ -4,6 +4,7 @@
 //! 4 outputs could not be written.
 
 mod cli;
+mod commands;
 mod report;
 
 use anyhow::Context;
@@ -27,11 +28,17 @@ enum Failure {
     Output(anyhow::Error),
 }
 
-fn run_case(
-    case_path: &Path,
-    common: &Common,
-    default_out: Option<PathBuf>,
-) -> Result<(), Failure> {
+/// What `run` was given: a case file, or model files with optional track and towns.
+enum Plan<'a> {
+    CaseFile(&'a Path),
+    ModelFiles {
+        files: &'a [PathBuf],
+        track: Option<&'a str>,
+        towns: Option<&'a Path>,
+    },
+}
+
+fn run_case(plan: Plan<'_>, common: &Common, default_out: Option<PathBuf>) -> Result<(), Failure> {
     let over = Overrides {
         cross: common.cross.clone(),
         along: common.along.clone(),
@@ -40,7 +47,15 @@ fn run_case(
         snow_ratio: common.snow_ratio.clone(),
         force: common.force,
     };
-    let case = Case::load(case_path, &over).map_err(|e| Failure::Input(e.into()))?;
+    let case = match plan {
+        Plan::CaseFile(p) => Case::load(p, &over),
+        Plan::ModelFiles {
+            files,
+            track,
+            towns,
+        } => Case::from_model_files(files, track, towns, &over),
+    }
+    .map_err(|e| Failure::Input(e.into()))?;
     let threads = common.threads.unwrap_or_else(|| {
         std::thread::available_parallelism()
             .map(|n| n.get())
@@ -56,6 +71,12 @@ fn run_case(
     let result = trackswing::engine::run(&case, threads, &progress).map_err(|e| {
         Failure::Input(anyhow::Error::from(e).context("the run stopped; nothing was written"))
     })?;
+    if result.grid.is_projected() {
+        return Err(Failure::Input(anyhow::anyhow!(
+            "the model grid is projected ({}); this version writes GeoTIFF layers on lat/lon grids only, so nothing was written (inspect and track work on projected grids)",
+            result.grid.describe()
+        )));
+    }
     let clock = std::time::Instant::now();
     let files = trackswing::write::write_all(&case, &result)
         .with_context(|| format!("writing the layers into {}", case.out_dir.display()))
@@ -74,17 +95,51 @@ fn run_case(
     Ok(())
 }
 
+fn run_plan(a: &cli::RunArgs) -> Result<(), Failure> {
+    let is_case = a.inputs.len() == 1
+        && a.inputs[0]
+            .extension()
+            .is_some_and(|e| e.eq_ignore_ascii_case("toml"));
+    if is_case {
+        if a.track.is_some() || a.towns.is_some() {
+            return Err(Failure::Input(anyhow::anyhow!(
+                "--track and --towns go with model files; a case file names its own track and towns"
+            )));
+        }
+        return run_case(Plan::CaseFile(&a.inputs[0]), &a.common, None);
+    }
+    run_case(
+        Plan::ModelFiles {
+            files: &a.inputs,
+            track: a.track.as_deref(),
+            towns: a.towns.as_deref(),
+        },
+        &a.common,
+        None,
+    )
+}
+
 fn main() -> ExitCode {
     let cli = Cli::parse();
     let outcome = match &cli.command {
-        Command::Run(a) => run_case(&a.case, &a.common, None),
-        Command::Demo(a) => run_case(&demo_case(), &a.common, Some(PathBuf::from("demo-out"))),
-        Command::MakeDemo(a) => trackswing::demo::files::write_case(
-            &a.out,
-            &trackswing::demo::spec_from(a.nx, a.ny, a.steps, a.step_hours, a.levels),
-        )
-        .with_context(|| format!("writing the demo case into {}", a.out.display()))
-        .map_err(Failure::Output),
+        Command::Run(a) => run_plan(a),
+        Command::Inspect(a) => commands::inspect(&a.inputs).map_err(Failure::Input),
+        Command::Track(a) => commands::track(a),
+        Command::Demo(a) => run_case(
+            Plan::CaseFile(&demo_case()),
+            &a.common,
+            Some(PathBuf::from("demo-out")),
+        ),
+        Command::MakeDemo(a) => {
+            let spec = trackswing::demo::spec_from(a.nx, a.ny, a.steps, a.step_hours, a.levels);
+            if a.grib2 {
+                trackswing::demo::grib2_case::write_case_grib2(&a.out, &spec)
+            } else {
+                trackswing::demo::files::write_case(&a.out, &spec)
+            }
+            .with_context(|| format!("writing the demo case into {}", a.out.display()))
+            .map_err(Failure::Output)
+        }
     };
     match outcome {
         Ok(()) => ExitCode::SUCCESS,

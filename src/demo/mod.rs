@@ -473,6 +473,8 @@ mod tests {
 }
 
 pub mod files;
+pub mod grib2;
+pub mod grib2_case;
 
 /// The shipped demo spec, or the same storm at another size when any dimension is given.
 pub fn spec_from(

@@ -42,11 +42,11 @@ pub enum FieldError {
         why: String,
     },
     /// Values outside the physical range.
-    #[error("{path}: band '{band}': {what}")]
+    #[error("{path}: {band}: {what}")]
     Implausible {
         /// The file.
         path: PathBuf,
-        /// The band.
+        /// The band (`band 'name'`) or GRIB message.
         band: String,
         /// What was found and what was expected.
         what: String,
@@ -179,7 +179,7 @@ fn band<'a>(r: &'a Raster, path: &Path, name: &str, why: &str) -> Result<&'a [f3
 }
 
 /// Checks that every finite value lies in `lo..=hi`, naming the first offender.
-fn check_range(
+pub(crate) fn check_range(
     path: &Path,
     name: &str,
     v: &[f32],
@@ -211,7 +211,7 @@ pub fn read_static(path: &Path) -> Result<StaticFields, FieldError> {
     let terrain = band(&r, path, "surface_altitude", "terrain height in m")?.to_vec();
     check_range(
         path,
-        "surface_altitude",
+        "band 'surface_altitude'",
         &terrain,
         -500.0,
         9000.0,
@@ -292,30 +292,10 @@ pub fn read_step(path: &Path, statics: &StaticFields) -> Result<StepFields, Fiel
             levels_pa.len()
         )));
     }
-    let layout = StepLayout { levels_pa };
-    let n = grid.len();
-    let nvar = layout.nvar();
-    let mut columns = vec![f32::NAN; n * nvar];
-    let mut put = |var: usize, values: &[f32]| {
-        for (c, v) in values.iter().enumerate() {
-            columns[c * nvar + var] = *v;
-        }
-    };
-    const T_HINT: &str = "temperatures must be in kelvin (a value near 0–30 suggests °C)";
-    const RH_HINT: &str = "relative humidity must be in percent, 0–100";
-    for (k, &p) in layout.levels_pa.iter().enumerate() {
+    let mut levels = Vec::with_capacity(levels_pa.len());
+    for &p in &levels_pa {
         let tag = level_tag(p);
-        for (name, var, lo, hi, hint) in [
-            ("air_temperature", layout.t(k), 150.0, 340.0, T_HINT),
-            (
-                "geopotential_height",
-                layout.z(k),
-                -1000.0,
-                40000.0,
-                "expected metres",
-            ),
-            ("relative_humidity", layout.rh(k), 0.0, 100.5, RH_HINT),
-        ] {
+        let get = |name: &str| -> Result<Labelled<'_>, FieldError> {
             let full = format!("{name}@{tag}");
             let v = band(
                 &r,
@@ -323,31 +303,129 @@ pub fn read_step(path: &Path, statics: &StaticFields) -> Result<StepFields, Fiel
                 &full,
                 "every isobaric level needs temperature, height and humidity",
             )?;
-            check_range(path, &full, v, lo, hi, hint)?;
-            put(var, v);
+            Ok(Labelled {
+                label: format!("band '{full}'"),
+                values: v,
+            })
+        };
+        levels.push([
+            get("air_temperature")?,
+            get("geopotential_height")?,
+            get("relative_humidity")?,
+        ]);
+    }
+    let get = |name: &str| -> Result<Labelled<'_>, FieldError> {
+        Ok(Labelled {
+            label: format!("band '{name}'"),
+            values: band(
+                &r,
+                path,
+                name,
+                "needed to decide type and amount at the ground",
+            )?,
+        })
+    };
+    let values = StepValues {
+        levels_pa,
+        levels,
+        t2: get("air_temperature@2m")?,
+        rh2: get("relative_humidity@2m")?,
+        precip: get("precipitation_amount")?,
+    };
+    assemble(path, valid, values, &statics.terrain)
+}
+
+/// One field's values with the words that name it in messages (a band, or a GRIB message).
+pub struct Labelled<'a> {
+    /// E.g. `band 'air_temperature@850hPa'` or `message 12 (temperature at 850 hPa)`.
+    pub label: String,
+    /// Row-major values, row 0 north, NaN where missing.
+    pub values: &'a [f32],
+}
+
+/// The storm-attached fields of one step, in SI units, before interleaving.
+pub struct StepValues<'a> {
+    /// Isobaric levels, Pa, highest pressure first.
+    pub levels_pa: Vec<f64>,
+    /// Temperature (K), geopotential height (m) and relative humidity (%) per level.
+    pub levels: Vec<[Labelled<'a>; 3]>,
+    /// 2 m temperature, K.
+    pub t2: Labelled<'a>,
+    /// 2 m relative humidity, %.
+    pub rh2: Labelled<'a>,
+    /// Precipitation fallen during the step, kg m⁻².
+    pub precip: Labelled<'a>,
+}
+
+/// Checks every field against its physical range and interleaves the step's columns (see
+/// [`StepLayout`]); `terrain` is the case's ground height, copied into every column. Shared by
+/// every input format, so a temperature in °C or a humidity as a fraction is refused the same
+/// way whatever the file type.
+pub fn assemble(
+    path: &Path,
+    valid: DateTime<Utc>,
+    v: StepValues<'_>,
+    terrain: &[f32],
+) -> Result<StepFields, FieldError> {
+    let layout = StepLayout {
+        levels_pa: v.levels_pa,
+    };
+    let n = terrain.len();
+    let nvar = layout.nvar();
+    let mut columns = vec![f32::NAN; n * nvar];
+    let mut put = |var: usize, f: &Labelled<'_>| -> Result<(), FieldError> {
+        if f.values.len() != n {
+            return Err(FieldError::Layout {
+                path: path.to_path_buf(),
+                what: format!(
+                    "{} has {} values but the grid has {n} cells",
+                    f.label,
+                    f.values.len()
+                ),
+            });
         }
-    }
-    for (name, var, lo, hi, hint) in [
-        ("air_temperature@2m", layout.t2(), 150.0, 340.0, T_HINT),
-        ("relative_humidity@2m", layout.rh2(), 0.0, 100.5, RH_HINT),
-        (
-            "precipitation_amount",
-            layout.precip(),
-            -0.01,
-            1000.0,
-            "expected kg m-2 (mm) per step, not negative",
-        ),
-    ] {
-        let v = band(
-            &r,
+        for (c, x) in f.values.iter().enumerate() {
+            columns[c * nvar + var] = *x;
+        }
+        Ok(())
+    };
+    const T_HINT: &str = "temperatures must be in kelvin (a value near 0–30 suggests °C)";
+    const RH_HINT: &str = "relative humidity must be in percent, 0–100";
+    for (k, [t, z, rh]) in v.levels.iter().enumerate() {
+        check_range(path, &t.label, t.values, 150.0, 340.0, T_HINT)?;
+        check_range(
             path,
-            name,
-            "needed to decide type and amount at the ground",
+            &z.label,
+            z.values,
+            -1000.0,
+            40000.0,
+            "expected metres",
         )?;
-        check_range(path, name, v, lo, hi, hint)?;
-        put(var, v);
+        check_range(path, &rh.label, rh.values, 0.0, 100.5, RH_HINT)?;
+        put(layout.t(k), t)?;
+        put(layout.z(k), z)?;
+        put(layout.rh(k), rh)?;
     }
-    put(layout.terrain(), &statics.terrain);
+    check_range(path, &v.t2.label, v.t2.values, 150.0, 340.0, T_HINT)?;
+    check_range(path, &v.rh2.label, v.rh2.values, 0.0, 100.5, RH_HINT)?;
+    check_range(
+        path,
+        &v.precip.label,
+        v.precip.values,
+        -0.01,
+        1000.0,
+        "expected kg m-2 (mm) per step, not negative",
+    )?;
+    put(layout.t2(), &v.t2)?;
+    put(layout.rh2(), &v.rh2)?;
+    put(layout.precip(), &v.precip)?;
+    put(
+        layout.terrain(),
+        &Labelled {
+            label: "terrain".into(),
+            values: terrain,
+        },
+    )?;
     for c in 0..n {
         let col = &mut columns[c * nvar..(c + 1) * nvar];
         // Rounding noise only: the range checks above refused anything larger.
@@ -361,7 +439,7 @@ pub fn read_step(path: &Path, statics: &StaticFields) -> Result<StepFields, Fiel
             if z1 <= z0 {
                 return Err(FieldError::Implausible {
                     path: path.to_path_buf(),
-                    band: format!("geopotential_height@{}", level_tag(layout.levels_pa[k])),
+                    band: v.levels[k][1].label.clone(),
                     what: format!(
                         "cell {c}: height {z1} m is not above {z0} m at {}; heights must increase upward",
                         level_tag(layout.levels_pa[k - 1])

@@ -1,9 +1,16 @@
 //! Stage 1, read: model fields per time step, the storm track and the towns.
+//!
+//! Model fields come through a [`source::Source`]: GeoTIFF ([`fields`]) or GRIB2 ([`grib`]). A
+//! track can also be found from the model's sea-level pressure ([`track_finder`]).
 
 pub mod fields;
+pub mod grib;
+pub mod source;
 pub mod towns;
 pub mod track;
+pub mod track_finder;
 
 pub use fields::{FieldError, StaticFields, StepFields, StepLayout};
+pub use source::{Source, SourceError};
 pub use towns::{read_towns, Town, TownsError};
 pub use track::{read_track, Track, TrackError, TrackPoint};

@@ -6,5 +6,6 @@ mod demo;
 mod engine;
 mod fuzz;
 mod geotiff_gdal;
+mod grib;
 mod reference;
 mod support;

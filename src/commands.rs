@@ -1,0 +1,92 @@
+//! `inspect` and `track`: resolve the files named on the command line, call the library, print
+//! or write the result.
+
+use super::cli::TrackArgs;
+use super::Failure;
+use anyhow::{anyhow, Context};
+use std::path::PathBuf;
+use trackswing::case::expand_model_args;
+use trackswing::read::source::{magic, Magic};
+
+fn files(inputs: &[PathBuf]) -> Result<Vec<PathBuf>, Failure> {
+    expand_model_args(inputs).map_err(|e| Failure::Input(e.into()))
+}
+
+/// Prints what the files hold.
+pub fn inspect(inputs: &[PathBuf]) -> Result<(), anyhow::Error> {
+    let files = expand_model_args(inputs)?;
+    for f in &files {
+        if magic(f)? != Magic::Grib2 {
+            return Err(anyhow!(
+                "{}: not a GRIB2 file; inspect reads GRIB2",
+                f.display()
+            ));
+        }
+    }
+    print!("{}", trackswing::read::grib::inspect::inspect(&files)?);
+    Ok(())
+}
+
+fn parse_start(s: &str) -> Result<(f64, f64), Failure> {
+    let bad = || {
+        Failure::Input(anyhow!(
+            "--start '{s}': expected LAT,LON in degrees, e.g. 47.5,-30"
+        ))
+    };
+    let (a, b) = s.split_once(',').ok_or_else(bad)?;
+    let lat: f64 = a.trim().parse().map_err(|_| bad())?;
+    let lon: f64 = b.trim().parse().map_err(|_| bad())?;
+    if !((-90.0..=90.0).contains(&lat) && lon.is_finite()) {
+        return Err(bad());
+    }
+    Ok((lon, lat))
+}
+
+/// Finds the track and writes `track.csv` and `track.geojson`.
+pub fn track(a: &TrackArgs) -> Result<(), Failure> {
+    use trackswing::read::track_finder::{find_track, track_csv, track_geojson};
+    let start = a.start.as_deref().map(parse_start).transpose()?;
+    let files = files(&a.inputs)?;
+    let (grid, steps) =
+        trackswing::read::grib::mslp_series(&files).map_err(|e| Failure::Input(e.into()))?;
+    let (found, lost) = find_track(&grid, &steps, start).map_err(|e| {
+        Failure::Input(anyhow::Error::from(e).context(files[0].display().to_string()))
+    })?;
+    if found.len() < 2 {
+        return Err(Failure::Input(anyhow!(
+            "{}: the low was found at {} step(s) only; a track needs two positions",
+            files[0].display(),
+            found.len()
+        )));
+    }
+    std::fs::create_dir_all(&a.out)
+        .with_context(|| format!("creating {}", a.out.display()))
+        .map_err(Failure::Output)?;
+    for (name, text) in [
+        ("track.csv", track_csv(&found)),
+        ("track.geojson", track_geojson(&found)),
+    ] {
+        let p = a.out.join(name);
+        std::fs::write(&p, text)
+            .with_context(|| format!("writing {}", p.display()))
+            .map_err(Failure::Output)?;
+    }
+    for c in &found {
+        println!(
+            "{}  {:9.4}°N {:10.4}°E  {:7.1} hPa",
+            c.time.format("%Y-%m-%dT%H:%MZ"),
+            c.lat,
+            c.lon,
+            c.mslp_pa / 100.0
+        );
+    }
+    if let Some(k) = lost {
+        println!("the low was lost after step {k} of {}", steps.len());
+    }
+    println!(
+        "wrote {} and {}",
+        a.out.join("track.csv").display(),
+        a.out.join("track.geojson").display()
+    );
+    Ok(())
+}

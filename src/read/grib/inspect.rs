@@ -1,0 +1,242 @@
+//! What `trackswing inspect` prints for GRIB2 files: the fields, levels, valid times, grids
+//! (size, projection, extent) found, and which of a case's requirements are met.
+
+use super::catalog::Catalog;
+use super::product::{short, Param, Surface};
+use super::source::Chooser;
+use super::GribError;
+use std::collections::BTreeMap;
+use std::fmt::Write;
+use std::path::PathBuf;
+
+/// The fields of one parameter on one kind of surface.
+#[derive(Default)]
+struct Group {
+    levels: Vec<f64>,
+    times: Vec<chrono::DateTime<chrono::Utc>>,
+    count: usize,
+    problems: Vec<String>,
+}
+
+fn level_list(mut v: Vec<f64>, unit: &str, scale: f64) -> String {
+    v.sort_by(|a, b| b.total_cmp(a));
+    v.dedup();
+    v.iter()
+        .map(|x| format!("{}", x / scale))
+        .collect::<Vec<_>>()
+        .join(", ")
+        + unit
+}
+
+/// The inventory of `files` as text. Structural damage is an error; everything else,
+/// including unmet requirements, is reported in the text.
+pub fn inspect(files: &[PathBuf]) -> Result<String, GribError> {
+    let cat = Catalog::scan(files)?;
+    let mut out = String::new();
+    let n_fields: usize = cat.entries.len() + cat.skipped.values().sum::<usize>();
+    let _ = writeln!(
+        out,
+        "{} GRIB2 file(s), {} field(s), {} of them with parameters trackswing reads",
+        files.len(),
+        n_fields,
+        cat.entries.len()
+    );
+    let _ = writeln!(out, "\nGrids:");
+    for (i, g) in cat.grids.iter().enumerate() {
+        let count = cat.entries.iter().filter(|e| e.grid == Some(i)).count();
+        match &g.placement {
+            Ok(p) => {
+                let (w, s, e, n) = p.grid.lonlat_bounds();
+                let span = if p.grid.is_projected() {
+                    format!("\n          cell centres span lon {w:.3}…{e:.3}, lat {s:.3}…{n:.3}")
+                } else {
+                    String::new()
+                };
+                let _ = writeln!(
+                    out,
+                    "  grid {}: {} fields; {}{span}",
+                    i + 1,
+                    count,
+                    p.grid.describe()
+                );
+            }
+            Err(e) => {
+                let _ = writeln!(out, "  grid {}: {count} fields; cannot be used: {e}", i + 1);
+            }
+        }
+    }
+    let mut refs: Vec<_> = cat.entries.iter().map(|e| e.product.reference).collect();
+    refs.sort();
+    refs.dedup();
+    let _ = writeln!(
+        out,
+        "\nReference times: {}",
+        refs.iter()
+            .map(|t| short(*t))
+            .collect::<Vec<_>>()
+            .join(", ")
+    );
+    let mut valid: Vec<_> = cat.entries.iter().map(|e| e.product.valid).collect();
+    valid.sort();
+    valid.dedup();
+    let _ = writeln!(
+        out,
+        "Valid times ({}): {}",
+        valid.len(),
+        valid
+            .iter()
+            .map(|t| short(*t))
+            .collect::<Vec<_>>()
+            .join(", ")
+    );
+    let _ = writeln!(out, "\nFields (parameter — levels — valid times):");
+    // Parameter, surface type, accumulated.
+    type Key = (Param, u8, bool);
+    let mut groups: BTreeMap<Key, Group> = BTreeMap::new();
+    for e in &cat.entries {
+        let (kind, value) = match e.product.surface {
+            Surface::Ground => (1, 0.0),
+            Surface::Isobaric(p) => (100, p),
+            Surface::MeanSeaLevel => (101, 0.0),
+            Surface::AboveGround(m) => (103, m),
+            Surface::Other(t, v) => (t, v),
+        };
+        let g = groups
+            .entry((e.param(), kind, e.product.window_start.is_some()))
+            .or_default();
+        g.levels.push(value);
+        g.times.push(e.product.valid);
+        g.count += 1;
+        if let Some(p) = &e.problem {
+            if !g.problems.contains(p) {
+                g.problems.push(p.clone());
+            }
+        }
+    }
+    for ((param, kind, acc), g) in groups {
+        let Group {
+            levels,
+            mut times,
+            count,
+            problems,
+        } = g;
+        times.sort();
+        times.dedup();
+        let surface = match kind {
+            1 => "at the ground".to_string(),
+            100 => format!("isobaric {}", level_list(levels, " hPa", 100.0)),
+            101 => "at mean sea level".to_string(),
+            103 => format!("{} above ground", level_list(levels, " m", 1.0)),
+            t => format!("fixed surface type {t}: {}", level_list(levels, "", 1.0)),
+        };
+        let _ = writeln!(
+            out,
+            "  {}{} ({}) — {surface} — {} time(s), {count} field(s){}",
+            param.name(),
+            if acc { " accumulated" } else { "" },
+            param.units(),
+            times.len(),
+            if problems.is_empty() {
+                String::new()
+            } else {
+                format!(" — NOT READABLE: {}", problems.join("; "))
+            }
+        );
+    }
+    if !cat.skipped.is_empty() {
+        let _ = writeln!(out, "\nNot used:");
+        for (why, n) in &cat.skipped {
+            let _ = writeln!(out, "  {n} × {why}");
+        }
+    }
+    let _ = writeln!(out, "\nCase requirements:");
+    let mark = |ok: bool| if ok { "met    " } else { "MISSING" };
+    let ch = match Chooser::new(&cat) {
+        Ok(c) => c,
+        Err(e) => {
+            let _ = writeln!(out, "  {} isobaric temperature: {e}", mark(false));
+            return Ok(out);
+        }
+    };
+    let _ = writeln!(
+        out,
+        "  {} case grid: grid {} (the one with the most isobaric temperatures)",
+        mark(true),
+        ch.grid + 1
+    );
+    let steps = ch.steps();
+    let _ = writeln!(
+        out,
+        "  {} time steps: {} ({}…{})",
+        mark(true),
+        steps.len(),
+        short(steps[0]),
+        short(steps[steps.len() - 1])
+    );
+    match ch.levels(&steps) {
+        Ok((levels, dropped)) => {
+            let _ = writeln!(
+                out,
+                "  {} isobaric levels with temperature, height and humidity at the first step: {}{}",
+                mark(true),
+                level_list(levels.clone(), " hPa", 100.0),
+                if dropped.is_empty() {
+                    String::new()
+                } else {
+                    format!(" (incomplete, not used: {})", dropped.join(", "))
+                }
+            );
+            let mut problems = Vec::new();
+            for k in 0..steps.len() {
+                if let Err(e) = ch_step(&ch, &steps, &levels, k) {
+                    problems.push(e);
+                }
+            }
+            if problems.is_empty() {
+                let _ = writeln!(
+                    out,
+                    "  {} every step has those levels, 2 m temperature and humidity, and precipitation for the step",
+                    mark(true)
+                );
+            } else {
+                for p in problems {
+                    let _ = writeln!(out, "  {} {p}", mark(false));
+                }
+            }
+        }
+        Err(e) => {
+            let _ = writeln!(out, "  {} isobaric levels: {e}", mark(false));
+        }
+    }
+    match ch.terrain() {
+        Ok((i, _)) => {
+            let _ = writeln!(
+                out,
+                "  {} terrain: {} ({})",
+                mark(true),
+                cat.entries[i].product.label(),
+                cat.origin(&cat.entries[i])
+            );
+        }
+        Err(e) => {
+            let _ = writeln!(out, "  {} terrain: {e}", mark(false));
+        }
+    }
+    let with_mslp = steps.iter().filter(|t| ch.mslp(**t).is_some()).count();
+    let _ = writeln!(
+        out,
+        "  {} sea-level pressure for the track finder: at {with_mslp} of {} steps",
+        mark(with_mslp == steps.len()),
+        steps.len()
+    );
+    Ok(out)
+}
+
+fn ch_step(
+    ch: &Chooser<'_>,
+    steps: &[chrono::DateTime<chrono::Utc>],
+    levels: &[f64],
+    k: usize,
+) -> Result<(), String> {
+    ch.step_check(steps, levels, k).map_err(|e| e.to_string())
+}

@@ -1,12 +1,14 @@
-//! Criterion micro-benchmarks of the per-cell kernels: energy-area type, column diagnosis,
-//! bilinear sampling and one engine step over a block of cells.
+//! Criterion micro-benchmarks of the per-cell kernels: energy-area type, column diagnosis (also
+//! with dry air below the cloud) and bilinear sampling.
 //!
 //! `cargo bench --bench kernels`. The end-to-end throughput benchmark is scripts/bench.sh.
 
 use criterion::{criterion_group, criterion_main, Criterion};
 use std::hint::black_box;
 use trackswing::diagnose::ptype::bourgouin;
-use trackswing::diagnose::{diagnose_column, Methods, PtypeMethod, SlrMethod};
+use trackswing::diagnose::{
+    diagnose_column, step_column, Methods, Profile, PtypeMethod, SlrMethod,
+};
 use trackswing::geotiff::{Crs, Georef};
 use trackswing::grid::Grid;
 use trackswing::read::StepLayout;
@@ -50,9 +52,35 @@ fn kernels(c: &mut Criterion) {
         ptype: PtypeMethod::EnergyArea,
         slr: SlrMethod::MaxColumnTemperature,
         lapse_rate_k_per_m: 0.0065,
+        dry_air: false,
     };
     c.bench_function("diagnose_column, 6 levels", |b| {
         b.iter(|| diagnose_column(black_box(&col), &layout, black_box(80.0), &methods))
+    });
+    // Dry below 850 hPa: the sub-cloud deficit (isobaric wet-bulb per point) and the cooling.
+    let mut dry = col.clone();
+    for k in 0..2 {
+        dry[layout.rh(k)] = 55.0;
+    }
+    dry[layout.rh2()] = 50.0;
+    let with_dry_air = Methods {
+        dry_air: true,
+        ..methods
+    };
+    let mut profile = Profile::empty();
+    c.bench_function("step_column with dry air below the cloud, 6 levels", |b| {
+        b.iter(|| {
+            step_column(
+                black_box(&dry),
+                &layout,
+                black_box(80.0),
+                &with_dry_air,
+                0.0,
+                1.2,
+                black_box(0.4),
+                &mut profile,
+            )
+        })
     });
     let grid = Grid::new(
         64,

@@ -5,7 +5,7 @@
 //! A case lists its model runs as `[[member]]` tables; this version runs one member per case.
 
 use crate::diagnose::{Methods, PtypeMethod, SlrMethod};
-use crate::scenario::{parse_offsets, OffsetError};
+use crate::scenario::{parse_offsets, Axes, OffsetError};
 use crate::shift::Taper;
 use serde::Deserialize;
 use std::path::{Path, PathBuf};
@@ -88,6 +88,12 @@ pub struct OffsetsFile {
     pub cross_km: Option<OffsetList>,
     /// Along-track offsets, km, positive ahead.
     pub along_km: Option<OffsetList>,
+    /// Time offsets, hours, positive when the storm comes later.
+    pub timing_h: Option<OffsetList>,
+    /// Factors on the precipitation.
+    pub intensity: Option<OffsetList>,
+    /// Warm-layer biases, K, added between the ground and 500 hPa.
+    pub warm_bias_k: Option<OffsetList>,
 }
 
 /// `[shift]`.
@@ -106,12 +112,14 @@ pub struct ShiftFile {
 #[derive(Debug, Deserialize, Clone, Default)]
 #[serde(deny_unknown_fields)]
 pub struct MethodsFile {
-    /// `energy-area`.
+    /// `energy-area`, `partial-thickness` or `surface-logistic`.
     pub precip_type: Option<String>,
-    /// `fixed` or `max-column-temperature`.
+    /// `fixed`, `max-column-temperature` or `growth-zone`.
     pub snow_ratio: Option<String>,
     /// The ratio for `fixed`.
     pub fixed_ratio: Option<f64>,
+    /// Dry air below the cloud takes its share first (default true).
+    pub dry_air: Option<bool>,
 }
 
 /// `[output]`.
@@ -252,6 +260,16 @@ pub struct Overrides {
     pub snow_ratio: Option<String>,
     /// `--force`: replace a non-empty output folder trackswing did not write.
     pub force: bool,
+    /// `--precip-type`.
+    pub precip_type: Option<String>,
+    /// `--no-dry-air`.
+    pub no_dry_air: bool,
+    /// `--timing`.
+    pub timing: Option<String>,
+    /// `--intensity`.
+    pub intensity: Option<String>,
+    /// `--warm-bias`.
+    pub warm_bias: Option<String>,
 }
 
 /// A case ready to run.
@@ -269,10 +287,19 @@ pub struct Case {
     pub cross_km: Vec<f64>,
     /// Along-track offsets, km.
     pub along_km: Vec<f64>,
+    /// Time offsets, hours (positive: the storm comes later).
+    pub timing_h: Vec<f64>,
+    /// Precipitation factors.
+    pub intensity: Vec<f64>,
+    /// Warm-layer biases, K.
+    pub warm_bias_k: Vec<f64>,
     /// Displacement taper.
     pub taper: Taper,
     /// Methods.
     pub methods: Methods,
+    /// The ratio the `fixed` snow-ratio method uses (also when another method runs, for
+    /// comparisons such as the sounding view).
+    pub fixed_ratio: f64,
     /// Output folder.
     pub out_dir: PathBuf,
     /// Output units.
@@ -397,8 +424,12 @@ impl Case {
             .map(|t| existing("towns", t))
             .transpose()?;
 
-        let offsets = |field: &str, cli: &Option<String>, case: &Option<OffsetList>| {
-            let cli_field = format!("--{}", field.trim_end_matches("_km"));
+        let axis = |field: &str,
+                    flag: &str,
+                    neutral: &str,
+                    cli: &Option<String>,
+                    case: &Option<OffsetList>| {
+            let cli_field = flag.to_string();
             let (text, source) = match (cli, case) {
                 (Some(c), _) => (c.clone(), cli_field),
                 (None, Some(OffsetList::Text(t))) => (t.clone(), format!("offsets.{field}")),
@@ -409,12 +440,48 @@ impl Case {
                         .join(","),
                     format!("offsets.{field}"),
                 ),
-                (None, None) => ("0".to_string(), format!("offsets.{field}")),
+                (None, None) => (neutral.to_string(), format!("offsets.{field}")),
             };
-            parse_offsets(&text).map_err(|e: OffsetError| invalid(&source, e.to_string()))
+            parse_offsets(&text)
+                .map_err(|e: OffsetError| invalid(&source, e.to_string()))
+                .map(|v| (v, source))
         };
-        let cross_km = offsets("cross_km", &over.cross, &file.offsets.cross_km)?;
-        let along_km = offsets("along_km", &over.along, &file.offsets.along_km)?;
+        let o = &file.offsets;
+        let (cross_km, _) = axis("cross_km", "--cross", "0", &over.cross, &o.cross_km)?;
+        let (along_km, _) = axis("along_km", "--along", "0", &over.along, &o.along_km)?;
+        let (timing_h, timing_src) = axis("timing_h", "--timing", "0", &over.timing, &o.timing_h)?;
+        let (intensity, intensity_src) = axis(
+            "intensity",
+            "--intensity",
+            "1",
+            &over.intensity,
+            &o.intensity,
+        )?;
+        let (warm_bias_k, warm_src) = axis(
+            "warm_bias_k",
+            "--warm-bias",
+            "0",
+            &over.warm_bias,
+            &o.warm_bias_k,
+        )?;
+        for (values, source, lo, hi, what) in [
+            (&timing_h, &timing_src, -48.0, 48.0, "hours (−48…48)"),
+            (
+                &intensity,
+                &intensity_src,
+                0.05,
+                5.0,
+                "a factor on the precipitation (0.05…5; 1 is as modelled)",
+            ),
+            (&warm_bias_k, &warm_src, -10.0, 10.0, "kelvin (−10…10)"),
+        ] {
+            if let Some(v) = values.iter().find(|v| !(lo..=hi).contains(*v)) {
+                return Err(invalid(
+                    source,
+                    format!("{v} is outside the accepted range: expected {what}"),
+                ));
+            }
+        }
         let only_zero = cross_km.iter().chain(&along_km).all(|v| *v == 0.0);
         if member.track.is_none() && !member.find_track && !only_zero {
             return Err(invalid(
@@ -439,15 +506,20 @@ impl Case {
             ));
         }
 
-        let ptype = match file.methods.precip_type.as_deref().unwrap_or("energy-area") {
-            "energy-area" => PtypeMethod::EnergyArea,
-            other => {
-                return Err(invalid(
-                    "methods.precip_type",
-                    format!("'{other}' is not a method; expected energy-area"),
-                ))
-            }
+        let (ptype_text, ptype_field) = match (&over.precip_type, &file.methods.precip_type) {
+            (Some(s), _) => (s.clone(), "--precip-type"),
+            (None, Some(s)) => (s.clone(), "methods.precip_type"),
+            (None, None) => ("energy-area".to_string(), "methods.precip_type"),
         };
+        let ptype = PtypeMethod::parse(&ptype_text).ok_or_else(|| {
+            invalid(
+                ptype_field,
+                format!(
+                    "'{ptype_text}' is not a method; expected {}",
+                    PtypeMethod::ALL.map(|m| m.name()).join(", ")
+                ),
+            )
+        })?;
         let ratio = file.methods.fixed_ratio.unwrap_or(10.0);
         if !(1.0..=50.0).contains(&ratio) {
             return Err(invalid(
@@ -460,16 +532,16 @@ impl Case {
             (None, Some(s)) => (s.clone(), "methods.snow_ratio"),
             (None, None) => ("fixed".to_string(), "methods.snow_ratio"),
         };
-        let slr = match slr_text.as_str() {
-            "fixed" => SlrMethod::Fixed(ratio),
-            "max-column-temperature" => SlrMethod::MaxColumnTemperature,
-            other => {
-                return Err(invalid(
-                    slr_field,
-                    format!("'{other}' is not a method; expected fixed or max-column-temperature"),
-                ))
-            }
-        };
+        let slr = SlrMethod::parse(&slr_text, ratio).ok_or_else(|| {
+            invalid(
+                slr_field,
+                format!(
+                    "'{slr_text}' is not a method; expected {}",
+                    SlrMethod::NAMES.join(", ")
+                ),
+            )
+        })?;
+        let dry_air = !over.no_dry_air && file.methods.dry_air.unwrap_or(true);
 
         let (units_text, units_field) = match (&over.units, &file.output.units) {
             (Some(u), _) => (u.clone(), "--units"),
@@ -494,6 +566,9 @@ impl Case {
             towns,
             cross_km,
             along_km,
+            timing_h,
+            intensity,
+            warm_bias_k,
             taper: Taper {
                 core_radius_km: core,
                 outer_radius_km: outer,
@@ -502,7 +577,9 @@ impl Case {
                 ptype,
                 slr,
                 lapse_rate_k_per_m: lapse / 1000.0,
+                dry_air,
             },
+            fixed_ratio: ratio,
             out_dir,
             units,
             force: over.force,
@@ -516,6 +593,19 @@ impl Case {
         v.extend(self.member.track.iter().cloned());
         v.extend(self.towns.iter().cloned());
         v
+    }
+}
+
+impl Case {
+    /// Every scenario axis of the case.
+    pub fn axes(&self) -> Axes {
+        Axes {
+            cross_km: self.cross_km.clone(),
+            along_km: self.along_km.clone(),
+            timing_h: self.timing_h.clone(),
+            intensity: self.intensity.clone(),
+            warm_bias_k: self.warm_bias_k.clone(),
+        }
     }
 }
 
@@ -704,6 +794,76 @@ along_km = [0, 50]
 [methods]
 snow_ratio = "max-column-temperature"
 "#;
+
+    #[test]
+    fn methods_and_axes_from_the_file_and_the_flags() {
+        let (_d, p) = setup(
+            &GOOD
+                .replace(
+                    "[methods]",
+                    "[methods]\nprecip_type = \"partial-thickness\"\ndry_air = false",
+                )
+                .replace(
+                    "along_km = [0, 50]",
+                    "along_km = [0, 50]\ntiming_h = \"-3:3:3\"\nintensity = [0.8, 1.2]",
+                ),
+        );
+        let c = Case::load(&p, &Overrides::default()).unwrap();
+        assert_eq!(c.methods.ptype, PtypeMethod::PartialThickness);
+        assert!(!c.methods.dry_air);
+        assert_eq!(c.timing_h, vec![-3.0, 0.0, 3.0]);
+        assert_eq!(c.intensity, vec![0.8, 1.2]);
+        assert_eq!(c.warm_bias_k, vec![0.0]);
+        assert_eq!(c.axes().product_len(), 5 * 2 * 3 * 2);
+        let over = Overrides {
+            precip_type: Some("surface-logistic".into()),
+            snow_ratio: Some("growth-zone".into()),
+            warm_bias: Some("-1,0,1".into()),
+            ..Default::default()
+        };
+        let c = Case::load(&p, &over).unwrap();
+        assert_eq!(c.methods.ptype, PtypeMethod::SurfaceLogistic);
+        assert_eq!(c.methods.slr, SlrMethod::GrowthZone);
+        assert_eq!(c.warm_bias_k, vec![-1.0, 0.0, 1.0]);
+        let (_d, p) = setup(GOOD);
+        let c = Case::load(&p, &Overrides::default()).unwrap();
+        assert!(c.methods.dry_air, "dry air is on by default");
+        let c = Case::load(
+            &p,
+            &Overrides {
+                no_dry_air: true,
+                ..Default::default()
+            },
+        )
+        .unwrap();
+        assert!(!c.methods.dry_air);
+        for (over, expect) in [
+            (
+                Overrides {
+                    precip_type: Some("thickness".into()),
+                    ..Default::default()
+                },
+                "--precip-type",
+            ),
+            (
+                Overrides {
+                    intensity: Some("0".into()),
+                    ..Default::default()
+                },
+                "--intensity",
+            ),
+            (
+                Overrides {
+                    timing: Some("-100".into()),
+                    ..Default::default()
+                },
+                "--timing",
+            ),
+        ] {
+            let e = Case::load(&p, &over).unwrap_err().to_string();
+            assert!(e.contains(expect), "{e}");
+        }
+    }
 
     #[test]
     fn resolves_a_good_case() {

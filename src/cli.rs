@@ -40,6 +40,12 @@ pub enum Command {
     /// Write the invented demo storm's input files (used to build demo-grid/ and benchmark cases).
     #[command(hide = true)]
     MakeDemo(MakeDemoArgs),
+    /// Show one cell's shifted profile, what every method makes of it, and its totals to a step.
+    Sounding(SoundingArgs),
+    /// Evaluate the thermodynamic kernels on CSV points from stdin (p_pa,t_k,rh_pct), for the
+    /// reference checks in tests/ref/.
+    #[command(hide = true)]
+    ThermoTable,
 }
 
 /// Settings shared by `run` and `demo`.
@@ -61,12 +67,27 @@ pub struct Common {
     /// Units of the outputs: metric (cm of snow, mm of liquid) or us (inches).
     #[arg(long, value_name = "metric|us")]
     pub units: Option<String>,
-    /// Snow-to-liquid ratio method: fixed or max-column-temperature.
+    /// Snow-to-liquid ratio method: fixed, max-column-temperature or growth-zone.
     #[arg(long, value_name = "METHOD")]
     pub snow_ratio: Option<String>,
     /// Replace the output folder even if it holds files trackswing did not write.
     #[arg(long)]
     pub force: bool,
+    /// Precipitation-type method: energy-area, partial-thickness or surface-logistic.
+    #[arg(long, value_name = "METHOD")]
+    pub precip_type: Option<String>,
+    /// Let all precipitation reach the ground (no evaporation into dry air below the cloud).
+    #[arg(long)]
+    pub no_dry_air: bool,
+    /// Time offsets in hours, positive when the storm comes later: a value, a list or a range.
+    #[arg(long, value_name = "RANGE", allow_hyphen_values = true)]
+    pub timing: Option<String>,
+    /// Factors on the precipitation (1 = as modelled): a value, a list or a range.
+    #[arg(long, value_name = "RANGE", allow_hyphen_values = true)]
+    pub intensity: Option<String>,
+    /// Temperature biases in K added between the ground and 500 hPa: a value, a list or a range.
+    #[arg(long, value_name = "RANGE", allow_hyphen_values = true)]
+    pub warm_bias: Option<String>,
     /// Print nothing but errors.
     #[arg(long, short)]
     pub quiet: bool,
@@ -145,4 +166,65 @@ pub struct MakeDemoArgs {
     /// Write the case as GRIB2 model output (one file per valid time) instead of GeoTIFF.
     #[arg(long)]
     pub grib2: bool,
+}
+
+/// `trackswing sounding`.
+#[derive(Args, Debug)]
+pub struct SoundingArgs {
+    /// The case file (TOML).
+    #[arg(value_name = "CASE.toml")]
+    pub case: std::path::PathBuf,
+    /// The point, degrees: latitude,longitude (e.g. 47.76,-29.29).
+    #[arg(long, value_name = "LAT,LON", allow_hyphen_values = true)]
+    pub at: String,
+    /// Step to show, 1-based (default: the last); totals run from step 1 to it.
+    #[arg(long, value_name = "N")]
+    pub step: Option<usize>,
+    /// Cross-track offset, km, positive to the left of the motion.
+    #[arg(
+        long,
+        value_name = "KM",
+        default_value_t = 0.0,
+        allow_hyphen_values = true
+    )]
+    pub cross: f64,
+    /// Along-track offset, km, positive ahead.
+    #[arg(
+        long,
+        value_name = "KM",
+        default_value_t = 0.0,
+        allow_hyphen_values = true
+    )]
+    pub along: f64,
+    /// Time offset, hours, positive when the storm comes later.
+    #[arg(
+        long,
+        value_name = "H",
+        default_value_t = 0.0,
+        allow_hyphen_values = true
+    )]
+    pub timing: f64,
+    /// Factor on the precipitation.
+    #[arg(long, value_name = "X", default_value_t = 1.0)]
+    pub intensity: f64,
+    /// Temperature bias, K, between the ground and 500 hPa.
+    #[arg(
+        long,
+        value_name = "K",
+        default_value_t = 0.0,
+        allow_hyphen_values = true
+    )]
+    pub warm_bias: f64,
+    /// Precipitation-type method in use (default: the case's).
+    #[arg(long, value_name = "METHOD")]
+    pub precip_type: Option<String>,
+    /// Snow-to-liquid ratio method in use (default: the case's).
+    #[arg(long, value_name = "METHOD")]
+    pub snow_ratio: Option<String>,
+    /// No evaporation into dry air below the cloud.
+    #[arg(long)]
+    pub no_dry_air: bool,
+    /// Print JSON instead of the table.
+    #[arg(long)]
+    pub json: bool,
 }

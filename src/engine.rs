@@ -1,27 +1,37 @@
 //! The engine: streams the time steps through shift → diagnose → accumulate for every scenario.
 //!
 //! Time is the outer loop: each step's fields are read once and every scenario is computed on
-//! them; only one step's fields and the per-scenario totals are held, so memory does not grow
-//! with the number of steps. This is the one place where work runs in parallel: the tasks are
-//! (scenario, block of cells) pairs, each writing only its own cells of its own scenario's totals,
-//! so the result is identical, bit for bit, whatever the number of threads.
+//! them. Only a window of steps is held — the steps the current output step's scenarios sample
+//! (one step without timing offsets; with them, the steps that bracket t − max(timing) …
+//! t − min(timing), at most (max − min)/step + 2 while the next is read) — and the per-scenario
+//! totals, so memory does not grow with the number of steps. This is the one place where work runs in parallel: the
+//! tasks are (scenario, block of cells) pairs, each writing only its own cells of its own
+//! scenario's totals, so the result is identical, bit for bit, whatever the number of threads.
+//!
+//! A scenario's step k has the model's step k's length and valid time t_k; its fields are the
+//! model's at t_k − timing_h, linear in time between the two steps that bracket it (the
+//! precipitation as a rate, so steps of different lengths mix correctly). A step whose sampled
+//! time lies before the model's first step or after its last is skipped for that scenario and
+//! counted ([`Totals::uncovered_steps`]): the model says nothing about those hours.
 
 use crate::accumulate::Totals;
 use crate::case::Case;
-use crate::diagnose::{diagnose_column, Methods};
+use crate::diagnose::{step_column, ColumnMissing, ColumnStep, Methods, Profile};
 use crate::grid::Grid;
 use crate::progress::Progress;
+use crate::read::fields::StepFields;
 use crate::read::source::{open as open_source, Source};
 use crate::read::track_finder::{find_track, to_track, FinderError};
 use crate::read::{
     read_towns, read_track, FieldError, SourceError, StepLayout, Town, TownsError, Track,
     TrackError,
 };
-use crate::scenario::{scenario_set, Scenario};
+use crate::scenario::{bracket, scenario_product, Scenario, TimeSample};
 use crate::shift::{bilinear_weights, sample_at, sample_one, source_index, StepShift, Taper};
-use chrono::{DateTime, Utc};
+use chrono::{DateTime, Duration, Utc};
 use rayon::prelude::*;
-use std::path::PathBuf;
+use std::collections::VecDeque;
+use std::path::{Path, PathBuf};
 
 /// Why a run failed. Nothing is written when a run fails.
 #[derive(Debug, thiserror::Error)]
@@ -32,6 +42,14 @@ pub enum EngineError {
     /// Model fields from any source.
     #[error(transparent)]
     Source(#[from] SourceError),
+    /// Model fields of one time step.
+    #[error("step {step}: {source}")]
+    StepField {
+        /// Step number (1-based).
+        step: usize,
+        /// What is wrong with its file (boxed: it is large and rare).
+        source: Box<SourceError>,
+    },
     /// The track could not be found from sea-level pressure.
     #[error("{path}: finding the track: {source}")]
     Finder {
@@ -153,15 +171,7 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
     let source = open_source(&case.member, &|m: &str| progress.warn(m))?;
     let statics = source.statics();
     let grid = statics.grid.clone();
-    let track = match &case.member.track {
-        Some(p) => Some(read_track(p)?),
-        None if case.member.find_track => Some(found_track(
-            source.as_ref(),
-            &case.member.terrain,
-            progress,
-        )?),
-        None => None,
-    };
+    let track = case_track(case, source.as_ref(), progress)?;
     if let Some(t) = &track {
         if !t
             .points
@@ -190,11 +200,11 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
         }
         None => Vec::new(),
     };
-    let scenarios = scenario_set(&case.cross_km, &case.along_km);
+    let scenarios = scenario_product(&case.axes());
     let baseline = scenarios
         .iter()
         .position(Scenario::is_baseline)
-        .expect("scenario_set always includes the baseline");
+        .expect("scenario_product always includes the baseline");
     let n = grid.len();
     if let Some(avail) = available_memory() {
         let need = memory_estimate(n, scenarios.len());
@@ -213,96 +223,70 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
         .map_err(|_| EngineError::Threads(threads))?;
 
     let mut totals: Vec<Totals> = scenarios.iter().map(|_| Totals::new(n)).collect();
-    let mut valid_times = Vec::new();
     let mut centres = Vec::new();
-    let mut layout: Option<StepLayout> = None;
     let mut timings = Timings::default();
+    let mut window = StepWindow::new(source.as_ref());
+    let timing_offsets = distinct(scenarios.iter().map(|s| s.timing_h));
     progress.start("time steps", source.step_count() as u64);
     for k in 0..source.step_count() {
         let clock = std::time::Instant::now();
-        let step = source.step(k)?;
-        let path = step.path.clone();
+        window.load_through(k)?;
+        let t_k = window.times[k];
+        let samples: Vec<Option<TimeSample>> = timing_offsets
+            .iter()
+            .map(|&h| window.sample(t_k - hours(h)))
+            .collect::<Result<_, _>>()?;
+        let first_needed = samples
+            .iter()
+            .flatten()
+            .map(|x| x.index)
+            .min()
+            .unwrap_or(k)
+            .min(k);
+        window.forget_before(first_needed);
         timings.read_s += clock.elapsed().as_secs_f64();
         let clock = std::time::Instant::now();
-        if let Some(l) = &layout {
-            if *l != step.layout {
-                return Err(EngineError::Steps {
-                    path: path.clone(),
-                    what: format!(
-                        "its isobaric levels ({}) differ from the first step's ({}); every step needs the same levels",
-                        levels_text(&step.layout),
-                        levels_text(l)
-                    ),
-                });
-            }
+        let path = window.fields(k).path.clone();
+        let mut inputs = Vec::with_capacity(scenarios.len());
+        for (si, s) in scenarios.iter().enumerate() {
+            let ti = timing_offsets
+                .iter()
+                .position(|h| *h == s.timing_h)
+                .expect("every timing is listed");
+            let Some(sample) = samples[ti] else {
+                totals[si].uncovered_steps += 1;
+                inputs.push(None);
+                continue;
+            };
+            let at = t_k - hours(s.timing_h);
+            let shift = scenario_shift(track.as_ref(), s, at, k, &path)?;
+            inputs.push(Some(window.scenario_step(k, sample, shift, s)));
         }
-        if let Some(prev) = valid_times.last() {
-            if step.valid <= *prev {
-                return Err(EngineError::Steps {
-                    path: path.clone(),
-                    what: format!(
-                        "valid_time {} does not come after the previous step's {}; list steps in time order, each once",
-                        step.valid.to_rfc3339(),
-                        prev.to_rfc3339()
-                    ),
-                });
-            }
-        }
-        let shifts: Vec<StepShift> = scenarios
-            .iter()
-            .map(|s| {
-                if s.is_baseline() {
-                    return Ok(StepShift::none());
-                }
-                let t = track
-                    .as_ref()
-                    .expect("case checks a track exists for offsets");
-                let ((lon, lat), (e, nn)) = t
-                    .shifted_centre(step.valid, s.cross_km, s.along_km)
-                    .ok_or_else(|| {
-                        let (a, b) = t.span();
-                        EngineError::TrackTooShort {
-                            path: t.source.clone(),
-                            what: format!(
-                                "the track runs {}…{} but step {} ({}) is valid at {}",
-                                a.to_rfc3339(),
-                                b.to_rfc3339(),
-                                k + 1,
-                                path.display(),
-                                step.valid.to_rfc3339()
-                            ),
-                        }
-                    })?;
-                Ok(StepShift {
-                    centre_lon: lon,
-                    centre_lat: lat,
-                    east_km: e,
-                    north_km: nn,
-                })
-            })
-            .collect::<Result<_, EngineError>>()?;
-        centres.push(track.as_ref().and_then(|t| t.position_at(step.valid)));
-        let outside = pool.install(|| {
+        centres.push(track.as_ref().and_then(|t| t.position_at(t_k)));
+        let layout = window.layout().clone();
+        let counts = pool.install(|| {
             step_all_scenarios(
                 &grid,
                 &statics.terrain,
-                &step.layout,
-                &step.columns,
-                &shifts,
+                &layout,
+                &inputs,
                 &case.taper,
                 &case.methods,
+                (k + 1) as u32,
                 &mut totals,
             )
         });
-        for (t, o) in totals.iter_mut().zip(outside) {
-            t.outside += o;
+        for (t, o) in totals.iter_mut().zip(counts) {
+            t.outside += o.outside;
+            t.undefined += o.undefined;
         }
         timings.compute_s += clock.elapsed().as_secs_f64();
-        valid_times.push(step.valid);
-        layout = Some(step.layout);
         progress.advance(1);
     }
     progress.finish();
+    let valid_times = std::mem::take(&mut window.times);
+    let layout = window.layout.take().expect("a case has at least one step");
+    drop(window);
     let cell_steps = (n * valid_times.len()) as f64;
     let edge: Vec<(usize, f64)> = totals
         .iter()
@@ -318,6 +302,30 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
             scenarios[worst].label()
         ));
     }
+    let undefined: u64 = totals.iter().map(|t| t.undefined).sum();
+    if undefined > 0 {
+        progress.warn(&format!(
+            "the {} method is undefined at {undefined} cell-steps over all scenarios ({:.2} %; e.g. ground above 850 hPa for partial thickness, where no 850–700 or 1000–500 hPa thickness exists); those cells are nodata in those scenarios",
+            case.methods.ptype.name(),
+            100.0 * undefined as f64 / (cell_steps * scenarios.len() as f64)
+        ));
+    }
+    for &h in &timing_offsets {
+        if let Some(t) = scenarios
+            .iter()
+            .zip(&totals)
+            .find(|(s, _)| s.timing_h == h)
+            .map(|(_, t)| t)
+            .filter(|t| t.uncovered_steps > 0)
+        {
+            progress.warn(&format!(
+                "timing {h:+} h: {} of {} steps sample a time {} the model's steps; nothing is counted for them, so those scenarios' totals cover a shorter window",
+                t.uncovered_steps,
+                valid_times.len(),
+                if h > 0.0 { "before" } else { "after" }
+            ));
+        }
+    }
     Ok(RunResult {
         grid,
         terrain: statics.terrain.clone(),
@@ -328,16 +336,17 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
         centres,
         towns,
         track,
-        layout: layout.expect("a case has at least one step"),
+        layout,
         timings,
     })
 }
 
-/// Bytes a run holds at its peak: the per-scenario totals (five f32 per cell) plus one output
-/// band per scenario while the stack is written. One step's fields add a few bands' worth per
-/// level, small beside the totals once there are more than a handful of scenarios.
+/// Bytes a run holds at its peak: the per-scenario totals (five f32 sums, the carried dry-air
+/// water and the onset step per cell) plus one output band per scenario while the stack is
+/// written. The held steps' fields add a few bands' worth per level each, small beside the
+/// totals once there are more than a handful of scenarios.
 pub fn memory_estimate(cells: usize, scenarios: usize) -> u64 {
-    (cells as u64) * (scenarios as u64) * (5 + 1) * 4
+    (cells as u64) * (scenarios as u64) * (7 + 1) * 4
 }
 
 /// Memory available to new allocations, bytes (Linux `MemAvailable`); `None` where unknown.
@@ -346,6 +355,22 @@ fn available_memory() -> Option<u64> {
     let line = text.lines().find(|l| l.starts_with("MemAvailable:"))?;
     let kib: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
     Some(kib * 1024)
+}
+
+/// The case's track: read from its file, found in the model's sea-level pressure
+/// (`track = "find"`), or none.
+pub fn case_track(
+    case: &Case,
+    source: &dyn Source,
+    progress: &dyn Progress,
+) -> Result<Option<Track>, EngineError> {
+    Ok(match &case.member.track {
+        Some(p) => Some(read_track(p)?),
+        None if case.member.find_track => {
+            Some(found_track(source, &case.member.terrain, progress)?)
+        }
+        None => None,
+    })
 }
 
 /// The track followed in the model's sea-level pressure (`track = "find"`).
@@ -391,6 +416,237 @@ fn found_track(
     Ok(to_track(&found, first_file.to_path_buf()))
 }
 
+/// The displacement of scenario `s` when its fields are the model's at `at` (output step `k`,
+/// 0-based, read from `file`).
+pub fn scenario_shift(
+    track: Option<&Track>,
+    s: &Scenario,
+    at: DateTime<Utc>,
+    k: usize,
+    file: &Path,
+) -> Result<StepShift, EngineError> {
+    if !s.is_displaced() {
+        return Ok(StepShift::none());
+    }
+    let t = track.expect("case checks a track exists for offsets");
+    let ((lon, lat), (e, nn)) = t
+        .shifted_centre(at, s.cross_km, s.along_km)
+        .ok_or_else(|| {
+            let (a, b) = t.span();
+            EngineError::TrackTooShort {
+                path: t.source.clone(),
+                what: format!(
+                    "the track runs {}…{} but step {} ({}) needs it at {} (its valid time less any timing offset)",
+                    a.to_rfc3339(),
+                    b.to_rfc3339(),
+                    k + 1,
+                    file.display(),
+                    at.to_rfc3339()
+                ),
+            }
+        })?;
+    Ok(StepShift {
+        centre_lon: lon,
+        centre_lat: lat,
+        east_km: e,
+        north_km: nn,
+    })
+}
+
+/// A duration of `h` hours, to the millisecond.
+pub fn hours(h: f64) -> Duration {
+    Duration::milliseconds((h * 3_600_000.0).round() as i64)
+}
+
+/// The distinct values, in first-seen order.
+fn distinct(values: impl Iterator<Item = f64>) -> Vec<f64> {
+    let mut out: Vec<f64> = Vec::new();
+    for v in values {
+        if !out.contains(&v) {
+            out.push(v);
+        }
+    }
+    out
+}
+
+/// The model steps currently held: read in order (each step once), checked for the same levels
+/// and increasing valid times, and forgotten once no later output step can sample them.
+pub struct StepWindow<'a> {
+    source: &'a dyn Source,
+    /// Valid time of every step read so far.
+    pub times: Vec<DateTime<Utc>>,
+    /// Held steps, with their indices.
+    held: VecDeque<(usize, StepFields)>,
+    layout: Option<StepLayout>,
+}
+
+impl<'a> StepWindow<'a> {
+    /// A window over the steps of `source`.
+    pub fn new(source: &'a dyn Source) -> Self {
+        Self {
+            source,
+            times: Vec::new(),
+            held: VecDeque::new(),
+            layout: None,
+        }
+    }
+
+    /// The step layout (levels) every step shares.
+    pub fn layout(&self) -> &StepLayout {
+        self.layout
+            .as_ref()
+            .expect("the layout is known once a step is read")
+    }
+
+    fn read_next(&mut self) -> Result<bool, EngineError> {
+        let k = self.times.len();
+        if k >= self.source.step_count() {
+            return Ok(false);
+        }
+        let step = self.source.step(k).map_err(|e| EngineError::StepField {
+            step: k + 1,
+            source: Box::new(e),
+        })?;
+        check_step(&step.path, &step, self.layout.as_ref(), self.times.last())?;
+        self.times.push(step.valid);
+        self.layout.get_or_insert_with(|| step.layout.clone());
+        self.held.push_back((k, step));
+        Ok(true)
+    }
+
+    /// Reads up to and including step `k`.
+    pub fn load_through(&mut self, k: usize) -> Result<(), EngineError> {
+        while self.times.len() <= k {
+            if !self.read_next()? {
+                break;
+            }
+        }
+        Ok(())
+    }
+
+    /// Where time `t` falls among the model's steps, reading ahead as far as needed; `None`
+    /// when it lies outside them.
+    pub fn sample(&mut self, t: DateTime<Utc>) -> Result<Option<TimeSample>, EngineError> {
+        while self.times.last().is_none_or(|last| *last < t) {
+            if !self.read_next()? {
+                break;
+            }
+        }
+        Ok(bracket(&self.times, t))
+    }
+
+    /// Steps held in memory now.
+    pub fn held(&self) -> usize {
+        self.held.len()
+    }
+
+    /// Drops every step before `k`.
+    pub fn forget_before(&mut self, k: usize) {
+        while self.held.front().is_some_and(|(i, _)| *i < k) {
+            self.held.pop_front();
+        }
+    }
+
+    /// The fields of held step `k`.
+    pub fn fields(&self, k: usize) -> &StepFields {
+        let first = self.held.front().expect("a held step").0;
+        &self.held[k - first].1
+    }
+
+    /// Length of step `k` (from the previous valid time; the first step is taken to be as long
+    /// as the second).
+    fn length(&self, k: usize) -> Option<Duration> {
+        match k {
+            0 => self.times.get(1).map(|t1| *t1 - self.times[0]),
+            _ => Some(self.times[k] - self.times[k - 1]),
+        }
+    }
+
+    /// What scenario `s` needs at output step `k` when its fields are sampled at `sample`.
+    pub fn scenario_step(
+        &self,
+        k: usize,
+        sample: TimeSample,
+        shift: StepShift,
+        s: &Scenario,
+    ) -> ScenarioStep<'_> {
+        // Precipitation is an amount per step: as a rate, times this step's length.
+        let ratio = |j: usize| {
+            if j == k {
+                return 1.0;
+            }
+            match (self.length(k), self.length(j)) {
+                (Some(a), Some(b)) => a.num_milliseconds() as f64 / b.num_milliseconds() as f64,
+                _ => 1.0,
+            }
+        };
+        let j = sample.index;
+        let next = (sample.next > 0.0).then(|| {
+            (
+                self.fields(j + 1).columns.as_slice(),
+                sample.next as f32,
+                s.intensity * ratio(j + 1),
+            )
+        });
+        ScenarioStep {
+            shift,
+            now: &self.fields(j).columns,
+            now_scale: s.intensity * ratio(j),
+            next,
+            warm_bias_k: s.warm_bias_k,
+        }
+    }
+}
+
+fn check_step(
+    path: &Path,
+    step: &StepFields,
+    layout: Option<&StepLayout>,
+    previous: Option<&DateTime<Utc>>,
+) -> Result<(), EngineError> {
+    if let Some(l) = layout {
+        if *l != step.layout {
+            return Err(EngineError::Steps {
+                path: path.to_path_buf(),
+                what: format!(
+                    "its isobaric levels ({}) differ from the first step's ({}); every step needs the same levels",
+                    levels_text(&step.layout),
+                    levels_text(l)
+                ),
+            });
+        }
+    }
+    if let Some(prev) = previous {
+        if step.valid <= *prev {
+            return Err(EngineError::Steps {
+                path: path.to_path_buf(),
+                what: format!(
+                    "valid_time {} does not come after the previous step's {}; list steps in time order, each once",
+                    step.valid.to_rfc3339(),
+                    prev.to_rfc3339()
+                ),
+            });
+        }
+    }
+    Ok(())
+}
+
+/// One scenario's inputs at one output step.
+#[derive(Clone, Copy, Debug)]
+pub struct ScenarioStep<'a> {
+    /// The displacement.
+    pub shift: StepShift,
+    /// Columns of the model step at or before the sampled time.
+    pub now: &'a [f32],
+    /// Factor on `now`'s precipitation: intensity × this step's length / that step's.
+    pub now_scale: f64,
+    /// When the sampled time lies between steps: the next step's columns, its weight (0–1) and
+    /// the factor on its precipitation.
+    pub next: Option<(&'a [f32], f32, f64)>,
+    /// Warm-layer bias, K.
+    pub warm_bias_k: f64,
+}
+
 fn levels_text(l: &StepLayout) -> String {
     l.levels_pa
         .iter()
@@ -400,62 +656,188 @@ fn levels_text(l: &StepLayout) -> String {
         + " hPa"
 }
 
-/// One step for every scenario: the parallel seam. Returns, per scenario, how many cells took
-/// their values from outside the grid.
+/// One step for every scenario: the parallel seam. `inputs[s]` is `None` for a scenario that
+/// skips this step. `step` is the 1-based output step, recorded as the onset of snow. Returns,
+/// per scenario, how many cells took their values from outside the grid and how many the
+/// methods could not diagnose.
 #[allow(clippy::too_many_arguments)]
 pub fn step_all_scenarios(
     grid: &Grid,
     terrain: &[f32],
     layout: &StepLayout,
-    columns: &[f32],
-    shifts: &[StepShift],
+    inputs: &[Option<ScenarioStep<'_>>],
     taper: &Taper,
     methods: &Methods,
+    step: u32,
     totals: &mut [Totals],
-) -> Vec<u64> {
+) -> Vec<BlockCounts> {
     let tasks: Vec<(usize, usize, crate::accumulate::TotalsRows<'_>)> = totals
         .iter_mut()
         .enumerate()
+        .filter(|(s, _)| inputs[*s].is_some())
         .flat_map(|(s, t)| {
             t.blocks_mut(CELLS_PER_TASK)
                 .into_iter()
                 .map(move |(start, rows)| (s, start, rows))
         })
         .collect();
-    let counts: Vec<(usize, u64)> = tasks
+    let counts: Vec<(usize, BlockCounts)> = tasks
         .into_par_iter()
         .map(|(s, start, mut rows)| {
+            let input = inputs[s].as_ref().expect("tasks exist only for inputs");
             let o = step_block(
-                grid, terrain, layout, columns, &shifts[s], taper, methods, start, &mut rows,
+                grid, terrain, layout, input, taper, methods, step, start, &mut rows,
             );
             (s, o)
         })
         .collect();
-    let mut out = vec![0u64; shifts.len()];
+    let mut out = vec![BlockCounts::default(); inputs.len()];
     for (s, o) in counts {
-        out[s] += o;
+        out[s].outside += o.outside;
+        out[s].undefined += o.undefined;
     }
     out
 }
 
-/// The per-block kernel: for each cell, sample the displaced column, diagnose it and add the
-/// step's precipitation to the totals. Returns the number of cells sampled outside the grid.
+/// Cells of one block (or scenario) that could not be computed, by cause.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct BlockCounts {
+    /// The source point lay outside the grid.
+    pub outside: u64,
+    /// A method's input was out of its domain (the method is undefined there).
+    pub undefined: u64,
+}
+
+/// Where a cell's source point lies, as bilinear weights (exactly on the cell when unshifted).
+#[inline]
+fn source_weights(
+    grid: &Grid,
+    c: usize,
+    shift: &StepShift,
+    taper: &Taper,
+) -> Option<(usize, usize, f32, f32)> {
+    if shift.is_none() {
+        return Some((c % grid.nx, c / grid.nx, 0.0, 0.0));
+    }
+    let (lon, lat, metric) = (grid.lon(), grid.lat(), grid.metric());
+    let (sc, sr) = source_index(
+        c % grid.nx,
+        c / grid.nx,
+        lon[c],
+        lat[c],
+        &metric[c],
+        shift,
+        taper,
+    );
+    bilinear_weights(grid, sc, sr)
+}
+
+/// What sampling one cell gave.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Sampled {
+    /// The source point lies outside the grid.
+    Outside,
+    /// Nothing leaves the cloud this step (the column was not sampled: a dry step changes
+    /// nothing, not even the dry-air state).
+    Dry,
+    /// The column was sampled; this much precipitation leaves the cloud, kg m⁻².
+    Falling(f64),
+}
+
+/// Cell `c`'s column for one scenario step, sampled into `col` (and `later` as scratch for the
+/// next step when the scenario's time lies between two), and the precipitation leaving the
+/// cloud. The precipitation is looked at first: most cells are dry at most steps.
+#[inline]
+#[allow(clippy::too_many_arguments)]
+pub fn cell_column(
+    grid: &Grid,
+    input: &ScenarioStep<'_>,
+    nvar: usize,
+    precip: usize,
+    c: usize,
+    taper: &Taper,
+    col: &mut [f32],
+    later: &mut [f32],
+) -> Sampled {
+    let Some(w) = source_weights(grid, c, &input.shift, taper) else {
+        return Sampled::Outside;
+    };
+    let nx = grid.nx;
+    let p_now = sample_one(input.now, nvar, nx, w, precip) as f64 * input.now_scale;
+    let mut falling = p_now;
+    if let Some((next, wt, scale)) = input.next {
+        let p_next = sample_one(next, nvar, nx, w, precip) as f64 * scale;
+        falling = (1.0 - wt as f64) * p_now + wt as f64 * p_next;
+    }
+    if falling == 0.0 {
+        return Sampled::Dry;
+    }
+    blend_at(input, nvar, nx, w, col, later);
+    Sampled::Falling(falling)
+}
+
+/// Samples the whole column at weights `w`, between two steps when the scenario's time lies
+/// between them.
+#[inline]
+fn blend_at(
+    input: &ScenarioStep<'_>,
+    nvar: usize,
+    nx: usize,
+    w: (usize, usize, f32, f32),
+    col: &mut [f32],
+    later: &mut [f32],
+) {
+    sample_at(input.now, nvar, nx, w, col);
+    if let Some((next, wt, _)) = input.next {
+        sample_at(next, nvar, nx, w, later);
+        for (a, b) in col.iter_mut().zip(later.iter()) {
+            *a += wt * (*b - *a);
+        }
+    }
+}
+
+/// Cell `c`'s whole column for one scenario step, dry or not (for the sounding view); false
+/// when the source point lies outside the grid.
+pub fn sample_column(
+    grid: &Grid,
+    input: &ScenarioStep<'_>,
+    nvar: usize,
+    c: usize,
+    taper: &Taper,
+    col: &mut [f32],
+    later: &mut [f32],
+) -> bool {
+    match source_weights(grid, c, &input.shift, taper) {
+        Some(w) => {
+            blend_at(input, nvar, grid.nx, w, col, later);
+            true
+        }
+        None => false,
+    }
+}
+
+/// The per-block kernel: for each cell, sample the displaced column (between two steps when the
+/// scenario's time falls between them), diagnose it with dry air below the cloud
+/// ([`step_column`]), and add what reaches the ground to the totals. Returns the cells sampled
+/// outside the grid and those the methods could not diagnose.
 #[allow(clippy::too_many_arguments)]
 fn step_block(
     grid: &Grid,
     terrain: &[f32],
     layout: &StepLayout,
-    columns: &[f32],
-    shift: &StepShift,
+    input: &ScenarioStep<'_>,
     taper: &Taper,
     methods: &Methods,
+    step: u32,
     start: usize,
     rows: &mut crate::accumulate::TotalsRows<'_>,
-) -> u64 {
+) -> BlockCounts {
     let nvar = layout.nvar();
     let mut buf = [0.0f32; 3 * crate::diagnose::ptype::MAX_LEVELS + 4];
-    let (lon, lat, metric) = (grid.lon(), grid.lat(), grid.metric());
-    let mut outside = 0;
+    let mut later = [0.0f32; 3 * crate::diagnose::ptype::MAX_LEVELS + 4];
+    let mut profile = Profile::empty();
+    let ip = layout.precip();
+    let mut counts = BlockCounts::default();
     for i in 0..rows.liquid.len() {
         let c = start + i;
         if rows.liquid[i].is_nan() {
@@ -466,43 +848,92 @@ fn step_block(
             continue;
         }
         let col = &mut buf[..nvar];
-        // A step known to be dry adds nothing whatever the column; look at the precipitation
-        // before touching the rest (most cells are dry at most steps).
-        if shift.is_none() {
-            if columns[c * nvar + layout.precip()] == 0.0 {
-                continue;
-            }
-            col.copy_from_slice(&columns[c * nvar..(c + 1) * nvar]);
-        } else {
-            let (sc, sr) = source_index(
-                c % grid.nx,
-                c / grid.nx,
-                lon[c],
-                lat[c],
-                &metric[c],
-                shift,
-                taper,
-            );
-            let Some(w) = bilinear_weights(grid, sc, sr) else {
-                outside += 1;
+        let falling = match cell_column(grid, input, nvar, ip, c, taper, col, &mut later[..nvar]) {
+            Sampled::Outside => {
+                counts.outside += 1;
                 rows.set_missing(i);
                 continue;
-            };
-            let p = sample_one(columns, nvar, grid.nx, w, layout.precip());
-            if p == 0.0 {
-                continue;
             }
-            sample_at(columns, nvar, grid.nx, w, col);
-        }
-        if col.iter().any(|v| v.is_nan()) {
-            rows.set_missing(i);
-            continue;
-        }
-        let p = col[layout.precip()];
-        match diagnose_column(col, layout, terrain[c], methods) {
-            Some(r) => rows.add(i, p, &r.fractions, r.snow_ratio),
-            None => rows.set_missing(i),
+            Sampled::Dry => continue,
+            Sampled::Falling(f) => f,
+        };
+        let cell = CellStep {
+            col,
+            falling,
+            ground_m: terrain[c],
+            warm_bias_k: input.warm_bias_k,
+            step,
+        };
+        if accumulate_cell(&cell, layout, methods, rows, i, &mut profile)
+            == Err(ColumnMissing::Method)
+        {
+            counts.undefined += 1;
         }
     }
-    outside
+    counts
+}
+
+/// One cell's sampled column at one step.
+pub struct CellStep<'a> {
+    /// The sampled column, in layout order.
+    pub col: &'a [f32],
+    /// Precipitation leaving the cloud, kg m⁻².
+    pub falling: f64,
+    /// Terrain height of the cell, m.
+    pub ground_m: f32,
+    /// Warm-layer bias, K.
+    pub warm_bias_k: f64,
+    /// 1-based output step.
+    pub step: u32,
+}
+
+/// Adds one cell's step to row `i` of `rows`: dry air below the cloud, type, ratio, onset.
+/// Missing input marks the cell missing (and is the error). Returns the column step when the
+/// column was diagnosed (`None` when nothing fell), with `profile` holding the profile used.
+#[inline]
+pub fn accumulate_cell(
+    cell: &CellStep<'_>,
+    layout: &StepLayout,
+    methods: &Methods,
+    rows: &mut crate::accumulate::TotalsRows<'_>,
+    i: usize,
+    profile: &mut Profile,
+) -> Result<Option<ColumnStep>, ColumnMissing> {
+    if cell.col.iter().any(|v| v.is_nan()) || cell.falling.is_nan() {
+        rows.set_missing(i);
+        return Err(ColumnMissing::Profile);
+    }
+    // Nothing falling changes nothing, the carried dry-air water included.
+    if cell.falling <= 0.0 {
+        return Ok(None);
+    }
+    let carried = rows.carried[i] as f64;
+    match step_column(
+        cell.col,
+        layout,
+        cell.ground_m,
+        methods,
+        cell.warm_bias_k,
+        cell.falling,
+        carried,
+        profile,
+    ) {
+        Ok(s) => {
+            rows.carried[i] = s.carried as f32;
+            if let Some(r) = s.result {
+                rows.add(
+                    i,
+                    s.reaching_ground as f32,
+                    &r.fractions,
+                    r.snow_ratio,
+                    cell.step,
+                );
+            }
+            Ok(Some(s))
+        }
+        Err(e) => {
+            rows.set_missing(i);
+            Err(e)
+        }
+    }
 }

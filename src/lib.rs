@@ -5,7 +5,8 @@
 //! scenario) → [`diagnose`] (precipitation type and snow-to-liquid ratio per column) →
 //! [`accumulate`] (per-scenario running totals) → [`summarise`] (min/max/range, towns) →
 //! [`write`] (GeoTIFF, GeoJSON, CSV, manifest). [`engine`] drives the stages over the time steps
-//! and is the one place where work runs in parallel.
+//! and is the one place where work runs in parallel. [`sounding`] shows one cell's profile and
+//! what every method makes of it.
 //!
 //! Decision support for trained forecasters: not an official forecast or warning. Defer to the
 //! national weather service and local emergency management.
@@ -21,6 +22,7 @@ pub mod progress;
 pub mod read;
 pub mod scenario;
 pub mod shift;
+pub mod sounding;
 pub mod summarise;
 pub mod write;
 

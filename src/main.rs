@@ -46,6 +46,11 @@ fn run_case(plan: Plan<'_>, common: &Common, default_out: Option<PathBuf>) -> Re
         units: common.units.clone(),
         snow_ratio: common.snow_ratio.clone(),
         force: common.force,
+        precip_type: common.precip_type.clone(),
+        no_dry_air: common.no_dry_air,
+        timing: common.timing.clone(),
+        intensity: common.intensity.clone(),
+        warm_bias: common.warm_bias.clone(),
     };
     let case = match plan {
         Plan::CaseFile(p) => Case::load(p, &over),
@@ -119,6 +124,60 @@ fn run_plan(a: &cli::RunArgs) -> Result<(), Failure> {
     )
 }
 
+/// `trackswing sounding`: the library makes the sounding, this prints it.
+fn sounding(a: &cli::SoundingArgs) -> Result<(), Failure> {
+    let bad = |what: String| Failure::Input(anyhow::anyhow!(what));
+    let (lat, lon) =
+        a.at.split_once(',')
+            .and_then(|(la, lo)| {
+                Some((
+                    la.trim().parse::<f64>().ok()?,
+                    lo.trim().parse::<f64>().ok()?,
+                ))
+            })
+            .filter(|(la, lo)| la.is_finite() && lo.is_finite())
+            .ok_or_else(|| {
+                bad(format!(
+                    "--at '{}': expected LAT,LON in degrees, e.g. 47.76,-29.29",
+                    a.at
+                ))
+            })?;
+    let over = Overrides {
+        cross: Some(a.cross.to_string()),
+        along: Some(a.along.to_string()),
+        timing: Some(a.timing.to_string()),
+        intensity: Some(a.intensity.to_string()),
+        warm_bias: Some(a.warm_bias.to_string()),
+        precip_type: a.precip_type.clone(),
+        snow_ratio: a.snow_ratio.clone(),
+        no_dry_air: a.no_dry_air,
+        ..Default::default()
+    };
+    let case = Case::load(&a.case, &over).map_err(|e| Failure::Input(e.into()))?;
+    let req = trackswing::sounding::SoundingRequest {
+        lat,
+        lon,
+        step: a.step,
+        scenario: trackswing::scenario::Scenario {
+            cross_km: a.cross,
+            along_km: a.along,
+            timing_h: a.timing,
+            intensity: a.intensity,
+            warm_bias_k: a.warm_bias,
+        },
+    };
+    let s = trackswing::sounding::sounding(&case, &req).map_err(|e| Failure::Input(e.into()))?;
+    if a.json {
+        println!(
+            "{}",
+            serde_json::to_string_pretty(&s).expect("a sounding serialises")
+        );
+    } else {
+        println!("{s}");
+    }
+    Ok(())
+}
+
 fn main() -> ExitCode {
     let cli = Cli::parse();
     let outcome = match &cli.command {
@@ -140,6 +199,12 @@ fn main() -> ExitCode {
             .with_context(|| format!("writing the demo case into {}", a.out.display()))
             .map_err(Failure::Output)
         }
+        Command::Sounding(a) => sounding(a),
+        Command::ThermoTable => trackswing::diagnose::thermo_table::thermo_table(
+            std::io::stdin().lock(),
+            std::io::stdout().lock(),
+        )
+        .map_err(|e| Failure::Input(e.into())),
     };
     match outcome {
         Ok(()) => ExitCode::SUCCESS,

@@ -1,17 +1,59 @@
 //! One column as a cell sees it after the shift, and the methods applied to it.
+//!
+//! [`Profile::build`] turns a cell's sampled values into the sounding the precipitation falls
+//! through: the surface point (target ground, 2 m values moved over the terrain difference with
+//! the lapse rate) and every isobaric level above the ground, with the scenario's warm-layer bias
+//! applied. [`Profile::diagnose`] applies the chosen precipitation-type and snow-ratio methods.
+//! [`step_column`] is one step of one cell, dry air below the cloud included; the engine and the
+//! sounding view both call it, so what a forecaster inspects is what the layers hold.
 
-use super::ptype::{bourgouin, PtypeFractions, MAX_LEVELS};
-use super::slr::{fixed_ratio, kuchera_ratio};
-use super::thermo::{G, RD};
+use super::ptype::{bourgouin, partial_thickness, surface_logistic, PtypeFractions, MAX_LEVELS};
+use super::slr::{fixed_ratio, growth_zone_ratio, kuchera_ratio};
+use super::subcloud::{evaporate, SubCloud};
+use super::thermo::{isobaric_wet_bulb, G, RD};
 use crate::read::StepLayout;
 use serde::Serialize;
 
 /// Precipitation-type method.
-#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum PtypeMethod {
     /// Energy areas on the sounding, Bourgouin (2000).
     EnergyArea,
+    /// 1000–850, 850–700 and 1000–500 hPa thicknesses [common practice].
+    PartialThickness,
+    /// 2 m temperature and humidity, Jennings et al. (2018), with a melting check aloft.
+    SurfaceLogistic,
+}
+
+impl PtypeMethod {
+    /// Every method, in the order tables list them.
+    pub const ALL: [PtypeMethod; 3] = [
+        PtypeMethod::EnergyArea,
+        PtypeMethod::PartialThickness,
+        PtypeMethod::SurfaceLogistic,
+    ];
+
+    /// The name used in case files and on the command line.
+    ///
+    /// ```
+    /// use trackswing::diagnose::PtypeMethod;
+    /// for m in PtypeMethod::ALL {
+    ///     assert_eq!(PtypeMethod::parse(m.name()), Some(m));
+    /// }
+    /// ```
+    pub fn name(&self) -> &'static str {
+        match self {
+            PtypeMethod::EnergyArea => "energy-area",
+            PtypeMethod::PartialThickness => "partial-thickness",
+            PtypeMethod::SurfaceLogistic => "surface-logistic",
+        }
+    }
+
+    /// Parses a method name.
+    pub fn parse(s: &str) -> Option<Self> {
+        Self::ALL.into_iter().find(|m| m.name() == s.trim())
+    }
 }
 
 /// Snow-to-liquid ratio method.
@@ -22,6 +64,38 @@ pub enum SlrMethod {
     Fixed(f64),
     /// From the warmest temperature between the ground and 500 hPa (the Kuchera method).
     MaxColumnTemperature,
+    /// Layer ratios weighted by saturation and depth, after Cobb & Waldstreicher (2005).
+    GrowthZone,
+}
+
+impl SlrMethod {
+    /// The method names used in case files and on the command line.
+    pub const NAMES: [&'static str; 3] = ["fixed", "max-column-temperature", "growth-zone"];
+
+    /// The name used in case files and on the command line.
+    ///
+    /// ```
+    /// use trackswing::diagnose::SlrMethod;
+    /// assert_eq!(SlrMethod::parse("fixed", 12.0), Some(SlrMethod::Fixed(12.0)));
+    /// assert_eq!(SlrMethod::GrowthZone.name(), "growth-zone");
+    /// ```
+    pub fn name(&self) -> &'static str {
+        match self {
+            SlrMethod::Fixed(_) => "fixed",
+            SlrMethod::MaxColumnTemperature => "max-column-temperature",
+            SlrMethod::GrowthZone => "growth-zone",
+        }
+    }
+
+    /// Parses a method name; `fixed_ratio` is the ratio `fixed` uses.
+    pub fn parse(s: &str, fixed_ratio: f64) -> Option<Self> {
+        match s.trim() {
+            "fixed" => Some(SlrMethod::Fixed(fixed_ratio)),
+            "max-column-temperature" => Some(SlrMethod::MaxColumnTemperature),
+            "growth-zone" => Some(SlrMethod::GrowthZone),
+            _ => None,
+        }
+    }
 }
 
 /// The methods and constants one run uses.
@@ -33,6 +107,9 @@ pub struct Methods {
     pub slr: SlrMethod,
     /// Lapse rate used to move 2 m temperature over different terrain, K/m (ISO 2533: 0.0065).
     pub lapse_rate_k_per_m: f64,
+    /// Precipitation evaporates into dry air below the cloud before any reaches the ground, and
+    /// cools that air toward its wet-bulb (docs/SCIENCE.md §5).
+    pub dry_air: bool,
 }
 
 /// What one column gives at the ground.
@@ -45,84 +122,354 @@ pub struct ColumnResult {
 }
 
 /// Warm layers above this pressure are ignored (SCIENCE.md §3: above ~500 hPa they do not melt
-/// falling snow in winter storms).
+/// falling snow in winter storms); the Kuchera maximum, the warmest wet-bulb aloft, the
+/// warm-layer bias and the sub-cloud layer stop here too.
 pub const PROFILE_TOP_PA: f64 = 50_000.0;
 
-/// Diagnoses one column.
+/// Marks the surface point in [`Profile::level`].
+pub const SURFACE: usize = usize::MAX;
+
+/// The sounding a cell's precipitation falls through: the surface point first, then every
+/// isobaric level above the ground, upward. Fixed-size arrays: no allocation per cell.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Profile {
+    /// Points in use.
+    pub n: usize,
+    /// Pressure, Pa (strictly decreasing).
+    pub p: [f64; MAX_LEVELS],
+    /// Geopotential height, m, as in the model (the surface point: the target ground).
+    pub z: [f64; MAX_LEVELS],
+    /// Temperature, K, after the warm-layer bias and any sub-cloud cooling.
+    pub t: [f64; MAX_LEVELS],
+    /// Relative humidity over water, %, after any sub-cloud moistening.
+    pub rh: [f64; MAX_LEVELS],
+    /// Temperature change applied to the model's value, K (bias plus cooling): thicknesses
+    /// follow it hydrostatically.
+    pub dt: [f64; MAX_LEVELS],
+    /// Index of the isobaric level in the step layout, or [`SURFACE`].
+    pub level: [usize; MAX_LEVELS],
+}
+
+/// Levels of the partial-thickness method, Pa.
+const P1000: f64 = 100_000.0;
+const P850: f64 = 85_000.0;
+const P700: f64 = 70_000.0;
+const P500: f64 = 50_000.0;
+
+impl Profile {
+    /// A profile with no points (a buffer to build into).
+    pub fn empty() -> Profile {
+        Profile {
+            n: 0,
+            p: [0.0; MAX_LEVELS],
+            z: [0.0; MAX_LEVELS],
+            t: [0.0; MAX_LEVELS],
+            rh: [0.0; MAX_LEVELS],
+            dt: [0.0; MAX_LEVELS],
+            level: [SURFACE; MAX_LEVELS],
+        }
+    }
+
+    /// Builds the profile a cell sees.
+    ///
+    /// `col` holds the sampled storm-attached values in `layout` order (including the model
+    /// terrain height under the source point); `ground_m` is the terrain height of the target
+    /// cell. The 2 m temperature is moved to the target ground with `lapse_rate_k_per_m`. The
+    /// surface pressure at the target ground comes from the hypsometric equation between the
+    /// isobaric heights that bracket it (temperature linear in height, moisture neglected: under
+    /// 0.5 % error in the layer thickness for the cold moist air of winter storms); levels at or
+    /// below the ground are not used.
+    ///
+    /// `warm_bias_k` is added to the temperature of every isobaric level above the ground at or
+    /// below 500 hPa (p ≥ 500 hPa); the 2 m temperature is left as modelled, and levels above
+    /// 500 hPa too. Thicknesses follow the bias hydrostatically (see [`Profile::thickness`]).
+    ///
+    /// Returns `None` when a value is missing or not finite, or the ground lies above the
+    /// highest level.
+    pub fn build(
+        col: &[f32],
+        layout: &StepLayout,
+        ground_m: f32,
+        lapse_rate_k_per_m: f64,
+        warm_bias_k: f64,
+    ) -> Option<Profile> {
+        let mut pr = Profile::empty();
+        pr.build_into(col, layout, ground_m, lapse_rate_k_per_m, warm_bias_k)
+            .then_some(pr)
+    }
+
+    /// [`Profile::build`] into `self` (no copy of the arrays, for the per-cell kernel); false
+    /// when the profile cannot be built, `self` then being unusable.
+    pub fn build_into(
+        &mut self,
+        col: &[f32],
+        layout: &StepLayout,
+        ground_m: f32,
+        lapse_rate_k_per_m: f64,
+        warm_bias_k: f64,
+    ) -> bool {
+        self.n = 0;
+        let nlev = layout.levels_pa.len();
+        let z_src = col[layout.terrain()] as f64;
+        let t2 = col[layout.t2()] as f64 - lapse_rate_k_per_m * (ground_m as f64 - z_src);
+        let zg = ground_m as f64;
+        let rh2 = col[layout.rh2()] as f64;
+        if !(t2.is_finite() && zg.is_finite() && rh2.is_finite()) {
+            return false;
+        }
+        let z = |k: usize| col[layout.z(k)] as f64;
+        let t = |k: usize| col[layout.t(k)] as f64;
+        let Some(first_above) = (0..nlev).find(|&k| z(k) > zg) else {
+            return false;
+        };
+        let p_sfc = if first_above == 0 {
+            let tm = 0.5 * (t2 + t(0));
+            layout.levels_pa[0] * (G * (z(0) - zg) / (RD * tm)).exp()
+        } else {
+            let k = first_above - 1;
+            let f = (zg - z(k)) / (z(k + 1) - z(k));
+            let tg = t(k) + f * (t(k + 1) - t(k));
+            let tm = 0.5 * (t(k) + tg);
+            layout.levels_pa[k] * (-G * (zg - z(k)) / (RD * tm)).exp()
+        };
+        if !p_sfc.is_finite() {
+            return false;
+        }
+        let pr = self;
+        pr.n = 1;
+        pr.dt[0] = 0.0;
+        pr.level[0] = SURFACE;
+        pr.p[0] = p_sfc;
+        pr.z[0] = zg;
+        pr.t[0] = t2;
+        pr.rh[0] = rh2;
+        for k in first_above..nlev {
+            if pr.n == MAX_LEVELS {
+                break;
+            }
+            let pk = layout.levels_pa[k];
+            if pk >= p_sfc {
+                continue;
+            }
+            let i = pr.n;
+            pr.p[i] = pk;
+            pr.z[i] = z(k);
+            pr.t[i] = t(k);
+            pr.rh[i] = col[layout.rh(k)] as f64;
+            pr.level[i] = k;
+            pr.dt[i] = 0.0;
+            if warm_bias_k != 0.0 && pk >= PROFILE_TOP_PA {
+                pr.t[i] += warm_bias_k;
+                pr.dt[i] = warm_bias_k;
+            }
+            pr.n += 1;
+        }
+        let n = pr.n;
+        let finite = |v: &[f64]| v.iter().all(|x| x.is_finite());
+        n >= 2 && finite(&pr.t[..n]) && finite(&pr.z[..n]) && finite(&pr.rh[..n])
+    }
+
+    /// Pressures of the points in use, Pa.
+    pub fn pressures(&self) -> &[f64] {
+        &self.p[..self.n]
+    }
+
+    /// Temperatures of the points in use, K.
+    pub fn temperatures(&self) -> &[f64] {
+        &self.t[..self.n]
+    }
+
+    /// Point index of the isobaric level at `p_pa`, if the input has it above the ground.
+    fn point_at(&self, p_pa: f64) -> Option<usize> {
+        (1..self.n).find(|&i| self.p[i] == p_pa)
+    }
+
+    /// Thickness between two isobaric levels, m: the model's height difference plus the
+    /// hydrostatic effect of the temperature changes applied to the profile,
+    /// (Rd/g)·∫ΔT d ln p with ΔT linear in ln p between points (the hypsometric equation,
+    /// Wallace & Hobbs 2006 §3.2). NaN when either level is absent from the input or lies at or
+    /// below the ground, as [`partial_thickness`] expects.
+    pub fn thickness(&self, p_bottom_pa: f64, p_top_pa: f64) -> f64 {
+        let (Some(a), Some(b)) = (self.point_at(p_bottom_pa), self.point_at(p_top_pa)) else {
+            return f64::NAN;
+        };
+        let mut dz = self.z[b] - self.z[a];
+        for i in a..b {
+            let mean_dt = 0.5 * (self.dt[i] + self.dt[i + 1]);
+            if mean_dt != 0.0 {
+                dz += RD / G * mean_dt * (self.p[i] / self.p[i + 1]).ln();
+            }
+        }
+        dz
+    }
+
+    /// The three thicknesses of the partial-thickness method, m: 1000–850, 850–700 and
+    /// 1000–500 hPa (NaN where a level is absent or below ground).
+    pub fn partial_thicknesses(&self) -> [f64; 3] {
+        [
+            self.thickness(P1000, P850),
+            self.thickness(P850, P700),
+            self.thickness(P1000, P500),
+        ]
+    }
+
+    /// Isobaric wet-bulb temperature at point `i`, K ([`isobaric_wet_bulb`]).
+    pub fn wet_bulb(&self, i: usize) -> f64 {
+        isobaric_wet_bulb(self.p[i], self.t[i], self.rh[i])
+    }
+
+    /// The warmest wet-bulb above the surface point, up to 500 hPa, K (what
+    /// [`surface_logistic`] checks for melting aloft).
+    pub fn warmest_wet_bulb_aloft(&self) -> f64 {
+        (1..self.n)
+            .filter(|&i| self.p[i] >= PROFILE_TOP_PA)
+            .map(|i| self.wet_bulb(i))
+            .fold(f64::NEG_INFINITY, f64::max)
+    }
+
+    /// The warmest temperature from the surface to 500 hPa, K (the Kuchera method's input).
+    pub fn warmest_temperature(&self) -> f64 {
+        (0..self.n)
+            .filter(|&i| self.p[i] >= PROFILE_TOP_PA)
+            .map(|i| self.t[i])
+            .fold(f64::NEG_INFINITY, f64::max)
+    }
+
+    /// Precipitation-type fractions by one method.
+    pub fn ptype(&self, method: PtypeMethod) -> PtypeFractions {
+        match method {
+            PtypeMethod::EnergyArea => bourgouin(self.pressures(), self.temperatures()),
+            PtypeMethod::PartialThickness => {
+                let [low, mid, deep] = self.partial_thicknesses();
+                partial_thickness(low, mid, deep, self.wet_bulb(0))
+            }
+            PtypeMethod::SurfaceLogistic => {
+                let aloft = self.warmest_wet_bulb_aloft();
+                // No level between the ground and 500 hPa: nothing aloft to melt in.
+                let aloft = if aloft.is_finite() { aloft } else { self.t[0] };
+                surface_logistic(self.t[0], self.rh[0], aloft)
+            }
+        }
+    }
+
+    /// Snow-to-liquid ratio by one method.
+    pub fn snow_ratio(&self, method: SlrMethod) -> f64 {
+        match method {
+            SlrMethod::Fixed(r) => fixed_ratio(r),
+            SlrMethod::MaxColumnTemperature => kuchera_ratio(self.warmest_temperature()),
+            SlrMethod::GrowthZone => {
+                growth_zone_ratio(self.pressures(), self.temperatures(), &self.rh[..self.n])
+            }
+        }
+    }
+
+    /// The chosen methods applied; `None` when a method's input is out of its domain.
+    pub fn diagnose(&self, methods: &Methods) -> Option<ColumnResult> {
+        let fractions = self.ptype(methods.ptype);
+        let snow_ratio = self.snow_ratio(methods.slr);
+        if fractions.snow.is_nan() || snow_ratio.is_nan() {
+            return None;
+        }
+        Some(ColumnResult {
+            fractions,
+            snow_ratio,
+        })
+    }
+}
+
+/// Diagnoses one column as modelled: no warm-layer bias, no dry-air correction.
 ///
-/// `col` holds the sampled storm-attached values in `layout` order (including the model terrain
-/// height under the source point); `ground_m` is the terrain height of the target cell.
-/// The 2 m temperature is moved to the target ground with `methods.lapse_rate_k_per_m`. The
-/// surface pressure at the target ground comes from the hypsometric equation between the
-/// isobaric heights that bracket it (temperature linear in height, moisture neglected: under
-/// 0.5 % error in the layer thickness for the cold moist air of winter storms); levels at or
-/// below the ground are not used. Returns `None` when the column has missing values or the
-/// ground lies above the highest level.
+/// `col` holds the sampled storm-attached values in `layout` order; `ground_m` is the target
+/// cell's terrain height (see [`Profile::build`]). Returns `None` when the column has missing
+/// values or the ground lies above the highest level.
 pub fn diagnose_column(
     col: &[f32],
     layout: &StepLayout,
     ground_m: f32,
     methods: &Methods,
 ) -> Option<ColumnResult> {
-    let nlev = layout.levels_pa.len();
-    let z_src = col[layout.terrain()] as f64;
-    let t2 = col[layout.t2()] as f64 - methods.lapse_rate_k_per_m * (ground_m as f64 - z_src);
-    let zg = ground_m as f64;
-    if !(t2.is_finite() && zg.is_finite()) {
-        return None;
+    Profile::build(col, layout, ground_m, methods.lapse_rate_k_per_m, 0.0)?.diagnose(methods)
+}
+
+/// One step of one cell.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct ColumnStep {
+    /// Precipitation leaving the cloud this step (the model's, times the scenario's intensity
+    /// factor), kg m⁻².
+    pub falling: f64,
+    /// What reaches the ground, kg m⁻².
+    pub reaching_ground: f64,
+    /// Water needed to saturate the sub-cloud layer as the profile stands, kg m⁻²
+    /// (0 with the dry-air correction off).
+    pub deficit: f64,
+    /// Water given up to the sub-cloud layer so far, carried to the next step, kg m⁻².
+    pub carried: f64,
+    /// Share of the deficit met, 0–1: how far the sub-cloud layer was cooled toward its
+    /// wet-bulb.
+    pub met: f64,
+    /// Type and ratio of what reaches the ground; `None` when nothing does.
+    pub result: Option<ColumnResult>,
+}
+
+/// Why a column step could not be computed.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum ColumnMissing {
+    /// A value is missing or the ground is above the highest level.
+    Profile,
+    /// A method's input is out of its domain.
+    Method,
+}
+
+/// One step of one cell: builds the profile (into `profile`, which the sounding view shows),
+/// takes the sub-cloud deficit from the falling precipitation (when `methods.dry_air`), cools
+/// the sub-cloud layer in proportion to the share of the deficit met, and diagnoses what
+/// reaches the ground. `carried` is the water given up to the sub-cloud layer in earlier steps
+/// (see [`evaporate`]).
+#[allow(clippy::too_many_arguments)]
+pub fn step_column(
+    col: &[f32],
+    layout: &StepLayout,
+    ground_m: f32,
+    methods: &Methods,
+    warm_bias_k: f64,
+    falling: f64,
+    carried: f64,
+    profile: &mut Profile,
+) -> Result<ColumnStep, ColumnMissing> {
+    if !profile.build_into(
+        col,
+        layout,
+        ground_m,
+        methods.lapse_rate_k_per_m,
+        warm_bias_k,
+    ) {
+        return Err(ColumnMissing::Profile);
     }
-    // Surface pressure at the target ground.
-    let z = |k: usize| col[layout.z(k)] as f64;
-    let t = |k: usize| col[layout.t(k)] as f64;
-    let first_above = (0..nlev).find(|&k| z(k) > zg)?;
-    let p_sfc = if first_above == 0 {
-        let tm = 0.5 * (t2 + t(0));
-        layout.levels_pa[0] * (G * (z(0) - zg) / (RD * tm)).exp()
+    let (reaching_ground, deficit, carried, met) = if methods.dry_air {
+        let sub = SubCloud::of(profile);
+        if sub.deficit.is_nan() {
+            return Err(ColumnMissing::Profile);
+        }
+        let e = evaporate(carried, sub.deficit, falling);
+        if e.met > 0.0 {
+            sub.cool(profile, e.met);
+        }
+        (e.reaching_ground, sub.deficit, e.carried, e.met)
     } else {
-        let k = first_above - 1;
-        let f = (zg - z(k)) / (z(k + 1) - z(k));
-        let tg = t(k) + f * (t(k + 1) - t(k));
-        let tm = 0.5 * (t(k) + tg);
-        layout.levels_pa[k] * (-G * (zg - z(k)) / (RD * tm)).exp()
+        (falling, 0.0, 0.0, 0.0)
     };
-    let mut p = [0.0f64; MAX_LEVELS];
-    let mut tt = [0.0f64; MAX_LEVELS];
-    p[0] = p_sfc;
-    tt[0] = t2;
-    let mut n = 1;
-    for k in first_above..nlev {
-        if n == MAX_LEVELS {
-            break;
-        }
-        let pk = layout.levels_pa[k];
-        if pk >= p_sfc {
-            continue;
-        }
-        p[n] = pk;
-        tt[n] = t(k);
-        n += 1;
-    }
-    if tt[..n].iter().any(|v| !v.is_finite()) || !p_sfc.is_finite() {
-        return None;
-    }
-    let fractions = match methods.ptype {
-        PtypeMethod::EnergyArea => bourgouin(&p[..n], &tt[..n]),
+    let result = if reaching_ground > 0.0 {
+        Some(profile.diagnose(methods).ok_or(ColumnMissing::Method)?)
+    } else {
+        None
     };
-    let snow_ratio = match methods.slr {
-        SlrMethod::Fixed(r) => fixed_ratio(r),
-        SlrMethod::MaxColumnTemperature => {
-            let tmax = p[..n]
-                .iter()
-                .zip(&tt[..n])
-                .filter(|(pp, _)| **pp >= PROFILE_TOP_PA)
-                .map(|(_, t)| *t)
-                .fold(f64::NEG_INFINITY, f64::max);
-            kuchera_ratio(tmax)
-        }
-    };
-    Some(ColumnResult {
-        fractions,
-        snow_ratio,
+    Ok(ColumnStep {
+        falling,
+        reaching_ground,
+        deficit,
+        carried,
+        met,
+        result,
     })
 }
 
@@ -133,7 +480,12 @@ mod tests {
 
     /// A hydrostatically consistent column: isothermal layers of the given temperatures, heights
     /// from the hypsometric equation.
-    fn column(levels_hpa: &[f64], temps: &[f64], t2: f64, z0: f64) -> (StepLayout, Vec<f32>) {
+    pub(crate) fn column(
+        levels_hpa: &[f64],
+        temps: &[f64],
+        t2: f64,
+        z0: f64,
+    ) -> (StepLayout, Vec<f32>) {
         let layout = StepLayout {
             levels_pa: levels_hpa.iter().map(|p| p * 100.0).collect(),
         };
@@ -160,6 +512,7 @@ mod tests {
         ptype: PtypeMethod::EnergyArea,
         slr: SlrMethod::Fixed(10.0),
         lapse_rate_k_per_m: 0.0065,
+        dry_air: false,
     };
 
     #[test]
@@ -174,6 +527,22 @@ mod tests {
     }
 
     #[test]
+    fn every_method_agrees_on_clear_cases() {
+        // Deep cold column (all below −2 °C, 850–700 hPa thickness ≈ 1490 m) is snow and a
+        // deep warm one (+7 °C at the ground, 1000–850 hPa ≈ 1340 m) is rain by every method
+        // (Bourgouin 2000; partial thickness, common practice; Jennings et al. 2018).
+        let (lc, cc) = column(&LEVELS, &[268.0, 266.0, 264.0, 256.0, 240.0], 268.5, 100.0);
+        let (lw, cw) = column(&LEVELS, &[280.0, 278.0, 276.0, 268.0, 250.0], 281.0, 100.0);
+        for m in PtypeMethod::ALL {
+            let methods = Methods { ptype: m, ..FIXED };
+            let cold = diagnose_column(&cc, &lc, 0.0, &methods).unwrap();
+            let warm = diagnose_column(&cw, &lw, 0.0, &methods).unwrap();
+            assert!(cold.fractions.snow > 0.99, "{m:?} {:?}", cold.fractions);
+            assert!(warm.fractions.rain > 0.99, "{m:?} {:?}", warm.fractions);
+        }
+    }
+
+    #[test]
     fn levels_below_ground_are_not_used() {
         // 1000 and 925 hPa are warm but lie below a 1200 m ridge top; above it the air is cold.
         let (l, c) = column(&LEVELS, &[283.0, 279.0, 268.0, 260.0, 245.0], 283.0, 100.0);
@@ -182,6 +551,64 @@ mod tests {
         assert!(r.fractions.snow > 0.99, "{:?}", r.fractions);
         let at_sea = diagnose_column(&c, &l, 0.0, &FIXED).unwrap();
         assert!(at_sea.fractions.rain > 0.99, "{:?}", at_sea.fractions);
+        // The thicknesses that need a level below the ground are NaN (ptype.rs contract): at
+        // 1200 m, 1000 hPa (100 m) and 925 hPa (≈ 760 m) are below, 850 hPa (≈ 1480 m) above.
+        let pr = Profile::build(&c, &l, 1200.0, 0.0065, 0.0).unwrap();
+        assert_eq!(pr.p[1], 85_000.0);
+        let [low, mid, deep] = pr.partial_thicknesses();
+        assert!(
+            low.is_nan() && deep.is_nan() && mid.is_finite(),
+            "{low} {mid} {deep}"
+        );
+    }
+
+    #[test]
+    fn thicknesses_follow_the_hypsometric_equation_and_the_warm_bias() {
+        // Isothermal 266.15 K column: 1000–500 hPa is 5400 m (SCIENCE.md, MetPy 1.6.3
+        // thickness_hydrostatic 5399.89 m); +1 K on every level adds Rd·1/g·ln 2 = 20.29 m.
+        let (l, c) = column(&LEVELS, &[266.15; 5], 266.15, 100.0);
+        let pr = Profile::build(&c, &l, 0.0, 0.0065, 0.0).unwrap();
+        let [low, mid, deep] = pr.partial_thicknesses();
+        assert!((deep - 5399.89).abs() < 1.0, "{deep}");
+        assert!((low - thickness_hydrostatic(1e5, 85_000.0, 266.15)).abs() < 0.01);
+        assert!((mid - thickness_hydrostatic(85_000.0, 70_000.0, 266.15)).abs() < 0.01);
+        let warm = Profile::build(&c, &l, 0.0, 0.0065, 1.0).unwrap();
+        let deep_warm = warm.thickness(P1000, P500);
+        let expected = thickness_hydrostatic(1e5, 5e4, 267.15);
+        assert!(
+            (deep_warm - expected).abs() < 0.01,
+            "{deep_warm} {expected}"
+        );
+        assert!((deep_warm - deep - RD / G * 2f64.ln()).abs() < 0.01);
+        // The bias reaches the isobaric levels up to 500 hPa, not the 2 m temperature.
+        assert_eq!(warm.t[0], pr.t[0]);
+        assert!((1..warm.n).all(|i| (warm.t[i] - pr.t[i] - 1.0).abs() < 1e-12));
+    }
+
+    #[test]
+    fn colder_bias_never_less_snow_by_any_method() {
+        // A warm-nose column near the rain–snow line, cooled aloft in 0.01 K steps from +3 to
+        // −3 K: no method ever gives less snow for the colder column (common practice), and
+        // the snow share moves smoothly (no step over 0.05; Bourgouin's 2 → 13.2 J/kg melting
+        // ramp spans about 0.5 K of this nose).
+        let (l, mut c) = column(&LEVELS, &[272.5, 274.0, 273.0, 265.0, 248.0], 272.0, 100.0);
+        c[l.rh2()] = 95.0;
+        for m in PtypeMethod::ALL {
+            let mut prev: Option<f64> = None;
+            for i in 0..=600 {
+                let bias = 3.0 - 0.01 * i as f64;
+                let snow = Profile::build(&c, &l, 0.0, 0.0065, bias)
+                    .unwrap()
+                    .ptype(m)
+                    .snow;
+                if let Some(p) = prev {
+                    assert!(snow >= p - 1e-12, "{m:?} bias {bias}: {p} → {snow}");
+                    assert!(snow - p < 0.05, "{m:?} bias {bias}: {p} → {snow}");
+                }
+                prev = Some(snow);
+            }
+            assert!(prev.unwrap() > 0.5, "{m:?}: −3 K aloft must mostly snow");
+        }
     }
 
     #[test]
@@ -197,6 +624,28 @@ mod tests {
     }
 
     #[test]
+    fn growth_zone_reads_the_humidity_of_the_column() {
+        // Common practice: a saturated layer near −12 °C gives about 30:1, a column saturated
+        // only near freezing about 10:1.
+        let (l, mut c) = column(&LEVELS, &[271.0, 268.0, 263.0, 261.0, 250.0], 271.5, 100.0);
+        let m = Methods {
+            slr: SlrMethod::GrowthZone,
+            ..FIXED
+        };
+        for (k, rh) in [50.0, 60.0, 100.0, 100.0, 40.0].into_iter().enumerate() {
+            c[l.rh(k)] = rh;
+        }
+        c[l.rh2()] = 50.0;
+        let high = diagnose_column(&c, &l, 0.0, &m).unwrap().snow_ratio;
+        for (k, rh) in [100.0, 100.0, 50.0, 40.0, 40.0].into_iter().enumerate() {
+            c[l.rh(k)] = rh;
+        }
+        c[l.rh2()] = 100.0;
+        let low = diagnose_column(&c, &l, 0.0, &m).unwrap().snow_ratio;
+        assert!(high > 24.0 && low < 14.0, "{high} {low}");
+    }
+
+    #[test]
     fn missing_values_give_none() {
         let (l, mut c) = column(&LEVELS, &[265.0, 264.0, 263.0, 256.0, 240.0], 265.0, 100.0);
         c[l.t(2)] = f32::NAN;
@@ -205,13 +654,48 @@ mod tests {
 
     #[test]
     fn surface_pressure_follows_the_hypsometric_equation() {
-        // Isothermal 270 K column: the ground at the 925 hPa height must come out at 925 hPa.
+        // Isothermal 270 K column: the ground 0.01 m below the 925 hPa height lies at 925 hPa
+        // within Rd·T/g·Δln p: 0.01 m ↔ 1.2e-6 relative.
         let (l, c) = column(&LEVELS, &[270.0; 5], 270.0, 100.0);
         let z925 = c[l.z(1)];
+        let pr = Profile::build(&c, &l, z925 - 0.01, 0.0065, 0.0).unwrap();
+        assert!((pr.p[0] / 92_500.0 - 1.0).abs() < 1e-5, "{}", pr.p[0]);
+        assert_eq!(pr.p[1], 92_500.0, "925 hPa is still above the ground");
         let r = diagnose_column(&c, &l, z925 - 0.01, &FIXED).unwrap();
         assert!(r.fractions.snow > 0.99);
-        let zg = z925 as f64 - 0.01;
-        let f = (zg - c[l.z(0)] as f64) / (c[l.z(1)] as f64 - c[l.z(0)] as f64);
-        assert!(f > 0.99 && f < 1.0);
+    }
+
+    #[test]
+    fn dry_air_delays_and_saturated_air_passes_everything() {
+        let (l, mut c) = column(&LEVELS, &[272.0, 270.0, 268.0, 260.0, 245.0], 273.0, 100.0);
+        let dry = Methods {
+            dry_air: true,
+            ..FIXED
+        };
+        let mut pr = Profile::build(&c, &l, 0.0, 0.0065, 0.0).unwrap();
+        // Saturated at the surface (RH 90 % counts as cloud): everything reaches the ground.
+        let s = step_column(&c, &l, 0.0, &dry, 0.0, 1.0, 0.0, &mut pr).unwrap();
+        assert_eq!((s.reaching_ground, s.deficit), (1.0, 0.0));
+        // Dry below 850 hPa: the deficit is taken first, and the carried water reduces it.
+        for k in 0..2 {
+            c[l.rh(k)] = 50.0;
+        }
+        c[l.rh2()] = 50.0;
+        let s1 = step_column(&c, &l, 0.0, &dry, 0.0, 0.5, 0.0, &mut pr).unwrap();
+        assert!(s1.deficit > 0.5, "{s1:?}");
+        assert_eq!(s1.reaching_ground, 0.0);
+        assert!(s1.result.is_none());
+        let s2 = step_column(&c, &l, 0.0, &dry, 0.0, 10.0, s1.carried, &mut pr).unwrap();
+        assert!(
+            (s2.reaching_ground - (10.5 - s1.deficit)).abs() < 1e-12,
+            "{s2:?}"
+        );
+        assert_eq!(s2.met, 1.0);
+        // Fully met: the sub-cloud layer sits at its wet-bulb and is saturated.
+        let cold = Profile::build(&c, &l, 0.0, 0.0065, 0.0).unwrap();
+        assert!((pr.t[0] - cold.wet_bulb(0)).abs() < 1e-9);
+        assert!((pr.rh[0] - 100.0).abs() < 0.5, "{}", pr.rh[0]);
+        let off = step_column(&c, &l, 0.0, &FIXED, 0.0, 0.5, 0.0, &mut pr).unwrap();
+        assert_eq!(off.reaching_ground, 0.5);
     }
 }

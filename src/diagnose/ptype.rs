@@ -112,7 +112,7 @@ const COLD_BELOW_BLEND: f64 = 5.6;
 const SURFACE_FREEZE_HALF_WIDTH_K: f64 = 0.25;
 
 /// Smoothstep 3u² − 2u³ of u = (x − lo)/(hi − lo) clamped to [0, 1]: 0 at lo, 1 at hi, C1.
-fn smoothstep(lo: f64, hi: f64, x: f64) -> f64 {
+pub(crate) fn smoothstep(lo: f64, hi: f64, x: f64) -> f64 {
     let u = ((x - lo) / (hi - lo)).clamp(0.0, 1.0);
     u * u * (3.0 - 2.0 * u)
 }
@@ -763,6 +763,52 @@ mod tests {
             assert_valid(&f_warm);
             assert_valid(&f_cold);
             prop_assert!(f_cold.snow >= f_warm.snow - 1e-12, "{:?} → {:?}", f_warm, f_cold);
+        }
+
+        #[test]
+        fn thinner_layers_never_have_less_snow(
+            low in 1250.0..1370.0_f64,
+            mid in 1480.0..1620.0_f64,
+            deep in 5300.0..5500.0_f64,
+            tw in -5.0..5.0_f64,
+            shrink in (0.0..40.0_f64, 0.0..40.0_f64, 0.0..80.0_f64, 0.0..3.0_f64),
+            missing in 0usize..4,
+        ) {
+            // Common practice: colder air is denser, so thinner layers; thinner never means
+            // less snow. `missing` drops the 1000–850 or the 850–700 thickness (ground above
+            // the level), the same one in both columns.
+            let nan_if = |cond: bool, v: f64| if cond { f64::NAN } else { v };
+            let warm = partial_thickness(
+                nan_if(missing == 1, low),
+                nan_if(missing == 2, mid),
+                deep,
+                T0 + tw,
+            );
+            let cold = partial_thickness(
+                nan_if(missing == 1, low - shrink.0),
+                nan_if(missing == 2, mid - shrink.1),
+                deep - shrink.2,
+                T0 + tw - shrink.3,
+            );
+            assert_valid(&warm);
+            assert_valid(&cold);
+            prop_assert!(cold.snow >= warm.snow - 1e-12, "{:?} → {:?}", warm, cold);
+        }
+
+        #[test]
+        fn colder_surface_and_aloft_never_have_less_snow(
+            t2 in -10.0..10.0_f64,
+            rh in 0.0..100.0_f64,
+            tw_aloft in -5.0..6.0_f64,
+            cool in (0.0..4.0_f64, 0.0..4.0_f64),
+        ) {
+            // Jennings et al. (2018): p(snow) falls with temperature at fixed RH; Stewart & King
+            // (1987): a colder warm layer melts less.
+            let warm = surface_logistic(T0 + t2, rh, T0 + tw_aloft);
+            let cold = surface_logistic(T0 + t2 - cool.0, rh, T0 + tw_aloft - cool.1);
+            assert_valid(&warm);
+            assert_valid(&cold);
+            prop_assert!(cold.snow >= warm.snow - 1e-12, "{:?} → {:?}", warm, cold);
         }
     }
 

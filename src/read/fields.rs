@@ -367,6 +367,17 @@ pub fn assemble(
     v: StepValues<'_>,
     terrain: &[f32],
 ) -> Result<StepFields, FieldError> {
+    // The surface point takes one place of a profile (diagnose::ptype::MAX_LEVELS).
+    let most = crate::diagnose::ptype::MAX_LEVELS - 1;
+    if v.levels_pa.len() > most {
+        return Err(FieldError::Layout {
+            path: path.to_path_buf(),
+            what: format!(
+                "found {} isobaric levels; at most {most} are supported",
+                v.levels_pa.len()
+            ),
+        });
+    }
     let layout = StepLayout {
         levels_pa: v.levels_pa,
     };

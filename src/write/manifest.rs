@@ -20,6 +20,9 @@ struct ScenarioEntry {
     band: usize,
     cross_km: f64,
     along_km: f64,
+    timing_h: f64,
+    intensity: f64,
+    warm_bias_k: f64,
     label: String,
     baseline: bool,
 }
@@ -103,6 +106,9 @@ pub fn write_manifest(
                 band: i + 1,
                 cross_km: s.cross_km,
                 along_km: s.along_km,
+                timing_h: s.timing_h,
+                intensity: s.intensity,
+                warm_bias_k: s.warm_bias_k,
                 label: s.label(),
                 baseline: s.is_baseline(),
             })

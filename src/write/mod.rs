@@ -146,12 +146,17 @@ fn write_set(
     let mut files = rasters::write_rasters(dir, r, case.units, &meta)?;
     files.push(lines::write_rain_snow_lines(dir, r)?);
     let towns = crate::summarise::towns(r);
+    let onsets = towns::town_onsets(r);
     files.extend(towns::write_towns(
         dir,
         &towns,
         &r.scenarios,
         r.baseline,
         case.units,
+        &towns::Onsets {
+            steps: &onsets,
+            valid_times: &r.valid_times,
+        },
     )?);
     manifest::write_manifest(dir, case, r, &files)?;
     let mut all = files;

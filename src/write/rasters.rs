@@ -82,6 +82,9 @@ pub fn write_rasters(
             metadata: vec![
                 ("cross_km".into(), s.cross_km.to_string()),
                 ("along_km".into(), s.along_km.to_string()),
+                ("timing_h".into(), s.timing_h.to_string()),
+                ("intensity".into(), s.intensity.to_string()),
+                ("warm_bias_k".into(), s.warm_bias_k.to_string()),
                 ("units".into(), su.to_string()),
             ],
         })
@@ -92,7 +95,7 @@ pub fn write_rasters(
         file: file.into(),
         kind: Kind::Raster,
         units: su.into(),
-        description: "Storm-total snowfall for every track offset, one band per scenario".into(),
+        description: "Storm-total snowfall for every scenario (track offset and any timing, intensity and warm-bias axes), one band per scenario".into(),
         bands: bands.iter().map(|b| b.description.clone()).collect(),
     });
 
@@ -110,6 +113,9 @@ pub fn write_rasters(
         ("freezing_rain_baseline.tif", lu, "Liquid equivalent falling as freezing rain, as modelled", liquid(&base.freezing_rain)),
         ("ice_pellet_fraction_baseline.tif", "1", "Share of the storm's liquid that falls as ice pellets, as modelled", base.ice_pellet_fraction()),
         ("freezing_rain_fraction_baseline.tif", "1", "Share of the storm's liquid that falls as freezing rain, as modelled", base.freezing_rain_fraction()),
+        ("ice_pellet_depth_baseline.tif", su, "Ice-pellet accumulation depth as modelled (2.5 × the ice-pellet liquid, common practice)", snow(&base.ice_pellet_depth())),
+        ("dry_air_loss_baseline.tif", lu, "Precipitation that left the cloud but evaporated into dry air below it before reaching the ground, as modelled (0 with the dry-air correction off)", liquid(&base.carried)),
+        ("ice_accretion_baseline.tif", lu, "Flat-surface ice accretion from freezing rain as modelled (0.72 × the freezing-rain liquid, Sanders & Barjenbruch 2016)", liquid(&base.ice_accretion())),
     ];
     for (file, u, d, data) in layers {
         out.push(write_layer(

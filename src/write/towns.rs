@@ -25,16 +25,36 @@ fn num(v: f32, decimals: usize) -> String {
     }
 }
 
-/// Column name of one scenario's snowfall, e.g. `snow_cm_c+20_a-50`.
+/// Column name of one scenario's snowfall, e.g. `snow_cm_c+20_a-50` (other axes appended when
+/// not neutral, see [`Scenario::tag`]).
 fn scenario_column(s: &Scenario, unit: &str) -> String {
-    let f = |v: f64| {
-        if v > 0.0 {
-            format!("+{v}")
-        } else {
-            format!("{v}")
-        }
-    };
-    format!("snow_{unit}_c{}_a{}", f(s.cross_km), f(s.along_km))
+    format!("snow_{unit}_{}", s.tag())
+}
+
+/// Column name of one scenario's onset step, e.g. `onset_step_c+20_a-50`.
+fn onset_column(s: &Scenario) -> String {
+    format!("onset_step_{}", s.tag())
+}
+
+/// When snow begins at each town.
+pub struct Onsets<'a> {
+    /// Per town (in the towns' order), per scenario: the 1-based step of first measurable snow.
+    pub steps: &'a [Vec<Option<u32>>],
+    /// Valid time of every step.
+    pub valid_times: &'a [chrono::DateTime<chrono::Utc>],
+}
+
+/// Every town's onset step in every scenario (see [`crate::accumulate::onset_at`]).
+pub fn town_onsets(r: &crate::engine::RunResult) -> Vec<Vec<Option<u32>>> {
+    r.towns
+        .iter()
+        .map(|t| {
+            r.totals
+                .iter()
+                .map(|tot| crate::accumulate::onset_at(tot, &r.grid, t.lon, t.lat))
+                .collect()
+        })
+        .collect()
 }
 
 /// Writes `towns.csv` and `towns.geojson`.
@@ -44,8 +64,14 @@ pub fn write_towns(
     scenarios: &[Scenario],
     baseline: usize,
     units: Units,
+    onsets: &Onsets<'_>,
 ) -> Result<Vec<Written>, WriteError> {
     let u = units.snow_unit();
+    let time_of = |k: Option<u32>| {
+        k.map(|k| {
+            onsets.valid_times[k as usize - 1].to_rfc3339_opts(chrono::SecondsFormat::Secs, true)
+        })
+    };
     let mut header = vec![
         "name".to_string(),
         "lat".into(),
@@ -59,6 +85,15 @@ pub fn write_towns(
         "baseline_snow_fraction".into(),
     ];
     header.extend(scenarios.iter().map(|s| scenario_column(s, u)));
+    header.extend(
+        [
+            "baseline_onset_utc",
+            "earliest_onset_utc",
+            "latest_onset_utc",
+        ]
+        .map(String::from),
+    );
+    header.extend(scenarios.iter().map(onset_column));
     let mut w = csv::Writer::from_writer(Vec::new());
     let csv_err = |e: csv::Error| WriteError::Io {
         path: dir.join("towns.csv"),
@@ -66,8 +101,12 @@ pub fn write_towns(
     };
     w.write_record(&header).map_err(csv_err)?;
     let mut features = Vec::new();
-    for t in towns {
+    for (ti, t) in towns.iter().enumerate() {
         let missing = t.min.is_nan();
+        let steps = &onsets.steps[ti];
+        let earliest = steps.iter().flatten().min().copied();
+        let latest = steps.iter().flatten().max().copied();
+        let text = |v: Option<String>| v.unwrap_or_default();
         let mut row = vec![
             spreadsheet_safe(&t.name),
             format!("{:.5}", t.lat),
@@ -89,6 +128,16 @@ pub fn write_towns(
             num(t.snow_fraction[baseline], 2),
         ];
         row.extend(t.snowfall.iter().map(|v| num(units.snow(*v), 1)));
+        row.extend([
+            text(time_of(steps[baseline])),
+            text(time_of(earliest)),
+            text(time_of(latest)),
+        ]);
+        row.extend(
+            steps
+                .iter()
+                .map(|k| k.map(|k| k.to_string()).unwrap_or_default()),
+        );
         w.write_record(&row).map_err(csv_err)?;
 
         let mut p = JsonObject::new();
@@ -107,6 +156,19 @@ pub fn write_towns(
         put(format!("range_{u}"), units.snow(t.range()));
         for (s, v) in scenarios.iter().zip(&t.snowfall) {
             put(scenario_column(s, u), units.snow(*v));
+        }
+        for (name, v) in [
+            ("baseline_onset_utc", time_of(steps[baseline])),
+            ("earliest_onset_utc", time_of(earliest)),
+            ("latest_onset_utc", time_of(latest)),
+        ] {
+            p.insert(name.into(), v.map_or(serde_json::Value::Null, Into::into));
+        }
+        for (s, k) in scenarios.iter().zip(steps) {
+            p.insert(
+                onset_column(s),
+                k.map_or(serde_json::Value::Null, Into::into),
+            );
         }
         let frac = t.snow_fraction[baseline];
         p.insert(
@@ -144,8 +206,8 @@ pub fn write_towns(
         Written {
             file: "towns.csv".into(),
             kind: Kind::Table,
-            units: format!("snowfall in {u}; lat/lon in degrees; fractions 0–1"),
-            description: "Every town's snowfall for every track offset, with its baseline, smallest, largest and range".into(),
+            units: format!("snowfall in {u}; lat/lon in degrees; fractions 0–1; onset as RFC 3339 UTC times and 1-based step numbers"),
+            description: "Every town's snowfall for every scenario, with its baseline, smallest, largest and range, and when measurable snow (0.1 mm of liquid in a step) begins in each scenario".into(),
             bands: Vec::new(),
         },
         Written {
@@ -171,10 +233,10 @@ mod tests {
 
     #[test]
     fn scenario_columns_carry_both_offsets() {
-        let s = Scenario {
-            cross_km: 20.0,
-            along_km: -50.0,
-        };
+        let s = Scenario::offset(20.0, -50.0);
         assert_eq!(scenario_column(&s, "cm"), "snow_cm_c+20_a-50");
+        assert_eq!(onset_column(&s), "onset_step_c+20_a-50");
+        let t = Scenario { timing_h: 3.0, ..s };
+        assert_eq!(scenario_column(&t, "in"), "snow_in_c+20_a-50_t+3");
     }
 }

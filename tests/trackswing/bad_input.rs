@@ -396,3 +396,46 @@ fn offsets_that_push_the_storm_off_the_grid_warn_with_the_share() {
         "{text}"
     );
 }
+
+#[test]
+fn heights_error_names_the_step() {
+    let (d, c) = case("");
+    rewrite(&d.path().join("f/s_01.tif"), |desc, b| {
+        Some(if desc == "geopotential_height@700hPa" {
+            b.iter().map(|_| 1000.0).collect()
+        } else {
+            b.to_vec()
+        })
+    });
+    fails_cleanly(
+        &c,
+        &[],
+        &[
+            "step 2",
+            "s_01.tif",
+            "geopotential_height@700hPa",
+            "850hPa",
+            "increase upward",
+        ],
+    );
+}
+
+#[test]
+fn a_level_without_its_humidity() {
+    let (d, c) = case("");
+    rewrite(&d.path().join("f/s_00.tif"), |desc, b| {
+        (desc != "relative_humidity@925hPa").then(|| b.to_vec())
+    });
+    fails_cleanly(&c, &[], &["step 1", "s_00.tif", "relative_humidity@925hPa"]);
+}
+
+#[test]
+fn bad_method_and_axis_values() {
+    let (_d, c) = case("[methods]\nsnow_ratio = \"heavy\"");
+    fails_cleanly(&c, &[], &["methods.snow_ratio", "heavy", "growth-zone"]);
+    let (_d, c) = case("[methods]\ndry_air = \"yes\"");
+    fails_cleanly(&c, &[], &["case.toml", "dry_air"]);
+    let (_d, c) = case("");
+    fails_cleanly(&c, &["--warm-bias", "20"], &["--warm-bias", "kelvin"]);
+    fails_cleanly(&c, &["--intensity", "-1:1:0.5"], &["--intensity", "factor"]);
+}

@@ -86,6 +86,9 @@ fn demo_writes_every_layer_and_the_same_bytes_on_one_thread() {
         "freezing_rain_baseline.tif",
         "ice_pellet_fraction_baseline.tif",
         "freezing_rain_fraction_baseline.tif",
+        "ice_pellet_depth_baseline.tif",
+        "dry_air_loss_baseline.tif",
+        "ice_accretion_baseline.tif",
         "rain_snow_lines.geojson",
         "towns.csv",
         "towns.geojson",
@@ -97,7 +100,7 @@ fn demo_writes_every_layer_and_the_same_bytes_on_one_thread() {
     let m: serde_json::Value =
         serde_json::from_slice(&std::fs::read(a.join("manifest.json")).unwrap()).unwrap();
     let files = m["files"].as_array().unwrap();
-    assert_eq!(files.len(), 14);
+    assert_eq!(files.len(), 17);
     for f in files {
         assert!(a.join(f["file"].as_str().unwrap()).is_file());
     }
@@ -112,11 +115,16 @@ fn demo_writes_every_layer_and_the_same_bytes_on_one_thread() {
         scenarios, 63,
         "the demo case runs 21 cross × 3 along offsets"
     );
-    assert_eq!(header.len(), 10 + scenarios);
+    // Ten fixed columns, snowfall per scenario, three onset times, onset step per scenario.
+    assert_eq!(header.len(), 10 + scenarios + 3 + scenarios);
+    assert_eq!(header[10 + scenarios], "baseline_onset_utc");
     assert_eq!(rows.len(), 14, "every demo town has a row");
     // The range column is max − min of the per-scenario columns, to the printed rounding.
     for row in &rows {
-        let vals: Vec<f64> = row[10..].iter().filter_map(|v| v.parse().ok()).collect();
+        let vals: Vec<f64> = row[10..10 + scenarios]
+            .iter()
+            .filter_map(|v| v.parse().ok())
+            .collect();
         if vals.len() == scenarios {
             let (lo, hi) = vals
                 .iter()
@@ -279,4 +287,49 @@ fn gdal_reads_the_demo_layers_where_trackswing_put_them() {
         .descriptions
         .iter()
         .any(|x| x == "snowfall, cross -20 km, along 0 km"));
+}
+
+#[test]
+fn demo_towns_table_carries_every_axis_and_the_onset() {
+    let d = tempfile::tempdir().unwrap();
+    run_demo(
+        d.path(),
+        &[
+            "--cross",
+            "0",
+            "--along",
+            "0",
+            "--timing",
+            "0,2",
+            "--warm-bias",
+            "0,1",
+        ],
+    );
+    let (h, rows) = towns_csv(d.path());
+    for c in [
+        "baseline_onset_utc",
+        "earliest_onset_utc",
+        "latest_onset_utc",
+        "snow_cm_c0_a0",
+        "snow_cm_c0_a0_t+2_w+1",
+        "onset_step_c0_a0",
+        "onset_step_c0_a0_t+2",
+    ] {
+        assert!(h.iter().any(|x| x == c), "no column {c} in {h:?}");
+    }
+    let col = |name: &str| h.iter().position(|x| x == name).unwrap();
+    let (base, later) = (col("onset_step_c0_a0"), col("onset_step_c0_a0_t+2"));
+    let mut compared = 0;
+    for r in &rows {
+        // A storm 2 h later (one demo step) begins exactly one step later, or not at all
+        // within the window.
+        if let (Ok(a), Ok(b)) = (r[base].parse::<u32>(), r[later].parse::<u32>()) {
+            assert_eq!(b, a + 1, "{}", r[0]);
+            compared += 1;
+        }
+        assert!(
+            r[col("baseline_onset_utc")].is_empty() || r[col("baseline_onset_utc")].ends_with('Z')
+        );
+    }
+    assert!(compared >= 5, "{compared} towns compared");
 }

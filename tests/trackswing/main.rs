@@ -7,5 +7,6 @@ mod engine;
 mod fuzz;
 mod geotiff_gdal;
 mod grib;
+mod physics;
 mod reference;
 mod support;

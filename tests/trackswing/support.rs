@@ -19,6 +19,9 @@ pub struct Synthetic {
     pub warm: f64,
     /// Flat terrain (so a shifted storm sees the same ground everywhere).
     pub flat: bool,
+    /// Relative humidity, %, at 2 m and at the levels below 850 hPa (the others stay 95 %):
+    /// below 80 % the air under the cloud is dry.
+    pub low_rh: f32,
 }
 
 impl Default for Synthetic {
@@ -32,6 +35,7 @@ impl Default for Synthetic {
             steps: 3,
             warm: 0.0,
             flat: false,
+            low_rh: 90.0,
         }
     }
 }
@@ -99,7 +103,11 @@ pub fn write_case(dir: &Path, s: &Synthetic, extra: &str) -> PathBuf {
                 let base = [273.0, 271.5, 270.0, 262.0, 245.0][li];
                 let tk = base + t_anom(s, r, c) * [1.0, 1.0, 0.9, 0.6, 0.3][li];
                 t[i] = tk as f32;
-                rh[i] = 95.0;
+                rh[i] = if *p > 850.0 && s.low_rh < 90.0 {
+                    s.low_rh
+                } else {
+                    95.0
+                };
                 if li == 0 {
                     z[i] = 100.0;
                 } else {
@@ -123,7 +131,7 @@ pub fn write_case(dir: &Path, s: &Synthetic, extra: &str) -> PathBuf {
             })
             .collect();
         bands.push(("air_temperature@2m".into(), t2));
-        bands.push(("relative_humidity@2m".into(), vec![90.0; n]));
+        bands.push(("relative_humidity@2m".into(), vec![s.low_rh; n]));
         let precip: Vec<f32> = (0..n)
             .map(|i| {
                 let (r, c) = (i / s.nx, i % s.nx);

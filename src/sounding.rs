@@ -403,21 +403,22 @@ fn describe(
     case: &Case,
     diagnosed: &Profile,
 ) {
+    // The profile before any sub-cloud cooling: the sub-cloud weights the kernel used.
+    let Some(before) = Profile::build(
+        &l.col,
+        &l.layout,
+        ground,
+        methods.lapse_rate_k_per_m,
+        warm_bias_k,
+    ) else {
+        return;
+    };
     let profile = match &l.done {
         Some(_) => *diagnosed,
-        None => match Profile::build(
-            &l.col,
-            &l.layout,
-            ground,
-            methods.lapse_rate_k_per_m,
-            warm_bias_k,
-        ) {
-            Some(p) => p,
-            None => return,
-        },
+        None => before,
     };
     out.falling_mm = l.falling;
-    let sub = SubCloud::of(&profile);
+    let sub = SubCloud::of(&before);
     match &l.done {
         Some(d) => {
             out.reaching_ground_mm = d.reaching_ground;

@@ -67,6 +67,9 @@ pub struct Common {
     /// Replace the output folder even if it holds files trackswing did not write.
     #[arg(long)]
     pub force: bool,
+    /// Sample type of the GeoTIFF layers: float32 or int16 (scaled, about half the size).
+    #[arg(long, value_name = "float32|int16")]
+    pub raster_type: Option<String>,
     /// Print nothing but errors.
     #[arg(long, short)]
     pub quiet: bool,

@@ -46,6 +46,7 @@ fn run_case(plan: Plan<'_>, common: &Common, default_out: Option<PathBuf>) -> Re
         units: common.units.clone(),
         snow_ratio: common.snow_ratio.clone(),
         force: common.force,
+        raster_type: common.raster_type.clone(),
     };
     let case = match plan {
         Plan::CaseFile(p) => Case::load(p, &over),

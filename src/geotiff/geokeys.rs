@@ -245,7 +245,12 @@ impl GeoKeys {
                     ],
                 ),
             };
-            let citation = format!("{name}, {}", crs.proj_string());
+            let citation = match p.datum {
+                Datum::Wgs84 => format!("{name}, WGS 84"),
+                Datum::Sphere { radius_m } => {
+                    format!("{name}, sphere of radius {} m", format_number(radius_m))
+                }
+            };
             k.extend([
                 (GT_CITATION, Ascii(citation.clone())),
                 (PROJECTED_CRS, Short(USER_DEFINED)),

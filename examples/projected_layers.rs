@@ -214,7 +214,10 @@ fn main() -> anyhow::Result<()> {
     let started = Instant::now();
     let files = trackswing::write::write_all(&case, &result)?;
     let secs = started.elapsed().as_secs_f64();
-    std::fs::write(expected_path(&out), serde_json::to_string_pretty(&expected)?)?;
+    std::fs::write(
+        expected_path(&out),
+        serde_json::to_string_pretty(&expected)?,
+    )?;
     println!(
         "wrote {} files for {} x {} cells x {} scenarios in {secs:.2} s into {}",
         files.len(),

@@ -274,16 +274,19 @@ pub fn write_cog(
 ) -> Result<CogReport, GeoTiffError> {
     validate(path, width, height, georef, bands, opts)?;
     let t = cog.tile_size;
-    if t == 0 || t % 16 != 0 || t > 4096 {
+    if t == 0 || !t.is_multiple_of(16) || t > 4096 {
         return Err(GeoTiffError::InvalidOption {
             path: path.to_path_buf(),
             what: format!("tile size {t} must be a positive multiple of 16, at most 4096"),
         });
     }
-    georef.crs.check().map_err(|what| GeoTiffError::InvalidOption {
-        path: path.to_path_buf(),
-        what: format!("CRS {:?}: {what}", georef.crs),
-    })?;
+    georef
+        .crs
+        .check()
+        .map_err(|what| GeoTiffError::InvalidOption {
+            path: path.to_path_buf(),
+            what: format!("CRS {:?}: {what}", georef.crs),
+        })?;
 
     let mut levels = vec![Level {
         width,
@@ -316,7 +319,12 @@ pub fn write_cog(
 
     let n = bands.len();
     let (sample_format, bits, predictor, nodata_text) = match opts.encoding {
-        SampleEncoding::Float32 => (3u16, 32u16, 3u16, format_number(f64::from(opts.nodata as f32))),
+        SampleEncoding::Float32 => (
+            3u16,
+            32u16,
+            3u16,
+            format_number(f64::from(opts.nodata as f32)),
+        ),
         SampleEncoding::Int16Scaled { .. } => (2, 16, 2, INT16_NODATA.to_string()),
     };
     let items: Vec<BandItems> = bands
@@ -422,7 +430,10 @@ pub fn write_cog(
         }
         (ifd_at, offsets, pos)
     };
-    let (mut big, mut plan) = (cog.bigtiff == BigTiff::Always, layout(cog.bigtiff == BigTiff::Always));
+    let (mut big, mut plan) = (
+        cog.bigtiff == BigTiff::Always,
+        layout(cog.bigtiff == BigTiff::Always),
+    );
     if !big && plan.2 > u64::from(u32::MAX) {
         big = true;
         plan = layout(true);
@@ -448,7 +459,8 @@ pub fn write_cog(
         out.write_all(&ifd_at[0].to_ne_bytes()).map_err(io)?;
     } else {
         out.write_all(&42u16.to_ne_bytes()).map_err(io)?;
-        out.write_all(&(ifd_at[0] as u32).to_ne_bytes()).map_err(io)?;
+        out.write_all(&(ifd_at[0] as u32).to_ne_bytes())
+            .map_err(io)?;
     }
     let ghost = ghost_area();
     out.write_all(&ghost).map_err(io)?;
@@ -465,7 +477,8 @@ pub fn write_cog(
     }
     for l in (0..levels.len()).rev() {
         for tile in &tiles[l] {
-            out.write_all(&(tile.len() as u32).to_ne_bytes()).map_err(io)?;
+            out.write_all(&(tile.len() as u32).to_ne_bytes())
+                .map_err(io)?;
             out.write_all(tile).map_err(io)?;
             out.write_all(&tile[tile.len() - 4..]).map_err(io)?;
         }
@@ -541,7 +554,10 @@ mod tests {
         // _geotiff.py, GDAL 3.6), then the IFD on the next even offset.
         let g = String::from_utf8(ghost_area()).unwrap();
         let (head, body) = g.split_once('\n').unwrap();
-        assert_eq!(head, format!("GDAL_STRUCTURAL_METADATA_SIZE={:06} bytes", body.len()));
+        assert_eq!(
+            head,
+            format!("GDAL_STRUCTURAL_METADATA_SIZE={:06} bytes", body.len())
+        );
         for k in [
             "LAYOUT=IFDS_BEFORE_DATA",
             "BLOCK_ORDER=ROW_MAJOR",
@@ -570,7 +586,11 @@ mod tests {
         assert_eq!(u16::from_ne_bytes([e1[2], e1[3]]), TYPE_SHORT);
         assert_eq!(u32::from_ne_bytes([e1[4], e1[5], e1[6], e1[7]]), 3);
         let off = u32::from_ne_bytes([e1[8], e1[9], e1[10], e1[11]]) as usize;
-        assert_eq!(off, 100 + 2 + 24 + 4, "out-of-line value follows the entries");
+        assert_eq!(
+            off,
+            100 + 2 + 24 + 4,
+            "out-of-line value follows the entries"
+        );
         let v = &b[off - 100..off - 100 + 6];
         assert_eq!(u16::from_ne_bytes([v[4], v[5]]), 32);
         // BigTIFF (BigTIFF proposal, Aware Systems 2004): 8-byte count, 20-byte entries, 8-byte

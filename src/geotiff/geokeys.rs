@@ -466,10 +466,7 @@ impl GeoKeys {
                     lat_0: param(&[PROJ_FALSE_ORIGIN_LAT, PROJ_NAT_ORIGIN_LAT], None)?,
                     lon_0: param(&[PROJ_FALSE_ORIGIN_LONG, PROJ_NAT_ORIGIN_LONG], None)?,
                 },
-                param(
-                    &[PROJ_FALSE_ORIGIN_EASTING, PROJ_FALSE_EASTING],
-                    Some(0.0),
-                )?,
+                param(&[PROJ_FALSE_ORIGIN_EASTING, PROJ_FALSE_EASTING], Some(0.0))?,
                 param(
                     &[PROJ_FALSE_ORIGIN_NORTHING, PROJ_FALSE_NORTHING],
                     Some(0.0),
@@ -611,11 +608,14 @@ impl GeoKeys {
         let inv_f = self.double(path, INV_FLATTENING)?;
         match (self.short(path, ELLIPSOID)?, a, b, inv_f) {
             (Some(EPSG_WGS84_ELLIPSOID), ..) => Ok(Datum::Wgs84),
-            (_, Some(a), _, Some(f)) if a == crate::geotiff::crs::WGS84_A && (f - crate::geotiff::crs::WGS84_INV_F).abs() < 1e-9 => {
+            (_, Some(a), _, Some(f))
+                if a == crate::geotiff::crs::WGS84_A
+                    && (f - crate::geotiff::crs::WGS84_INV_F).abs() < 1e-9 =>
+            {
                 Ok(Datum::Wgs84)
             }
             (_, Some(a), Some(b), _) if a == b => Ok(Datum::Sphere { radius_m: a }),
-            (_, Some(a), None, Some(f)) if f == 0.0 => Ok(Datum::Sphere { radius_m: a }),
+            (_, Some(a), None, Some(0.0)) => Ok(Datum::Sphere { radius_m: a }),
             (_, Some(a), None, None) => Ok(Datum::Sphere { radius_m: a }),
             (e, a, b, f) => Err(err(
                 ELLIPSOID,

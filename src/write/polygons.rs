@@ -166,7 +166,10 @@ fn unwrapped_ring(grid: &Grid, ring: &LineString<f64>) -> Vec<Coord<f64>> {
             let mean_lat = out.iter().map(|p| p.y).sum::<f64>() / out.len() as f64;
             let pole = 90f64.copysign(mean_lat);
             out.push(Coord { x: last.x, y: pole });
-            out.push(Coord { x: first.x, y: pole });
+            out.push(Coord {
+                x: first.x,
+                y: pole,
+            });
             out.push(first);
         }
     }
@@ -208,7 +211,8 @@ pub fn to_lonlat(grid: &Grid, area: &MultiPolygon<f64>) -> MultiPolygon<f64> {
             .iter()
             .map(|h| {
                 let mut h = unwrapped_ring(grid, h);
-                let shift = 360.0 * ((reference - h.first().map_or(reference, |p| p.x)) / 360.0).round();
+                let shift =
+                    360.0 * ((reference - h.first().map_or(reference, |p| p.x)) / 360.0).round();
                 h.iter_mut().for_each(|p| p.x += shift);
                 LineString::new(h)
             })
@@ -296,7 +300,11 @@ mod tests {
         let data = Padded::mask(&g, |i| !f[i].is_nan()).at_least(0.5).unwrap();
         let b = to_lonlat(&g, &band(&p, &data, 2.5, Some(6.5)).unwrap());
         assert!((area_in_cells(&g, &b) - 4.0 * 8.0).abs() < 1e-6, "{b:?}");
-        let (lo, hi) = b.0[0].exterior().0.iter().fold((99.0, -99.0), |(l, h), c| (c.x.min(l), c.x.max(h)));
+        let (lo, hi) = b.0[0]
+            .exterior()
+            .0
+            .iter()
+            .fold((99.0, -99.0), |(l, h), c| (c.x.min(l), c.x.max(h)));
         // Column 2.5 (cell-centre index) is longitude 3.0 here.
         assert_eq!((lo, hi), (3.0, 7.0));
         // RFC 7946 §3.1.6: exterior counter-clockwise (positive signed area).
@@ -325,10 +333,22 @@ mod tests {
         // Marching squares on the 0/1 mask cut every corner by a half-cell diagonal (1/8 cell):
         // the hole (3 × 3 cells) gives back 4 × 1/8 at its corners, the grid's outer corners
         // lose 4 × 1/8: 80 − 9 + 0.5 − 0.5 cells remain.
-        assert!((area_in_cells(&g, &b) - 71.0).abs() < 1e-6, "{}", area_in_cells(&g, &b));
+        assert!(
+            (area_in_cells(&g, &b) - 71.0).abs() < 1e-6,
+            "{}",
+            area_in_cells(&g, &b)
+        );
         assert_eq!(b.0.len(), 1);
         assert_eq!(b.0[0].interiors().len(), 1);
-        assert!(b.0[0].interiors()[0].0.windows(2).map(|w| w[0].x * w[1].y - w[1].x * w[0].y).sum::<f64>() < 0.0, "holes clockwise");
+        assert!(
+            b.0[0].interiors()[0]
+                .0
+                .windows(2)
+                .map(|w| w[0].x * w[1].y - w[1].x * w[0].y)
+                .sum::<f64>()
+                < 0.0,
+            "holes clockwise"
+        );
     }
 
     #[test]

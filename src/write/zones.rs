@@ -121,7 +121,10 @@ fn flip_cells(r: &RunResult) -> Vec<Option<(Pattern, [u16; 4])>> {
             if set.count_ones() < 2 {
                 return None;
             }
-            let base = dominant(&r.totals[r.baseline], i).ok().flatten().unwrap_or(4);
+            let base = dominant(&r.totals[r.baseline], i)
+                .ok()
+                .flatten()
+                .unwrap_or(4);
             Some(((base, set), counts))
         })
         .collect()
@@ -150,7 +153,10 @@ pub fn write_flip_zone(dir: &Path, r: &RunResult) -> Result<Written, WriteError>
                 }
             }
             let (base, set) = pattern;
-            let types: Vec<&str> = (0..4).filter(|k| set & (1 << k) != 0).map(|k| TYPES[k]).collect();
+            let types: Vec<&str> = (0..4)
+                .filter(|k| set & (1 << k) != 0)
+                .map(|k| TYPES[k])
+                .collect();
             let mut props = JsonObject::new();
             props.insert(
                 "baseline_type".into(),

@@ -162,7 +162,10 @@ fn gdal_reads_cog_layout_overviews_and_values() {
             .iter()
             .map(|o| o["size"].clone())
             .collect();
-        assert_eq!(ovr, [serde_json::json!([300, 200]), serde_json::json!([150, 100])]);
+        assert_eq!(
+            ovr,
+            [serde_json::json!([300, 200]), serde_json::json!([150, 100])]
+        );
     }
     if let Some(script) = cog_validator() {
         let out = Command::new("/usr/bin/python3")
@@ -196,7 +199,11 @@ fn gdal_reads_cog_layout_overviews_and_values() {
             let got = values_at(&name, c, r);
             for b in 0..3 {
                 let want = expected_overview(&data[b], levels, c, r);
-                let want = if want.is_nan() { -9999.0 } else { f64::from(want) };
+                let want = if want.is_nan() {
+                    -9999.0
+                } else {
+                    f64::from(want)
+                };
                 assert!(
                     (got[b] - want).abs() <= 1e-6 * want.abs().max(1.0),
                     "overview {levels} band {b} cell {c},{r}: GDAL {} vs mean {want}",

@@ -214,10 +214,7 @@ fn gdaltransform(args: &[&str], points: &[(f64, f64)]) -> Vec<(f64, f64)> {
         .unwrap()
         .lines()
         .map(|l| {
-            let v: Vec<f64> = l
-                .split_whitespace()
-                .map(|s| s.parse().unwrap())
-                .collect();
+            let v: Vec<f64> = l.split_whitespace().map(|s| s.parse().unwrap()).collect();
             (v[0], v[1])
         })
         .collect()
@@ -225,7 +222,9 @@ fn gdaltransform(args: &[&str], points: &[(f64, f64)]) -> Vec<(f64, f64)> {
 
 fn write_layer(dir: &std::path::Path, name: &str, crs: Crs, gt: [f64; 6]) -> std::path::PathBuf {
     let path = dir.join(format!("{name}.tif"));
-    let data: Vec<f32> = (0..W * H).map(|i| (i % W) as f32 + (i / W) as f32 * 0.01).collect();
+    let data: Vec<f32> = (0..W * H)
+        .map(|i| (i % W) as f32 + (i / W) as f32 * 0.01)
+        .collect();
     let band = BandSpec {
         data: &data,
         description: "test".into(),
@@ -265,7 +264,9 @@ fn gdal_and_proj_read_every_crs_as_defined() {
         assert_eq!(back.georef.geotransform, gt, "{name}");
 
         // GDAL's reading of the GeoKeys, as PROJ terms.
-        let gdal_proj = run("gdalsrsinfo", &["-o", "proj4", file]).trim().to_string();
+        let gdal_proj = run("gdalsrsinfo", &["-o", "proj4", file])
+            .trim()
+            .to_string();
         assert!(
             same_terms(&gdal_proj, &crs.proj_string()),
             "{name}: GDAL reads {gdal_proj:?}, we meant {:?}",
@@ -283,8 +284,22 @@ fn gdal_and_proj_read_every_crs_as_defined() {
         assert_eq!(info["size"], serde_json::json!([W, H]), "{name}");
 
         // PROJ's projection of the cell centres' lon/lat must give back the centres.
-        let grid = Grid::new(W, H, Georef { crs, geotransform: gt }).unwrap();
-        let cells = [(0usize, 0usize), (W - 1, 0), (0, H - 1), (W - 1, H - 1), (31, 17)];
+        let grid = Grid::new(
+            W,
+            H,
+            Georef {
+                crs,
+                geotransform: gt,
+            },
+        )
+        .unwrap();
+        let cells = [
+            (0usize, 0usize),
+            (W - 1, 0),
+            (0, H - 1),
+            (W - 1, H - 1),
+            (31, 17),
+        ];
         let ll: Vec<(f64, f64)> = cells
             .iter()
             .map(|&(c, r)| grid.lonlat_of(c as f64, r as f64))
@@ -297,7 +312,10 @@ fn gdal_and_proj_read_every_crs_as_defined() {
                 (ox - x).abs() < 1e-3 && (oy - y).abs() < 1e-3,
                 "{name}: PROJ puts {lon},{lat} at {x},{y}; we at {ox},{oy}"
             );
-            let (cx, cy) = (gt[0] + (c as f64 + 0.5) * gt[1], gt[3] + (r as f64 + 0.5) * gt[5]);
+            let (cx, cy) = (
+                gt[0] + (c as f64 + 0.5) * gt[1],
+                gt[3] + (r as f64 + 0.5) * gt[5],
+            );
             let tol = if crs.is_geographic() { 1e-9 } else { 1e-3 };
             assert!(
                 (x - cx).abs() < tol && (y - cy).abs() < tol,
@@ -326,7 +344,15 @@ fn projected_grid_metric_points_east_and_north() {
     // (Snyder 1987 eq. 15-5: θ = n(λ − λ0)): east of the central meridian, grid north turns to
     // the west of true north by θ, so "1 km east" has a northward (negative-row) component.
     let (_, crs, gt) = cases().remove(0);
-    let grid = Grid::new(W, H, Georef { crs, geotransform: gt }).unwrap();
+    let grid = Grid::new(
+        W,
+        H,
+        Georef {
+            crs,
+            geotransform: gt,
+        },
+    )
+    .unwrap();
     let i = 20 * W + (W - 1);
     let m = grid.metric()[i];
     let lon = grid.lon()[i];
@@ -341,7 +367,15 @@ fn projected_grid_metric_points_east_and_north() {
     // ones throughout the crate, so this holds exactly only on a WGS 84 grid (on a sphere the
     // ratio is the ellipsoid's N/M, about 1.004 here).
     let (_, crs, gt) = cases().remove(1);
-    let grid = Grid::new(W, H, Georef { crs, geotransform: gt }).unwrap();
+    let grid = Grid::new(
+        W,
+        H,
+        Georef {
+            crs,
+            geotransform: gt,
+        },
+    )
+    .unwrap();
     let m = grid.metric()[i];
     let east = (m.col_per_km_east as f64).hypot(m.row_per_km_east as f64);
     let north = (m.col_per_km_north as f64).hypot(m.row_per_km_north as f64);

@@ -19,7 +19,7 @@ use std::time::Instant;
 use trackswing::accumulate::Totals;
 use trackswing::case::{Case, Member, RasterType, Units, DEFAULT_BANDS_CM};
 use trackswing::diagnose::{Methods, PtypeMethod, SlrMethod};
-use trackswing::engine::RunResult;
+use trackswing::engine::{RunResult, Timings};
 use trackswing::geotiff::*;
 use trackswing::grid::Grid;
 use trackswing::read::{StepLayout, Town};
@@ -195,6 +195,7 @@ fn main() -> anyhow::Result<()> {
         units: Units::Metric,
         raster_type,
         snowfall_bands: DEFAULT_BANDS_CM.to_vec(),
+        force: true,
     };
     let expected = expected_cells(&grid, &totals, baseline);
     let result = RunResult {
@@ -209,6 +210,10 @@ fn main() -> anyhow::Result<()> {
         track: None,
         layout: StepLayout {
             levels_pa: vec![85_000.0, 70_000.0],
+        },
+        timings: Timings {
+            read_s: 0.0,
+            compute_s: 0.0,
         },
     };
     let started = Instant::now();

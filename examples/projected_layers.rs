@@ -17,7 +17,7 @@ use std::path::{Path, PathBuf};
 use std::time::Instant;
 
 use trackswing::accumulate::Totals;
-use trackswing::case::{Case, Member, RasterType, Units, DEFAULT_BANDS_CM};
+use trackswing::case::{Case, InputFormat, Member, RasterType, Units, DEFAULT_BANDS_CM};
 use trackswing::diagnose::{Methods, PtypeMethod, SlrMethod};
 use trackswing::engine::{RunResult, Timings};
 use trackswing::geotiff::*;
@@ -178,6 +178,8 @@ fn main() -> anyhow::Result<()> {
             terrain: terrain_path.clone(),
             steps: vec![terrain_path],
             track: None,
+            format: InputFormat::GeoTiff,
+            find_track: false,
         },
         towns: Some(towns_path),
         cross_km: cross_km.clone(),

@@ -726,6 +726,8 @@ impl Case {
             output: OutputFile {
                 folder: Some(abs(Path::new("trackswing-out"))),
                 units: None,
+                raster_type: None,
+                snowfall_bands: None,
             },
         };
         let mut case = Self::resolve(Path::new("command line"), file, over)?;

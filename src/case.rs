@@ -130,6 +130,10 @@ pub struct OutputFile {
     pub folder: Option<String>,
     /// `metric` (cm, mm) or `us` (inches).
     pub units: Option<String>,
+    /// `float32` (default) or `int16` (scaled, about half the size).
+    pub raster_type: Option<String>,
+    /// Snowfall isoband thresholds in the output units, increasing.
+    pub snowfall_bands: Option<Vec<f64>>,
 }
 
 /// The case file as written.
@@ -215,6 +219,33 @@ pub enum InputFormat {
     Model,
 }
 
+/// Sample type of the GeoTIFF layers.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum RasterType {
+    /// IEEE Float32 with nodata −9999.
+    Float32,
+    /// Int16 with a per-layer scale factor (GDAL scale/offset), nodata −32768.
+    Int16,
+}
+
+impl RasterType {
+    /// Parses `float32` or `int16`.
+    pub fn parse(s: &str) -> Option<Self> {
+        match s.trim().to_ascii_lowercase().as_str() {
+            "float32" => Some(Self::Float32),
+            "int16" => Some(Self::Int16),
+            _ => None,
+        }
+    }
+}
+
+/// Default snowfall isoband thresholds, cm (common practice for snowfall maps: about 1, 2, 4,
+/// 6, 8 and 12 inches in round centimetres).
+pub const DEFAULT_BANDS_CM: [f64; 6] = [2.5, 5.0, 10.0, 15.0, 20.0, 30.0];
+/// Default snowfall isoband thresholds, inches (common practice).
+pub const DEFAULT_BANDS_IN: [f64; 6] = [1.0, 2.0, 4.0, 6.0, 8.0, 12.0];
+
 /// One member with its files resolved and checked to exist.
 #[derive(Clone, Debug)]
 pub struct Member {
@@ -270,6 +301,8 @@ pub struct Overrides {
     pub intensity: Option<String>,
     /// `--warm-bias`.
     pub warm_bias: Option<String>,
+    /// `--raster-type`.
+    pub raster_type: Option<String>,
 }
 
 /// A case ready to run.
@@ -306,6 +339,10 @@ pub struct Case {
     pub units: Units,
     /// Replace a non-empty output folder trackswing did not write.
     pub force: bool,
+    /// Sample type of the GeoTIFF layers.
+    pub raster_type: RasterType,
+    /// Snowfall isoband thresholds in the output units, increasing.
+    pub snowfall_bands: Vec<f64>,
 }
 
 /// Default core radius, km: the displacement is complete over the low's circulation and
@@ -554,6 +591,33 @@ impl Case {
                 format!("'{units_text}': expected metric or us"),
             )
         })?;
+        let (type_text, type_field) = match (&over.raster_type, &file.output.raster_type) {
+            (Some(t), _) => (t.clone(), "--raster-type"),
+            (None, Some(t)) => (t.clone(), "output.raster_type"),
+            (None, None) => ("float32".to_string(), "output.raster_type"),
+        };
+        let raster_type = RasterType::parse(&type_text).ok_or_else(|| {
+            invalid(
+                type_field,
+                format!("'{type_text}': expected float32 or int16"),
+            )
+        })?;
+        let snowfall_bands = match &file.output.snowfall_bands {
+            None => match units {
+                Units::Metric => DEFAULT_BANDS_CM.to_vec(),
+                Units::Us => DEFAULT_BANDS_IN.to_vec(),
+            },
+            Some(b) => {
+                let increasing = b.windows(2).all(|w| w[0] < w[1]);
+                if b.is_empty() || !increasing || b.iter().any(|v| !(v.is_finite() && *v > 0.0)) {
+                    return Err(invalid(
+                        "output.snowfall_bands",
+                        format!("{b:?}: expected positive, finite, strictly increasing thresholds in {}", units.snow_unit()),
+                    ));
+                }
+                b.clone()
+            }
+        };
         let out_dir = match (&over.out, &file.output.folder) {
             (Some(o), _) => o.clone(),
             (None, Some(f)) => dir.join(f),
@@ -583,6 +647,8 @@ impl Case {
             out_dir,
             units,
             force: over.force,
+            raster_type,
+            snowfall_bands,
         })
     }
 
@@ -750,6 +816,8 @@ impl Case {
             output: OutputFile {
                 folder: Some(abs(Path::new("trackswing-out"))),
                 units: None,
+                raster_type: None,
+                snowfall_bands: None,
             },
         };
         let mut case = Self::resolve(Path::new("command line"), file, over)?;

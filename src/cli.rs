@@ -88,6 +88,9 @@ pub struct Common {
     /// Temperature biases in K added between the ground and 500 hPa: a value, a list or a range.
     #[arg(long, value_name = "RANGE", allow_hyphen_values = true)]
     pub warm_bias: Option<String>,
+    /// Sample type of the GeoTIFF layers: float32 or int16 (scaled, about half the size).
+    #[arg(long, value_name = "float32|int16")]
+    pub raster_type: Option<String>,
     /// Print nothing but errors.
     #[arg(long, short)]
     pub quiet: bool,

@@ -59,11 +59,9 @@ pub struct CellMetric {
 /// How a grid's x/y axes relate to the Earth.
 ///
 /// GRIB2 grids come on lat/lon or on a map projection (grid definition templates 3.0, 3.30,
-/// 3.20; WMO-No. 306 Vol. I.2). Projected grids keep their projection here so the output stage
-/// can write it as a projected CRS (see [`MapProjection::proj_string`]); until `geotiff::Crs`
-/// has projected variants, [`Grid::georef`] of a projected grid carries the projected
-/// geotransform (metres) under a placeholder `Crs::Wgs84Geographic`, and callers that write
-/// GeoTIFFs must check [`Grid::is_projected`] first.
+/// 3.20; WMO-No. 306 Vol. I.2). Projected grids keep their projection here for the transforms,
+/// and [`Grid::georef`] carries the same projection as a `geotiff::Crs` (see [`crs_of`]) with
+/// the projected geotransform (metres), so the layers are written on the grid as it came.
 #[derive(Clone, Debug, PartialEq)]
 pub enum Projection {
     /// x = longitude, y = latitude, degrees. A model's spherical Earth is taken as WGS 84 here,
@@ -245,6 +243,99 @@ pub fn project(map: &MapProjection, lon: f64, lat: f64) -> Result<(f64, f64), Gr
     }
 }
 
+/// The GeoTIFF CRS of a map projection: WGS 84 when the Earth is the WGS 84 ellipsoid (GRS 80,
+/// 0.1 mm away in the semi-minor axis, counts as WGS 84), a sphere when a = b; other
+/// ellipsoids have no GeoTIFF datum here.
+pub fn crs_of(map: &MapProjection) -> Result<Crs, GridError> {
+    use crate::geotiff::{Datum, Projected, Projection as Method};
+    let wgs84_b = WGS84_A * (1.0 - WGS84_F);
+    let datum = if map.earth.a == map.earth.b {
+        Datum::Sphere {
+            radius_m: map.earth.a,
+        }
+    } else if map.earth.a == WGS84_A && (map.earth.b - wgs84_b).abs() < 1e-3 {
+        Datum::Wgs84
+    } else {
+        return Err(GridError::Projection(format!(
+            "{}: only WGS 84 or a sphere can be written as a GeoTIFF CRS",
+            map.describe()
+        )));
+    };
+    let projection = match map.kind {
+        MapKind::LambertConformal {
+            lat_1,
+            lat_2,
+            lat_0,
+            lon_0,
+        } => Method::LambertConformal2Sp {
+            lat_1,
+            lat_2,
+            lat_0,
+            lon_0,
+        },
+        MapKind::PolarStereographic {
+            lat_ts,
+            lon_0,
+            north,
+        } => Method::PolarStereographic {
+            lat_ts: if north { lat_ts.abs() } else { -lat_ts.abs() },
+            lon_0,
+        },
+    };
+    Ok(Crs::Projected(Projected {
+        datum,
+        projection,
+        false_easting_m: 0.0,
+        false_northing_m: 0.0,
+    }))
+}
+
+/// The map projection of a projected GeoTIFF CRS, where the grid's transforms support it
+/// (Lambert conformal 2SP and polar stereographic without false origin shifts).
+fn map_of(p: &crate::geotiff::Projected) -> Result<MapProjection, GridError> {
+    use crate::geotiff::{Datum, Projection as Method};
+    let earth = match p.datum {
+        Datum::Wgs84 => Earth {
+            a: WGS84_A,
+            b: WGS84_A * (1.0 - WGS84_F),
+        },
+        Datum::Sphere { radius_m } => Earth {
+            a: radius_m,
+            b: radius_m,
+        },
+    };
+    let kind = match p.projection {
+        Method::LambertConformal2Sp {
+            lat_1,
+            lat_2,
+            lat_0,
+            lon_0,
+        } => MapKind::LambertConformal {
+            lat_1,
+            lat_2,
+            lat_0,
+            lon_0,
+        },
+        Method::PolarStereographic { lat_ts, lon_0 } => MapKind::PolarStereographic {
+            lat_ts: lat_ts.abs(),
+            lon_0,
+            north: lat_ts > 0.0,
+        },
+        other => {
+            return Err(GridError::Projection(format!(
+                "{other:?} is not supported for input grids (Lambert conformal 2SP and polar stereographic are)"
+            )))
+        }
+    };
+    if p.false_easting_m != 0.0 || p.false_northing_m != 0.0 {
+        return Err(GridError::Projection(format!(
+            "false easting/northing ({}, {}) m are not supported for input grids",
+            p.false_easting_m, p.false_northing_m
+        )));
+    }
+    Ok(MapProjection { kind, earth })
+}
+
 /// A model grid with its georeferencing, cell-centre coordinates and per-cell metric.
 #[derive(Clone, Debug)]
 pub struct Grid {
@@ -301,7 +392,9 @@ impl Grid {
         let mut lat = Vec::with_capacity(n);
         let mut metric = Vec::with_capacity(n);
         match georef.crs {
-            Crs::Wgs84Geographic => {
+            Crs::Projected(p) => return Self::projected(nx, ny, gt, map_of(&p)?),
+            // A model's spherical Earth is taken as WGS 84 for lon/lat, as for GRIB2 grids.
+            Crs::Wgs84Geographic | Crs::GeographicSphere { .. } => {
                 for row in 0..ny {
                     let la = gt[3] + (row as f64 + 0.5) * gt[5];
                     let (kx, ky) = km_per_degree(la);
@@ -397,7 +490,7 @@ impl Grid {
             nx,
             ny,
             georef: Georef {
-                crs: Crs::Wgs84Geographic,
+                crs: crs_of(&map)?,
                 geotransform,
             },
             projection: Projection::Map(map),

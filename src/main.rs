@@ -51,6 +51,7 @@ fn run_case(plan: Plan<'_>, common: &Common, default_out: Option<PathBuf>) -> Re
         timing: common.timing.clone(),
         intensity: common.intensity.clone(),
         warm_bias: common.warm_bias.clone(),
+        raster_type: common.raster_type.clone(),
     };
     let case = match plan {
         Plan::CaseFile(p) => Case::load(p, &over),
@@ -76,12 +77,6 @@ fn run_case(plan: Plan<'_>, common: &Common, default_out: Option<PathBuf>) -> Re
     let result = trackswing::engine::run(&case, threads, &progress).map_err(|e| {
         Failure::Input(anyhow::Error::from(e).context("the run stopped; nothing was written"))
     })?;
-    if result.grid.is_projected() {
-        return Err(Failure::Input(anyhow::anyhow!(
-            "the model grid is projected ({}); this version writes GeoTIFF layers on lat/lon grids only, so nothing was written (inspect and track work on projected grids)",
-            result.grid.describe()
-        )));
-    }
     let clock = std::time::Instant::now();
     let files = trackswing::write::write_all(&case, &result)
         .with_context(|| format!("writing the layers into {}", case.out_dir.display()))

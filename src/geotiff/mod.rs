@@ -11,15 +11,24 @@
 //! - Geographic coordinates are x = longitude, y = latitude, in degrees (EPSG:4326 axis order as
 //!   GIS software uses it, not the EPSG-registered lat/lon order).
 //!
-//! Layout on disk (what [`write_geotiff`] produces, see `write.rs`): one IFD, N samples per pixel
-//! stored as separate planes (PlanarConfiguration 2), strips of [`STRIP_ROWS`] rows, Deflate with
-//! the floating-point predictor (TIFF Technical Note 3) for Float32 or the horizontal predictor for
-//! Int16. Output bytes depend only on the inputs.
+//! Two layouts on disk, both with N samples per pixel stored as separate planes
+//! (PlanarConfiguration 2) and Deflate with the floating-point predictor (TIFF Technical Note 3)
+//! for Float32 or the horizontal predictor for Int16; output bytes depend only on the inputs:
+//! - [`write_geotiff`] (`write.rs`, through the `tiff` crate's encoder): one IFD, strips of
+//!   [`STRIP_ROWS`] rows. Used for the model-like input files the demo generates.
+//! - [`write_cog`] (`cog.rs`, its own TIFF serialiser): the cloud-optimised layout GDAL's COG
+//!   driver writes — internal tiles, overviews, every IFD before the data, the smallest
+//!   overview's tiles first, tiles compressed in parallel, BigTIFF past 4 GiB. Used for the
+//!   layers.
 
+mod cog;
+mod crs;
 mod error;
 mod geokeys;
 mod metadata;
+mod overview;
 mod predictor;
+mod projection;
 mod read;
 mod strip;
 #[cfg(test)]
@@ -27,7 +36,11 @@ mod tests;
 mod write;
 mod xml;
 
+pub use cog::{write_cog, BigTiff, CogOptions, CogReport};
+pub use crs::{Crs, Datum, Projected, Projection, WGS84_A, WGS84_INV_F};
 pub use error::GeoTiffError;
+pub use overview::overview_sizes;
+pub use projection::{forward, inverse};
 pub use read::read_geotiff;
 pub use write::write_geotiff;
 
@@ -38,23 +51,13 @@ pub const STRIP_ROWS: usize = 16;
 /// zlib level used for Deflate. Fixed so that output is reproducible across runs.
 pub const DEFLATE_LEVEL: u32 = 6;
 
-/// Coordinate reference system of a layer.
-///
-/// Only a geographic CRS is supported for now. Projected systems (Lambert conformal 1SP/2SP, polar
-/// stereographic, Mercator) become new variants here plus their GeoKeys in `geokeys.rs`; nothing
-/// else in the writer or reader depends on which variant is used.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub enum Crs {
-    /// EPSG:4326, WGS 84 geographic; x = longitude, y = latitude, both in degrees.
-    Wgs84Geographic,
-}
-
 /// Where a raster sits on the Earth.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Georef {
     /// Coordinate reference system of the geotransform's x and y.
     pub crs: Crs,
-    /// GDAL-style affine geotransform, in CRS units (degrees for [`Crs::Wgs84Geographic`]):
+    /// GDAL-style affine geotransform, in CRS units (degrees for geographic CRSs, metres for
+    /// projected ones):
     /// `x = gt[0] + col*gt[1] + row*gt[2]`, `y = gt[3] + col*gt[4] + row*gt[5]`, where
     /// `(col, row) = (0, 0)` is the outer top-left corner of the top-left pixel. North-up grids
     /// have `gt[2] = gt[4] = 0` and `gt[5] < 0`.

@@ -222,7 +222,7 @@ fn encode_strips(
     Ok(strips)
 }
 
-fn validate(
+pub(crate) fn validate(
     path: &Path,
     width: usize,
     height: usize,

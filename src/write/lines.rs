@@ -16,8 +16,7 @@ use std::path::Path;
 /// The snow fraction that separates "mostly snow" from "mostly rain or ice".
 pub const RAIN_SNOW_FRACTION: f64 = 0.5;
 
-/// Decimal places of written coordinates (1e-5° ≈ 1 m, far below any model grid's spacing).
-const DECIMALS: f64 = 1e5;
+use super::polygons::DECIMALS;
 
 /// Lines where `field` crosses `level`, as lon/lat line strings, cut where `field` is undefined.
 pub fn isolines(grid: &Grid, field: &[f32], level: f64) -> Result<Vec<Vec<[f64; 2]>>, WriteError> {
@@ -48,26 +47,62 @@ pub fn isolines(grid: &Grid, field: &[f32], level: f64) -> Result<Vec<Vec<[f64; 
             for p in ls.0.iter() {
                 if valid(p.x, p.y) {
                     let (lon, lat) = grid.lonlat_of(p.x - 0.5, p.y - 0.5);
-                    let q = [
-                        (lon * DECIMALS).round() / DECIMALS,
-                        (lat * DECIMALS).round() / DECIMALS,
-                    ];
-                    if piece.last() != Some(&q) {
-                        piece.push(q);
-                    }
+                    piece.push([lon, lat]);
                 } else {
-                    if piece.len() >= 2 {
-                        out.push(std::mem::take(&mut piece));
-                    }
-                    piece.clear();
+                    out.extend(finish(std::mem::take(&mut piece)));
                 }
             }
-            if piece.len() >= 2 {
-                out.push(piece);
-            }
+            out.extend(finish(piece));
         }
     }
     Ok(out)
+}
+
+/// Makes longitudes continuous, cuts the line where it crosses ±180° (RFC 7946 §3.1.9), brings
+/// every piece into −180…180, rounds to 1e-5° and drops repeated points and pieces of one point.
+fn finish(mut piece: Vec<[f64; 2]>) -> Vec<Vec<[f64; 2]>> {
+    for i in 1..piece.len() {
+        let prev = piece[i - 1][0];
+        piece[i][0] += 360.0 * ((prev - piece[i][0]) / 360.0).round();
+    }
+    let strip = |lon: f64| ((lon + 180.0) / 360.0).floor();
+    let mut parts: Vec<Vec<[f64; 2]>> = Vec::new();
+    let mut cur: Vec<[f64; 2]> = Vec::new();
+    for (i, &p) in piece.iter().enumerate() {
+        if i > 0 {
+            let a = piece[i - 1];
+            let (ka, kb) = (strip(a[0]), strip(p[0]));
+            if ka != kb {
+                // Crossing at the strip boundary between them (one boundary: steps are < 180°).
+                let edge = -180.0 + 360.0 * ka.max(kb);
+                let t = (edge - a[0]) / (p[0] - a[0]);
+                let lat = a[1] + t * (p[1] - a[1]);
+                cur.push([edge - 360.0 * ka, lat]);
+                parts.push(std::mem::take(&mut cur));
+                cur.push([edge - 360.0 * kb, lat]);
+            }
+        }
+        let k = strip(p[0]);
+        cur.push([p[0] - 360.0 * k, p[1]]);
+    }
+    parts.push(cur);
+    parts
+        .into_iter()
+        .map(|part| {
+            let mut q: Vec<[f64; 2]> = Vec::with_capacity(part.len());
+            for p in part {
+                let r = [
+                    (p[0] * DECIMALS).round() / DECIMALS,
+                    (p[1] * DECIMALS).round() / DECIMALS,
+                ];
+                if q.last() != Some(&r) {
+                    q.push(r);
+                }
+            }
+            q
+        })
+        .filter(|q| q.len() >= 2)
+        .collect()
 }
 
 /// Writes `rain_snow_lines.geojson`: one MultiLineString feature per scenario.
@@ -134,6 +169,23 @@ mod tests {
                 assert!(p[1] >= 0.5 - 1e-9 && p[1] <= 5.5 + 1e-9, "{p:?}");
             }
         }
+    }
+
+    #[test]
+    fn lines_are_cut_at_the_antimeridian() {
+        // 179.5°E to 180.5°E (= 179.5°W) at 60°N: one crossing, interpolated to ±180 at 60°N.
+        let parts = finish(vec![[179.5, 60.0], [180.5, 60.0], [181.0, 61.0]]);
+        assert_eq!(
+            parts,
+            vec![
+                vec![[179.5, 60.0], [180.0, 60.0]],
+                vec![[-180.0, 60.0], [-179.5, 60.0], [-179.0, 61.0]]
+            ]
+        );
+        // Longitudes given as −180…180 that jump across the antimeridian are unwrapped first.
+        let parts = finish(vec![[179.0, 0.0], [-179.0, 2.0]]);
+        assert_eq!(parts.len(), 2);
+        assert_eq!(parts[0], vec![[179.0, 0.0], [180.0, 1.0]]);
     }
 
     #[test]

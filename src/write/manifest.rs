@@ -1,5 +1,8 @@
-//! `manifest.json`: every file written, with kind, units and description; the scenarios; the
-//! settings; and a SHA-256 of every input, so an analyst can tell two runs apart. Written last.
+//! `manifest.json`: every file written, with kind, units, description, CRS (EPSG code where there
+//! is one, and the PROJ definition) and, for rasters, the storage and band list (the per-scenario
+//! stack's bands with their cross- and along-track offsets); the scenarios; the settings; the
+//! trackswing version; and a SHA-256 of the case file and every input, so an analyst can tell two
+//! runs apart. Written last.
 
 use super::{write_text_atomic, WriteError, Written};
 use crate::case::Case;
@@ -13,6 +16,40 @@ struct Input {
     role: String,
     path: String,
     sha256: String,
+}
+
+/// A band of a raster file, with the offsets of its scenario for the per-scenario stack.
+#[derive(Serialize)]
+struct BandEntry {
+    /// 1-based, as GDAL numbers bands.
+    band: usize,
+    description: String,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    cross_km: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    along_km: Option<f64>,
+}
+
+/// How a file is georeferenced: EPSG code where there is one, and always the PROJ definition.
+#[derive(Serialize)]
+struct CrsEntry {
+    #[serde(skip_serializing_if = "Option::is_none")]
+    epsg: Option<u32>,
+    proj: String,
+}
+
+/// One written file as the manifest lists it.
+#[derive(Serialize)]
+struct FileEntry<'a> {
+    file: &'a str,
+    kind: super::Kind,
+    units: &'a str,
+    description: &'a str,
+    crs: CrsEntry,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    raster: Option<serde_json::Value>,
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    bands: Vec<BandEntry>,
 }
 
 #[derive(Serialize)]
@@ -35,14 +72,16 @@ struct Manifest<'a> {
     case_file: String,
     member: &'a str,
     written_utc: String,
-    crs: &'a str,
+    crs: CrsEntry,
     grid: serde_json::Value,
     units: crate::case::Units,
+    raster_type: crate::case::RasterType,
+    snowfall_bands: &'a [f64],
     methods: &'a crate::diagnose::Methods,
     taper: &'a crate::shift::Taper,
     steps: Vec<String>,
     scenarios: Vec<ScenarioEntry>,
-    files: &'a [Written],
+    files: Vec<FileEntry<'a>>,
     inputs: Vec<Input>,
 }
 
@@ -85,6 +124,65 @@ pub fn write_manifest(
         add("towns", t)?;
     }
     let gt = r.grid.georef.geotransform;
+    let grid_crs = || CrsEntry {
+        epsg: r.grid.georef.crs.epsg(),
+        proj: r.grid.georef.crs.proj_string(),
+    };
+    let lonlat = || CrsEntry {
+        epsg: Some(4326),
+        proj: crate::geotiff::Crs::Wgs84Geographic.proj_string(),
+    };
+    let raster = match case.raster_type {
+        crate::case::RasterType::Float32 => serde_json::json!({
+            "layout": "cloud-optimised GeoTIFF (256x256 tiles, overviews)",
+            "sample_type": "Float32",
+            "nodata": super::rasters::NODATA,
+            "compression": "deflate, floating-point predictor",
+        }),
+        crate::case::RasterType::Int16 => serde_json::json!({
+            "layout": "cloud-optimised GeoTIFF (256x256 tiles, overviews)",
+            "sample_type": "Int16, value = raw x band scale (GDAL scale/offset)",
+            "nodata": -32768,
+            "compression": "deflate, horizontal predictor",
+        }),
+    };
+    let entries: Vec<FileEntry> = files
+        .iter()
+        .map(|f| {
+            let is_raster = f.kind == super::Kind::Raster;
+            let bands = if !is_raster {
+                Vec::new()
+            } else if f.bands.len() == r.scenarios.len() && f.bands.len() > 1 {
+                f.bands
+                    .iter()
+                    .zip(&r.scenarios)
+                    .enumerate()
+                    .map(|(i, (d, s))| BandEntry {
+                        band: i + 1,
+                        description: d.clone(),
+                        cross_km: Some(s.cross_km),
+                        along_km: Some(s.along_km),
+                    })
+                    .collect()
+            } else {
+                vec![BandEntry {
+                    band: 1,
+                    description: f.description.clone(),
+                    cross_km: None,
+                    along_km: None,
+                }]
+            };
+            FileEntry {
+                file: &f.file,
+                kind: f.kind,
+                units: &f.units,
+                description: &f.description,
+                crs: if is_raster { grid_crs() } else { lonlat() },
+                raster: is_raster.then(|| raster.clone()),
+                bands,
+            }
+        })
+        .collect();
     let m = Manifest {
         trackswing_version: env!("CARGO_PKG_VERSION"),
         caution: crate::CAUTION,
@@ -92,9 +190,11 @@ pub fn write_manifest(
         case_file: case.path.display().to_string(),
         member: &case.member.name,
         written_utc: chrono::Utc::now().to_rfc3339_opts(chrono::SecondsFormat::Secs, true),
-        crs: "EPSG:4326",
+        crs: grid_crs(),
         grid: serde_json::json!({"columns": r.grid.nx, "rows": r.grid.ny, "geotransform": gt}),
         units: case.units,
+        raster_type: case.raster_type,
+        snowfall_bands: &case.snowfall_bands,
         methods: &case.methods,
         taper: &case.taper,
         steps: r.valid_times.iter().map(|t| t.to_rfc3339()).collect(),
@@ -113,7 +213,7 @@ pub fn write_manifest(
                 baseline: s.is_baseline(),
             })
             .collect(),
-        files,
+        files: entries,
         inputs,
     };
     let text = serde_json::to_string_pretty(&m).expect("manifest serialises");

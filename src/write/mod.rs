@@ -6,10 +6,13 @@
 //! complete set (or nothing), never a half-written layer or a mix of two runs.
 
 pub mod folder;
+pub mod isobands;
 pub mod lines;
 pub mod manifest;
+pub mod polygons;
 pub mod rasters;
 pub mod towns;
+pub mod zones;
 
 use std::io::Write;
 use std::path::{Path, PathBuf};
@@ -143,8 +146,38 @@ fn write_set(
         ("case_title".to_string(), case.title.clone()),
         ("caution".to_string(), crate::CAUTION.to_string()),
     ];
-    let mut files = rasters::write_rasters(dir, r, case.units, &meta)?;
+    let settings = rasters::RasterSettings {
+        units: case.units,
+        raster_type: case.raster_type,
+    };
+    let mut files = rasters::write_rasters(dir, r, &settings, &meta)?;
     files.push(lines::write_rain_snow_lines(dir, r)?);
+    files.push(zones::write_transition_zones(dir, r)?);
+    files.push(zones::write_flip_zone(dir, r)?);
+    let snowfall: Vec<&[f32]> = r.totals.iter().map(|t| t.snowfall.as_slice()).collect();
+    let max = crate::summarise::spread(&snowfall).max;
+    for (name, what, field) in [
+        (
+            "snowfall_bands_baseline.geojson",
+            "the model as issued (offset 0, 0)",
+            &r.totals[r.baseline].snowfall,
+        ),
+        (
+            "snowfall_bands_max.geojson",
+            "the largest total over all offsets",
+            &max,
+        ),
+    ] {
+        files.push(isobands::write_snowfall_bands(
+            dir,
+            &r.grid,
+            name,
+            what,
+            field,
+            case.units,
+            &case.snowfall_bands,
+        )?);
+    }
     let towns = crate::summarise::towns(r);
     let onsets = towns::town_onsets(r);
     files.extend(towns::write_towns(

@@ -1,59 +1,114 @@
-//! GeoTIFF layers: the per-scenario snowfall stack and the single-band summaries.
+//! GeoTIFF layers: the per-scenario snowfall stack and the single-band summaries, as
+//! cloud-optimised GeoTIFFs (internal 256×256 tiles, overviews) on the input grid and its CRS.
+//!
+//! Float32 layers use nodata −9999. Int16 layers store `round(value / scale)` with a scale chosen
+//! per band from its largest magnitude (a 1-2-5 step, so that the largest value uses at most
+//! 32 000 of the 32 767 steps), recorded as GDAL's band scale (offset 0), nodata −32768.
 
 use super::{write_atomic, Kind, WriteError, Written};
-use crate::case::Units;
+use crate::case::{RasterType, Units};
 use crate::engine::RunResult;
-use crate::geotiff::{write_geotiff, BandSpec, SampleEncoding, WriteOptions};
+use crate::geotiff::{write_cog, BandSpec, CogOptions, SampleEncoding, WriteOptions};
 use crate::summarise::spread;
 use std::path::Path;
 
 /// Nodata value of every Float32 layer.
 pub const NODATA: f64 = -9999.0;
 
-struct Layer<'a> {
-    file: &'a str,
-    units: String,
-    description: String,
-    data: Vec<f32>,
+/// How the rasters are stored.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct RasterSettings {
+    /// Output units.
+    pub units: Units,
+    /// Float32 or scaled Int16.
+    pub raster_type: RasterType,
 }
 
-fn write_layer(
-    dir: &Path,
-    r: &RunResult,
-    meta: &[(String, String)],
-    l: Layer,
-) -> Result<Written, WriteError> {
-    let band = BandSpec {
-        data: &l.data,
-        description: l.description.clone(),
-        metadata: vec![("units".into(), l.units.clone())],
-    };
-    write_one(dir, r, meta, l.file, &[band])?;
-    Ok(Written {
-        file: l.file.to_string(),
-        kind: Kind::Raster,
-        units: l.units,
-        description: l.description,
-        bands: Vec::new(),
-    })
+/// The Int16 scale for values up to `max_abs` in magnitude: the smallest 1, 2 or 5 × 10^k with
+/// `max_abs / scale ≤ 32 000`; 1e-4 for an empty or all-zero band.
+///
+/// ```
+/// use trackswing::write::rasters::int16_scale;
+/// assert_eq!(int16_scale(1.0), 5e-5);     // fractions: 20 000 steps over 0–1
+/// assert_eq!(int16_scale(120.0), 0.005);  // 120 cm in 24 000 steps
+/// assert_eq!(int16_scale(0.0), 1e-4);
+/// ```
+pub fn int16_scale(max_abs: f64) -> f64 {
+    if !(max_abs.is_finite() && max_abs > 0.0) {
+        return 1e-4;
+    }
+    let need = max_abs / 32_000.0;
+    let mut decade = 10f64.powf(need.log10().floor());
+    loop {
+        for m in [1.0, 2.0, 5.0] {
+            // Decimal powers are inexact in binary: round the candidate to 12 significant
+            // digits so that the recorded scale reads as 0.005, not 0.005000000000000001.
+            let s: f64 = format!("{:.12e}", m * decade).parse().unwrap_or(m * decade);
+            if s >= need {
+                return s;
+            }
+        }
+        decade *= 10.0;
+    }
+}
+
+fn encoding_for(settings: &RasterSettings, bands: &[BandSpec]) -> WriteOptions {
+    match settings.raster_type {
+        RasterType::Float32 => WriteOptions {
+            encoding: SampleEncoding::Float32,
+            nodata: NODATA,
+            dataset_metadata: Vec::new(),
+            band_scaling: Vec::new(),
+        },
+        RasterType::Int16 => {
+            let scaling: Vec<(f64, f64)> = bands
+                .iter()
+                .map(|b| {
+                    let m = b
+                        .data
+                        .iter()
+                        .filter(|v| v.is_finite())
+                        .fold(0f64, |m, v| m.max(f64::from(v.abs())));
+                    (int16_scale(m), 0.0)
+                })
+                .collect();
+            WriteOptions {
+                encoding: SampleEncoding::Int16Scaled {
+                    scale: scaling[0].0,
+                    offset: 0.0,
+                },
+                nodata: NODATA,
+                dataset_metadata: Vec::new(),
+                band_scaling: scaling,
+            }
+        }
+    }
 }
 
 fn write_one(
     dir: &Path,
     r: &RunResult,
+    settings: &RasterSettings,
     meta: &[(String, String)],
     file: &str,
     bands: &[BandSpec],
 ) -> Result<(), WriteError> {
     let opts = WriteOptions {
-        encoding: SampleEncoding::Float32,
-        nodata: NODATA,
         dataset_metadata: meta.to_vec(),
-        band_scaling: vec![],
+        ..encoding_for(settings, bands)
     };
     write_atomic(dir, file, |tmp| {
-        write_geotiff(tmp, r.grid.nx, r.grid.ny, &r.grid.georef, bands, &opts)
-            .map_err(WriteError::from)
+        write_cog(
+            tmp,
+            r.grid.nx,
+            r.grid.ny,
+            &r.grid.georef,
+            bands,
+            &opts,
+            &CogOptions::default(),
+        )
+        .map(|_| ())
+        .map_err(WriteError::from)
     })?;
     Ok(())
 }
@@ -62,9 +117,10 @@ fn write_one(
 pub fn write_rasters(
     dir: &Path,
     r: &RunResult,
-    units: Units,
+    settings: &RasterSettings,
     meta: &[(String, String)],
 ) -> Result<Vec<Written>, WriteError> {
+    let units = settings.units;
     let su = units.snow_unit();
     let lu = units.liquid_unit();
     let snow = |v: &[f32]| v.iter().map(|x| units.snow(*x)).collect::<Vec<f32>>();
@@ -90,7 +146,7 @@ pub fn write_rasters(
         })
         .collect();
     let file = "snowfall_by_scenario.tif";
-    write_one(dir, r, meta, file, &bands)?;
+    write_one(dir, r, settings, meta, file, &bands)?;
     out.push(Written {
         file: file.into(),
         kind: Kind::Raster,
@@ -117,18 +173,40 @@ pub fn write_rasters(
         ("dry_air_loss_baseline.tif", lu, "Precipitation that left the cloud but evaporated into dry air below it before reaching the ground, as modelled (0 with the dry-air correction off)", liquid(&base.carried)),
         ("ice_accretion_baseline.tif", lu, "Flat-surface ice accretion from freezing rain as modelled (0.72 × the freezing-rain liquid, Sanders & Barjenbruch 2016)", liquid(&base.ice_accretion())),
     ];
-    for (file, u, d, data) in layers {
-        out.push(write_layer(
-            dir,
-            r,
-            meta,
-            Layer {
-                file,
-                units: u.to_string(),
-                description: d.to_string(),
-                data,
-            },
-        )?);
+    for (file, u, description, data) in layers {
+        let band = BandSpec {
+            data: &data,
+            description: description.to_string(),
+            metadata: vec![("units".into(), u.to_string())],
+        };
+        write_one(dir, r, settings, meta, file, &[band])?;
+        out.push(Written {
+            file: file.to_string(),
+            kind: Kind::Raster,
+            units: u.to_string(),
+            description: description.to_string(),
+            bands: Vec::new(),
+        });
     }
     Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn int16_scale_keeps_values_in_range_with_a_round_step() {
+        for m in [1e-3, 0.9, 1.0, 3.3, 99.0, 327.0, 1234.5, 5e4] {
+            let s = int16_scale(m);
+            assert!(m / s <= 32_000.0 + 1e-9, "{m}: {s}");
+            assert!(m / s > 32_000.0 / 5.0 - 1e-9, "{m}: {s} wastes precision");
+            let digits = format!("{s:e}");
+            assert!(
+                digits.starts_with('1') || digits.starts_with('2') || digits.starts_with('5'),
+                "{s}"
+            );
+            assert!(digits.split('e').next().unwrap().len() == 1, "{digits}");
+        }
+    }
 }

@@ -90,6 +90,10 @@ fn demo_writes_every_layer_and_the_same_bytes_on_one_thread() {
         "dry_air_loss_baseline.tif",
         "ice_accretion_baseline.tif",
         "rain_snow_lines.geojson",
+        "transition_zones.geojson",
+        "flip_zone.geojson",
+        "snowfall_bands_baseline.geojson",
+        "snowfall_bands_max.geojson",
         "towns.csv",
         "towns.geojson",
     ] {
@@ -100,7 +104,7 @@ fn demo_writes_every_layer_and_the_same_bytes_on_one_thread() {
     let m: serde_json::Value =
         serde_json::from_slice(&std::fs::read(a.join("manifest.json")).unwrap()).unwrap();
     let files = m["files"].as_array().unwrap();
-    assert_eq!(files.len(), 17);
+    assert_eq!(files.len(), 21);
     for f in files {
         assert!(a.join(f["file"].as_str().unwrap()).is_file());
     }

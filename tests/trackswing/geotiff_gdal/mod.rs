@@ -9,6 +9,12 @@
 //!
 //! Without `gdalinfo` on PATH the tests print a note and pass, unless
 //! `TRACKSWING_REQUIRE_REFERENCES=1`, in which case they fail.
+//!
+//! `projected.rs` checks every CRS against PROJ (through GDAL), `cog.rs` the tiled,
+//! cloud-optimised layout with overviews, Int16 and BigTIFF.
+
+mod cog;
+mod projected;
 
 use crate::reference::gdal::*;
 use trackswing::geotiff::*;

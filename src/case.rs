@@ -75,6 +75,9 @@ pub struct MemberFile {
     /// any raster GDAL reads) as a folder, a pattern with one `*`, a file, or a list of these;
     /// fields, levels and times are found in them.
     pub model: Option<StepFiles>,
+    /// How to read `model`: `"grib2"` (the pure-Rust reader), `"gdal"` (any raster GDAL reads,
+    /// in a build with the `gdal` feature) or, when absent, found from the files' first octets.
+    pub format: Option<String>,
     /// Storm track (CSV or GeoJSON), or `"find"` to follow the low in the model's sea-level
     /// pressure; needed unless only the zero offset is run.
     pub track: Option<String>,
@@ -217,6 +220,8 @@ pub enum InputFormat {
     /// Model files (GRIB2, or any GDAL raster with the `gdal` feature) in which the fields are
     /// found: `steps` lists every file and `terrain` is the first of them.
     Model,
+    /// Model files read through GDAL (`format = "gdal"`), laid out as for `Model`.
+    Gdal,
 }
 
 /// Sample type of the GeoTIFF layers.
@@ -402,6 +407,24 @@ impl Case {
             Some("find") | None => None,
             Some(t) => Some(existing("member[0].track", t)?),
         };
+        let model_format = match m.format.as_deref() {
+            None | Some("grib2") => InputFormat::Model,
+            Some("gdal") if cfg!(feature = "gdal") => InputFormat::Gdal,
+            Some("gdal") => return Err(invalid(
+                "member[0].format",
+                "\"gdal\" needs a build with GDAL: rebuild with `cargo build --release --features gdal` (needs the system GDAL library, Debian: libgdal-dev)".into(),
+            )),
+            Some(other) => return Err(invalid(
+                "member[0].format",
+                format!("'{other}': expected \"grib2\" or \"gdal\""),
+            )),
+        };
+        if m.format.is_some() && m.model.is_none() {
+            return Err(invalid(
+                "member[0].format",
+                "applies to model files; give model = ... (GeoTIFF terrain and steps are read without it)".into(),
+            ));
+        }
         let member = match (&m.terrain, &m.steps, &m.model) {
             (Some(terrain), Some(steps), None) => {
                 let steps = match steps {
@@ -444,7 +467,7 @@ impl Case {
                     terrain: files[0].clone(),
                     steps: files,
                     track,
-                    format: InputFormat::Model,
+                    format: model_format,
                     find_track,
                 }
             }
@@ -802,6 +825,7 @@ impl Case {
                 terrain: None,
                 steps: None,
                 model: Some(StepFiles::List(files.iter().map(|f| abs(f)).collect())),
+                format: None,
                 track: track.map(|t| {
                     if t == "find" {
                         t.to_string()

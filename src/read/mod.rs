@@ -1,9 +1,12 @@
 //! Stage 1, read: model fields per time step, the storm track and the towns.
 //!
-//! Model fields come through a [`source::Source`]: GeoTIFF ([`fields`]) or GRIB2 ([`grib`]). A
+//! Model fields come through a [`source::Source`]: GeoTIFF ([`fields`]), GRIB2 ([`grib`]) or,
+//! with the `gdal` feature, any raster GDAL reads (`gdal`). A
 //! track can also be found from the model's sea-level pressure ([`track_finder`]).
 
 pub mod fields;
+#[cfg(feature = "gdal")]
+pub mod gdal;
 pub mod grib;
 pub mod source;
 pub mod towns;

@@ -3,7 +3,9 @@
 //!
 //! Formats: GeoTIFF (a terrain file and one multi-band file per step, see [`super::fields`]) and
 //! GRIB2 files in any number and order ([`super::grib`]). A model-file member is read as GRIB2
-//! when every file starts with a GRIB edition 2 message; other formats are named in the error.
+//! when every file starts with a GRIB edition 2 message. With the `gdal` feature, model files
+//! that are not all GRIB2 (NetCDF, GRIB1, ...), or any member with `format = "gdal"`, are read
+//! through GDAL ([`super::gdal`]); without it such files are refused with the rebuild command.
 
 use super::fields::{read_static, read_step, FieldError, StaticFields, StepFields};
 use super::grib::{GribError, GribSource};
@@ -22,6 +24,10 @@ pub enum SourceError {
     /// GRIB2 input.
     #[error(transparent)]
     Grib(#[from] GribError),
+    /// Input read through GDAL.
+    #[cfg(feature = "gdal")]
+    #[error(transparent)]
+    Gdal(#[from] super::gdal::GdalError),
     /// A file of a format this build does not read.
     #[error("{path}: {what}")]
     Format {
@@ -131,22 +137,67 @@ pub fn open(member: &Member, warn: &dyn Fn(&str)) -> Result<Box<dyn Source>, Sou
             &member.steps,
         )?)),
         InputFormat::Model => open_model(&member.steps, warn),
+        InputFormat::Gdal => open_gdal(&member.steps, warn),
     }
 }
 
-/// Opens model files (GRIB2).
+/// What to tell someone whose build cannot read a file GDAL would read.
+const REBUILD: &str = "this build reads GRIB2 and GeoTIFF only; rebuild with `cargo build --release --features gdal` (needs the system GDAL library, Debian: libgdal-dev) to read it through GDAL";
+
+/// Opens any files through GDAL (the `gdal` feature).
+#[cfg(feature = "gdal")]
+pub fn open_gdal(files: &[PathBuf], warn: &dyn Fn(&str)) -> Result<Box<dyn Source>, SourceError> {
+    Ok(Box::new(super::gdal::GdalSource::open(files, warn)?))
+}
+
+/// Without the `gdal` feature: the error saying how to get it.
+#[cfg(not(feature = "gdal"))]
+pub fn open_gdal(files: &[PathBuf], _warn: &dyn Fn(&str)) -> Result<Box<dyn Source>, SourceError> {
+    Err(SourceError::Format {
+        path: files.first().cloned().unwrap_or_default(),
+        what: format!("format = \"gdal\": {REBUILD}"),
+    })
+}
+
+/// Opens model files: GRIB2 in pure Rust; with the `gdal` feature, files none of which is GRIB2
+/// or TIFF (NetCDF, GRIB1, ...) through GDAL. A set mixing GRIB2 with other files is refused
+/// (a broken file in a GRIB2 folder should be named, not read another way); `format = "gdal"`
+/// reads any mix through GDAL.
 pub fn open_model(files: &[PathBuf], warn: &dyn Fn(&str)) -> Result<Box<dyn Source>, SourceError> {
+    let mut other = None;
+    let mut grib2 = 0usize;
     for f in files {
-        let what = match magic(f)? {
-            Magic::Grib2 => continue,
-            Magic::Grib1 => "GRIB edition 1; trackswing reads GRIB2",
-            Magic::Tiff => "a TIFF file among model files; GeoTIFF cases name a terrain file and step files in a case file",
-            Magic::Other => "not a GRIB file (it does not start with \"GRIB\"); trackswing reads GRIB2 model output",
-        };
-        return Err(SourceError::Format {
-            path: f.clone(),
-            what: what.into(),
-        });
+        match magic(f)? {
+            Magic::Grib2 => grib2 += 1,
+            Magic::Tiff => {
+                return Err(SourceError::Format {
+                    path: f.clone(),
+                    what: "a TIFF file among model files; GeoTIFF cases name a terrain file and step files in a case file (with the gdal feature, format = \"gdal\" reads GeoTIFF stacks as model files)".into(),
+                })
+            }
+            m @ (Magic::Grib1 | Magic::Other) => {
+                other.get_or_insert((f.clone(), m));
+            }
+        }
     }
-    Ok(Box::new(GribSource::open(files, warn)?))
+    let Some((path, m)) = other else {
+        return Ok(Box::new(GribSource::open(files, warn)?));
+    };
+    if grib2 == 0 && cfg!(feature = "gdal") {
+        return open_gdal(files, warn);
+    }
+    let what = if m == Magic::Grib1 {
+        "GRIB edition 1"
+    } else {
+        "not a GRIB file (it does not start with \"GRIB\")"
+    };
+    let how = if grib2 > 0 {
+        format!("the other {grib2} file(s) are GRIB2; remove it, or read every file through GDAL with format = \"gdal\" (a build with `--features gdal`)")
+    } else {
+        REBUILD.to_string()
+    };
+    Err(SourceError::Format {
+        path,
+        what: format!("{what}; {how}"),
+    })
 }

@@ -5,6 +5,7 @@ mod bad_input;
 mod demo;
 mod engine;
 mod fuzz;
+mod gdal_source;
 mod geotiff_gdal;
 mod grib;
 mod physics;

@@ -16,10 +16,10 @@ use super::support::bin;
 #[cfg(feature = "gdal")]
 mod with_gdal {
     use super::*;
-    use std::path::Path;
     use gdal::raster::{Buffer, RasterCreationOptions};
     use gdal::spatial_ref::SpatialRef;
     use gdal::{DriverManager, Metadata};
+    use std::path::Path;
     use std::path::PathBuf;
     use trackswing::case::{Case, Overrides};
     use trackswing::demo::grib2_case::write_case_grib2;
@@ -84,14 +84,16 @@ mod with_gdal {
             ("time", "hours since 2026-01-13 12:00:00", "time"),
             ("plev", "hPa", "air_pressure"),
         ] {
-            ds.set_metadata_item(&format!("{k}#units"), units, "").unwrap();
+            ds.set_metadata_item(&format!("{k}#units"), units, "")
+                .unwrap();
             ds.set_metadata_item(&format!("{k}#standard_name"), sn, "")
                 .unwrap();
         }
         let sizes: Vec<usize> = v.dims.iter().map(|d| d.1.len()).collect();
         for (b, data) in v.bands.iter().enumerate() {
             let mut band = ds.rasterband(b + 1).unwrap();
-            band.set_metadata_item("NETCDF_VARNAME", v.name, "").unwrap();
+            band.set_metadata_item("NETCDF_VARNAME", v.name, "")
+                .unwrap();
             band.set_metadata_item("standard_name", v.standard_name, "")
                 .unwrap();
             band.set_metadata_item("units", v.units, "").unwrap();
@@ -146,7 +148,9 @@ mod with_gdal {
         let st = src.statics();
         let (nx, ny) = (st.grid.nx, st.grid.ny);
         let gt = st.grid.georef.geotransform;
-        let steps: Vec<_> = (0..src.step_count()).map(|k| src.step(k).unwrap()).collect();
+        let steps: Vec<_> = (0..src.step_count())
+            .map(|k| src.step(k).unwrap())
+            .collect();
         let l = &steps[0].layout;
         let t0 = chrono::DateTime::parse_from_rfc3339("2026-01-13T12:00:00Z").unwrap();
         let hours: Vec<f64> = steps
@@ -308,21 +312,47 @@ mod with_gdal {
             }
             let (ma, mb) = (a.mslp(k).unwrap().unwrap(), b.mslp(k).unwrap().unwrap());
             for (x, y) in ma.iter().zip(&mb) {
-                assert!((x - y).abs() < 0.05, "step {k}: sea-level pressure {x} vs {y} Pa");
+                assert!(
+                    (x - y).abs() < 0.05,
+                    "step {k}: sea-level pressure {x} vs {y} Pa"
+                );
             }
         }
         worst
     }
 
-    fn assert_within(worst: &[f32], layout: &trackswing::read::StepLayout, t: f32, z: f32, rh: f32, p: f32) {
+    fn assert_within(
+        worst: &[f32],
+        layout: &trackswing::read::StepLayout,
+        t: f32,
+        z: f32,
+        rh: f32,
+        p: f32,
+    ) {
         for k in 0..layout.levels_pa.len() {
-            assert!(worst[layout.t(k)] <= t, "T level {k}: {}", worst[layout.t(k)]);
-            assert!(worst[layout.z(k)] <= z, "Z level {k}: {}", worst[layout.z(k)]);
-            assert!(worst[layout.rh(k)] <= rh, "RH level {k}: {}", worst[layout.rh(k)]);
+            assert!(
+                worst[layout.t(k)] <= t,
+                "T level {k}: {}",
+                worst[layout.t(k)]
+            );
+            assert!(
+                worst[layout.z(k)] <= z,
+                "Z level {k}: {}",
+                worst[layout.z(k)]
+            );
+            assert!(
+                worst[layout.rh(k)] <= rh,
+                "RH level {k}: {}",
+                worst[layout.rh(k)]
+            );
         }
         assert!(worst[layout.t2()] <= t, "T2: {}", worst[layout.t2()]);
         assert!(worst[layout.rh2()] <= rh, "RH2: {}", worst[layout.rh2()]);
-        assert!(worst[layout.precip()] <= p, "precip: {}", worst[layout.precip()]);
+        assert!(
+            worst[layout.precip()] <= p,
+            "precip: {}",
+            worst[layout.precip()]
+        );
     }
 
     #[test]
@@ -338,7 +368,10 @@ mod with_gdal {
         // Float32 round trips of T − 273.15 (°C) and of g·z (geopotential): a few f32 ulps of
         // 300 K and of 5·10⁴ m² s⁻²; RH as a fraction ×100.
         assert_within(&worst, &layout, 1e-4, 2e-3, 1e-4, 1e-6);
-        assert!(b.inputs().iter().all(|p| p.extension().is_some_and(|e| e == "nc")));
+        assert!(b
+            .inputs()
+            .iter()
+            .all(|p| p.extension().is_some_and(|e| e == "nc")));
     }
 
     #[test]
@@ -414,6 +447,110 @@ mod with_gdal {
     }
 
     #[test]
+    fn grib_units_are_not_normalised_by_gdal() {
+        // Without GRIB_NORMALIZE_UNITS=NO GDAL's GRIB driver reports TMP in [C] (GDAL 3.6,
+        // GRIB driver documentation); GdalSource sets the option before opening.
+        let d = tempfile::tempdir().unwrap();
+        write_case_grib2(d.path(), &DemoSpec::scaled(16, 12, 2, 6, 3)).unwrap();
+        let f = d.path().join("fields/step_000.grib2");
+        GdalSource::open(std::slice::from_ref(&f), &|_| {}).unwrap();
+        assert_eq!(
+            gdal::config::get_config_option("GRIB_NORMALIZE_UNITS", "").unwrap(),
+            "NO"
+        );
+        let ds = gdal::Dataset::open(&f).unwrap();
+        let b = ds.rasterband(1).unwrap();
+        assert_eq!(b.metadata_item("GRIB_ELEMENT", "").as_deref(), Some("TMP"));
+        assert_eq!(b.metadata_item("GRIB_UNIT", "").as_deref(), Some("[K]"));
+    }
+
+    #[test]
+    fn lambert_grib2_through_gdal_equals_the_pure_rust_reader() {
+        // One file at the reference time on a secant Lambert grid (template 3.30): the grid
+        // comes from GDAL's spatial reference as a PROJ string, the pure-Rust reader builds it
+        // from the template; both place every cell centre through proj4rs.
+        use chrono::{TimeZone, Utc};
+        use trackswing::demo::grib2::{message, BitMap, FieldDef, GridDef};
+        let grid = GridDef::Lambert {
+            nx: 24,
+            ny: 18,
+            la1: 33.0,
+            lo1: 250.0,
+            lad: 38.5,
+            lov: 262.5,
+            dx: 30_000.0,
+            dy: 30_000.0,
+            latin1: 30.0,
+            latin2: 45.0,
+            scan: 0x40,
+        };
+        let n = 24 * 18;
+        let smooth = |base: f32, amp: f32| -> Vec<f32> {
+            (0..n)
+                .map(|i| base + amp * ((i as f32) * 0.37).sin())
+                .collect()
+        };
+        let fields = vec![
+            ((0, 0, 0), (100, 0, 85_000), smooth(268.0, 5.0)),
+            ((0, 3, 5), (100, 0, 85_000), smooth(1450.0, 30.0)),
+            ((0, 1, 1), (100, 0, 85_000), smooth(80.0, 15.0)),
+            ((0, 0, 0), (100, 0, 70_000), smooth(258.0, 5.0)),
+            ((0, 3, 5), (100, 0, 70_000), smooth(2950.0, 30.0)),
+            ((0, 1, 1), (100, 0, 70_000), smooth(70.0, 20.0)),
+            ((0, 0, 0), (103, 0, 2), smooth(272.0, 4.0)),
+            ((0, 1, 1), (103, 0, 2), smooth(85.0, 10.0)),
+            ((0, 3, 5), (1, 0, 0), smooth(300.0, 200.0)),
+            ((0, 3, 1), (101, 0, 0), smooth(100_500.0, 800.0)),
+        ];
+        let defs: Vec<FieldDef> = fields
+            .iter()
+            .map(|(param, surface, v)| FieldDef {
+                param: *param,
+                surface: *surface,
+                reference: Utc.with_ymd_and_hms(2026, 1, 14, 0, 0, 0).unwrap(),
+                forecast_hours: 0,
+                accumulation_hours: None,
+                decimal_scale: 2,
+                values: v,
+                bitmap: BitMap::Auto,
+            })
+            .collect();
+        let d = tempfile::tempdir().unwrap();
+        let f = d.path().join("lcc.grib2");
+        let mut bytes = Vec::new();
+        for def in &defs {
+            bytes.extend(message(&grid, std::slice::from_ref(def)));
+        }
+        std::fs::write(&f, bytes).unwrap();
+        let files = [f];
+        let a = GribSource::open(&files, &|_| {}).unwrap();
+        let b = GdalSource::open(&files, &|_| {}).unwrap();
+        let (ga, gb) = (&a.statics().grid, &b.statics().grid);
+        assert!(ga.is_projected() && gb.is_projected());
+        let mut worst = 0.0f64;
+        for (x, y) in ga
+            .lon()
+            .iter()
+            .zip(gb.lon())
+            .chain(ga.lat().iter().zip(gb.lat()))
+        {
+            worst = worst.max((x - y).abs());
+        }
+        eprintln!("Lambert cell centres: largest difference {worst}°");
+        assert!(worst < 1e-6, "cell centres differ by {worst}°");
+        for (ma, mb) in ga.metric().iter().zip(gb.metric()) {
+            assert!((ma.col_per_km_east - mb.col_per_km_east).abs() < 1e-5);
+            assert!((ma.row_per_km_north - mb.row_per_km_north).abs() < 1e-5);
+        }
+        let (sa, sb) = (a.step(0).unwrap(), b.step(0).unwrap());
+        assert_eq!(sa.valid, sb.valid);
+        assert_eq!(sa.layout, sb.layout);
+        for (x, y) in sa.columns.iter().zip(&sb.columns) {
+            assert!((x - y).abs() <= 1e-3 * x.abs().max(1.0), "{x} vs {y}");
+        }
+    }
+
+    #[test]
     fn temperature_in_fahrenheit_is_refused_naming_file_band_and_units() {
         let d = tempfile::tempdir().unwrap();
         trackswing::demo::files::write_case(d.path(), &DemoSpec::scaled(16, 12, 3, 6, 3)).unwrap();
@@ -430,7 +567,13 @@ mod with_gdal {
         std::fs::remove_file(&p).unwrap();
         let gt = trackswing::demo::files::georef(&DemoSpec::scaled(16, 12, 3, 6, 3)).geotransform;
         write_nc(&p, gt, 16, 12, &v);
-        let o = bin().arg("run").arg(&nc).arg("--cross").arg("0").output().unwrap();
+        let o = bin()
+            .arg("run")
+            .arg(&nc)
+            .arg("--cross")
+            .arg("0")
+            .output()
+            .unwrap();
         let err = String::from_utf8_lossy(&o.stderr);
         assert_eq!(o.status.code(), Some(3), "{err}");
         for want in ["tas.nc", "band 1", "degF", "K or °C"] {
@@ -455,7 +598,10 @@ fn netcdf_without_the_feature_says_how_to_rebuild() {
         .unwrap();
     let err = String::from_utf8_lossy(&o.stderr);
     assert_eq!(o.status.code(), Some(3), "{err}");
-    assert!(err.contains("model.nc") && err.contains("--features gdal"), "{err}");
+    assert!(
+        err.contains("model.nc") && err.contains("--features gdal"),
+        "{err}"
+    );
     assert!(!d.path().join("out").exists());
     let case = d.path().join("case.toml");
     std::fs::write(
@@ -466,5 +612,8 @@ fn netcdf_without_the_feature_says_how_to_rebuild() {
     let o = bin().arg("run").arg(&case).output().unwrap();
     let err = String::from_utf8_lossy(&o.stderr);
     assert_eq!(o.status.code(), Some(3), "{err}");
-    assert!(err.contains("member[0].format") && err.contains("--features gdal"), "{err}");
+    assert!(
+        err.contains("member[0].format") && err.contains("--features gdal"),
+        "{err}"
+    );
 }

@@ -268,8 +268,10 @@ fn netcdf(m: &Meta<'_>, var: &str) -> Result<Option<BandInfo>, String> {
         {
             level = Some(Level::Isobaric(p));
             at = format!(" at {dim} = {value} {dunits}");
-        } else if matches!(normalise(dunits).as_str(), "m" | "metre" | "meter" | "metres")
-            && (attr("standard_name") == "height" || attr("axis") == "Z")
+        } else if matches!(
+            normalise(dunits).as_str(),
+            "m" | "metre" | "meter" | "metres"
+        ) && (attr("standard_name") == "height" || attr("axis") == "Z")
         {
             level = Some(Level::AboveGround(value));
             at = format!(" at {dim} = {value} m");
@@ -313,7 +315,11 @@ pub fn cf_time(units: &str, value: f64, calendar: &str) -> Result<DateTime<Utc>,
         "minutes" | "minute" | "mins" | "min" => 60.0,
         "hours" | "hour" | "hrs" | "hr" | "h" => 3600.0,
         "days" | "day" | "d" => 86400.0,
-        other => return Err(format!("time unit '{other}' (expected seconds, minutes, hours or days)")),
+        other => {
+            return Err(format!(
+                "time unit '{other}' (expected seconds, minutes, hours or days)"
+            ))
+        }
     };
     let epoch = parse_since(since.trim()).ok_or_else(|| format!("'{since}' is not a date"))?;
     let ms = value * seconds * 1000.0;
@@ -379,9 +385,7 @@ fn grib(m: &Meta<'_>, element: &str) -> Result<Option<BandInfo>, String> {
         "SPFH" if !surface => (Quantity::SpecificHumidity, UnitsOf::Ratio, 1.0),
         "DPT" if !surface => (Quantity::Dewpoint, UnitsOf::Temperature, 1.0),
         "PRMSL" if kind.trim() == "MSL" => (Quantity::Mslp, UnitsOf::Pressure, 1.0),
-        e if e.starts_with("APCP") && surface => {
-            (Quantity::Precipitation, UnitsOf::Amount, 1.0)
-        }
+        e if e.starts_with("APCP") && surface => (Quantity::Precipitation, UnitsOf::Amount, 1.0),
         _ => return Ok(None),
     };
     let units = get(m.band, "GRIB_UNIT").unwrap_or(m.unit_type);
@@ -494,7 +498,10 @@ mod tests {
     fn units_are_mapped_or_refused() {
         // Conversion factors: 0 °C = 273.15 K (SI Brochure, 9th ed., §2.3.1); 1 hPa = 100 Pa;
         // 1 mm of liquid water = 1 kg m-2 (density 1000 kg m-3).
-        assert_eq!(convert(UnitsOf::Temperature, "degC").unwrap(), (1.0, 273.15));
+        assert_eq!(
+            convert(UnitsOf::Temperature, "degC").unwrap(),
+            (1.0, 273.15)
+        );
         assert_eq!(convert(UnitsOf::Temperature, "[K]").unwrap(), (1.0, 0.0));
         assert_eq!(convert(UnitsOf::Humidity, "1").unwrap(), (100.0, 0.0));
         assert_eq!(convert(UnitsOf::Amount, "[kg/(m^2)]").unwrap(), (1.0, 0.0));

@@ -27,8 +27,8 @@ use crate::read::fields::{
 };
 use crate::read::grib::rh_from_specific;
 use crate::read::source::{Source, SourceError};
-use chrono::{DateTime, Utc};
 use ::gdal::{Dataset, Metadata};
+use chrono::{DateTime, Utc};
 use std::path::{Path, PathBuf};
 
 /// Most levels a column can hold (see `diagnose::ptype::MAX_LEVELS`).
@@ -108,7 +108,10 @@ fn gdal_err(path: &Path, e: impl std::fmt::Display) -> GdalError {
 fn items(list: Option<Vec<String>>) -> Vec<(String, String)> {
     list.unwrap_or_default()
         .into_iter()
-        .filter_map(|s| s.split_once('=').map(|(k, v)| (k.to_string(), v.to_string())))
+        .filter_map(|s| {
+            s.split_once('=')
+                .map(|(k, v)| (k.to_string(), v.to_string()))
+        })
         .collect()
 }
 
@@ -157,7 +160,10 @@ fn map_projection(proj: &str) -> Result<(MapProjection, f64, f64), String> {
     } else {
         return Err(format!("'{proj}': no Earth radius or known ellipsoid"));
     };
-    if num("k").or(num("k_0")).is_some_and(|k| (k - 1.0).abs() > 1e-9) {
+    if num("k")
+        .or(num("k_0"))
+        .is_some_and(|k| (k - 1.0).abs() > 1e-9)
+    {
         return Err(format!(
             "'{proj}': a scale factor other than 1 is not supported"
         ));
@@ -220,7 +226,11 @@ fn raw_grid(ds: &Dataset) -> Result<RawGrid, String> {
             Some(map)
         }
         Some(s) if s.is_geographic() => None,
-        Some(_) => return Err("its coordinate reference system is neither geographic nor projected".into()),
+        Some(_) => {
+            return Err(
+                "its coordinate reference system is neither geographic nor projected".into(),
+            )
+        }
         None => {
             let inside = gt[0] >= -360.0
                 && gt[0] + nx as f64 * gt[1] <= 360.0
@@ -234,8 +244,7 @@ fn raw_grid(ds: &Dataset) -> Result<RawGrid, String> {
     };
     // Lat/lon grids stored 180…360 (GRIB's usual longitudes) are given as −180…0, as the GRIB2
     // reader gives them.
-    if map.is_none() && gt[0] + 0.5 * gt[1] >= 180.0 && gt[0] + nx as f64 * gt[1] <= 360.0 + 1e-9
-    {
+    if map.is_none() && gt[0] + 0.5 * gt[1] >= 180.0 && gt[0] + nx as f64 * gt[1] <= 360.0 + 1e-9 {
         gt[0] -= 360.0;
     }
     Ok(RawGrid {
@@ -256,7 +265,9 @@ fn raw_text(g: &RawGrid) -> String {
         g.gt[3],
         g.gt[1],
         g.gt[5],
-        g.map.map(|m| format!(", {}", m.describe())).unwrap_or_default()
+        g.map
+            .map(|m| format!(", {}", m.describe()))
+            .unwrap_or_default()
     )
 }
 
@@ -697,7 +708,8 @@ impl Chooser<'_> {
                 .enumerate()
                 .filter(|(_, e)| e.info.quantity == Quantity::Precipitation)
         };
-        if let Some((i, _)) = precip().find(|(_, e)| e.info.start.is_none() && e.info.valid == Some(end))
+        if let Some((i, _)) =
+            precip().find(|(_, e)| e.info.start.is_none() && e.info.valid == Some(end))
         {
             return Ok((vec![i], vec![]));
         }
@@ -718,14 +730,14 @@ impl Chooser<'_> {
             }
         };
         if k == 0 {
-            if let Some((_, _, i)) = totals.iter().filter(|(_, e, _)| *e == end).min_by_key(|t| t.0) {
+            if let Some((_, _, i)) = totals
+                .iter()
+                .filter(|(_, e, _)| *e == end)
+                .min_by_key(|t| t.0)
+            {
                 return Ok((vec![*i], vec![]));
             }
-            let reference = self
-                .entries
-                .iter()
-                .filter_map(|e| e.info.reference)
-                .min();
+            let reference = self.entries.iter().filter_map(|e| e.info.reference).min();
             if reference.is_some_and(|r| end <= r) {
                 return Ok((vec![], vec![]));
             }
@@ -844,11 +856,13 @@ impl Source for GdalSource {
             levels_pa: s.levels.iter().map(|l| l.0).collect(),
             levels: owned
                 .iter()
-                .map(|[t, z, h]| [
+                .map(|[t, z, h]| {
+                    [
                         labelled(self, t.0, &t.1),
                         labelled(self, z.0, &z.1),
                         labelled(self, h.0, &h.1),
-                    ])
+                    ]
+                })
                 .collect(),
             t2: labelled(self, s.t2, &t2),
             rh2: labelled(self, s.hum2.index(), &rh2),
@@ -904,7 +918,13 @@ mod tests {
                 lon_0: 265.0
             }
         );
-        assert_eq!(m.earth, Earth { a: 6371229.0, b: 6371229.0 });
+        assert_eq!(
+            m.earth,
+            Earth {
+                a: 6371229.0,
+                b: 6371229.0
+            }
+        );
         let (m, _, _) = map_projection(
             "+proj=stere +lat_0=90 +lat_ts=60 +lon_0=-105 +k=1 +x_0=0 +y_0=0 +R=6371229 +units=m +no_defs",
         )

@@ -49,9 +49,13 @@ mod with_gdal {
         packed: Option<f64>,
     }
 
-    fn write_nc(path: &Path, gt: [f64; 6], nx: usize, ny: usize, v: &Var) {
+    /// Writes `vars` into one NetCDF file. Several variables in one file must be 2-D (without
+    /// extra dimensions GDAL writes each band as its own variable, read back as subdatasets).
+    fn write_nc(path: &Path, gt: [f64; 6], nx: usize, ny: usize, vars: &[&Var]) {
+        let v = vars[0];
+        assert!(vars.len() == 1 || vars.iter().all(|v| v.dims.is_empty() && v.bands.len() == 1));
         let mem = DriverManager::get_driver_by_name("MEM").unwrap();
-        let nb = v.bands.len();
+        let nb: usize = vars.iter().map(|v| v.bands.len()).sum();
         let mut ds = match v.packed {
             None => mem.create_with_band_type::<f32, _>("", nx, ny, nb).unwrap(),
             Some(_) => mem.create_with_band_type::<i16, _>("", nx, ny, nb).unwrap(),
@@ -90,8 +94,11 @@ mod with_gdal {
                 .unwrap();
         }
         let sizes: Vec<usize> = v.dims.iter().map(|d| d.1.len()).collect();
-        for (b, data) in v.bands.iter().enumerate() {
-            let mut band = ds.rasterband(b + 1).unwrap();
+        let bands = vars
+            .iter()
+            .flat_map(|v| v.bands.iter().enumerate().map(move |(b, d)| (*v, b, d)));
+        for (n, (v, b, data)) in bands.enumerate() {
+            let mut band = ds.rasterband(n + 1).unwrap();
             band.set_metadata_item("NETCDF_VARNAME", v.name, "")
                 .unwrap();
             band.set_metadata_item("standard_name", v.standard_name, "")
@@ -254,10 +261,37 @@ mod with_gdal {
                 packed: Some(0.1),
             },
         ];
+        let land = trackswing::geotiff::read_geotiff(&dir.join("terrain.tif"))
+            .unwrap()
+            .bands[1]
+            .iter()
+            .map(|x| f64::from(*x))
+            .collect();
+        let sftlf = Var {
+            name: "sftlf",
+            standard_name: "land_area_fraction",
+            units: "1",
+            dims: vec![],
+            bands: vec![land],
+            packed: Some(0.001),
+        };
         std::fs::create_dir_all(dir.join("nc")).unwrap();
-        for v in &vars {
-            write_nc(&dir.join(format!("nc/{}.nc", v.name)), gt, nx, ny, v);
+        let (orog, timed) = vars.split_last().unwrap();
+        for v in timed {
+            write_nc(&dir.join(format!("nc/{}.nc", v.name)), gt, nx, ny, &[v]);
         }
+        // Terrain in a file of two variables, as static fields often come.
+        let fixed = dir.join("nc/fixed.nc");
+        write_nc(&fixed, gt, nx, ny, &[orog, &sftlf]);
+        let subs = gdal::Dataset::open(&fixed)
+            .unwrap()
+            .metadata_domain("SUBDATASETS")
+            .unwrap_or_default();
+        assert_eq!(
+            subs.len(),
+            4,
+            "two variables, a name and a description each: {subs:?}"
+        );
         let text = std::fs::read_to_string(dir.join("case.toml"))
             .unwrap()
             .replace(
@@ -566,7 +600,7 @@ mod with_gdal {
         };
         std::fs::remove_file(&p).unwrap();
         let gt = trackswing::demo::files::georef(&DemoSpec::scaled(16, 12, 3, 6, 3)).geotransform;
-        write_nc(&p, gt, 16, 12, &v);
+        write_nc(&p, gt, 16, 12, &[&v]);
         let o = bin()
             .arg("run")
             .arg(&nc)

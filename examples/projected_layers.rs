@@ -69,10 +69,7 @@ fn main() -> anyhow::Result<()> {
         },
     )?;
 
-    let scenarios: Vec<Scenario> = cross_km
-        .iter()
-        .map(|&c| Scenario::offset(c, 0.0))
-        .collect();
+    let scenarios: Vec<Scenario> = cross_km.iter().map(|&c| Scenario::offset(c, 0.0)).collect();
     let baseline = scenarios
         .iter()
         .position(Scenario::is_baseline)

@@ -2,6 +2,7 @@
 
 mod atomic;
 mod bad_input;
+mod decisions;
 mod demo;
 mod engine;
 mod fuzz;
@@ -9,4 +10,5 @@ mod geotiff_gdal;
 mod grib;
 mod physics;
 mod reference;
+mod report;
 mod support;

@@ -119,20 +119,25 @@ pub enum WeightsError {
     },
 }
 
-fn same(a: f64, b: f64) -> bool {
-    (a - b).abs() < SAME_OFFSET_KM
+/// An offset as whole micrometres of km, so offsets can be looked up exactly.
+fn key(cross_km: f64, along_km: f64) -> (i64, i64) {
+    let k = |v: f64| (v / SAME_OFFSET_KM).round() as i64;
+    (k(cross_km), k(along_km))
 }
 
-/// The width of offset space each value of one axis stands for: half the gap to each
+/// The distinct values of one axis, sorted, for [`axis_width`].
+fn axis_values(values: impl Iterator<Item = f64>) -> Vec<f64> {
+    let mut u: Vec<f64> = values.collect();
+    u.sort_by(f64::total_cmp);
+    u.dedup_by(|a, b| (*a - *b).abs() < SAME_OFFSET_KM);
+    u
+}
+
+/// The width of offset space value `v` of a sorted axis `u` stands for: half the gap to each
 /// neighbour, the whole gap at the two ends (so even spacing gives equal widths), 1 when the
 /// axis has a single value.
-fn axis_width(values: &[f64], v: f64) -> f64 {
-    let mut u: Vec<f64> = values.to_vec();
-    u.sort_by(f64::total_cmp);
-    u.dedup_by(|a, b| same(*a, *b));
-    let Some(k) = u.iter().position(|x| same(*x, v)) else {
-        return 1.0;
-    };
+fn axis_width(u: &[f64], v: f64) -> f64 {
+    let k = u.partition_point(|x| *x < v - SAME_OFFSET_KM);
     match (k.checked_sub(1).map(|j| u[j]), u.get(k + 1)) {
         (None, None) => 1.0,
         (Some(lo), None) => v - lo,
@@ -166,8 +171,8 @@ pub fn scenario_weights(
                     return Err(WeightsError::BadSigma(s));
                 }
             }
-            let cross: Vec<f64> = scenarios.iter().map(|s| s.cross_km).collect();
-            let along: Vec<f64> = scenarios.iter().map(|s| s.along_km).collect();
+            let cross = axis_values(scenarios.iter().map(|s| s.cross_km));
+            let along = axis_values(scenarios.iter().map(|s| s.along_km));
             scenarios
                 .iter()
                 .map(|s| {
@@ -179,7 +184,12 @@ pub fn scenario_weights(
                 .collect()
         }
         TrackPrior::Explicit { weights, .. } => {
-            for (i, w) in weights.iter().enumerate() {
+            let run: std::collections::HashSet<(i64, i64)> = scenarios
+                .iter()
+                .map(|s| key(s.cross_km, s.along_km))
+                .collect();
+            let mut given = std::collections::HashMap::with_capacity(weights.len());
+            for w in weights {
                 if !(w.weight.is_finite() && w.weight >= 0.0) {
                     return Err(WeightsError::BadWeight {
                         cross_km: w.cross_km,
@@ -187,19 +197,14 @@ pub fn scenario_weights(
                         weight: w.weight,
                     });
                 }
-                if weights[..i]
-                    .iter()
-                    .any(|o| same(o.cross_km, w.cross_km) && same(o.along_km, w.along_km))
-                {
+                let k = key(w.cross_km, w.along_km);
+                if given.insert(k, w.weight).is_some() {
                     return Err(WeightsError::Duplicate {
                         cross_km: w.cross_km,
                         along_km: w.along_km,
                     });
                 }
-                if !scenarios
-                    .iter()
-                    .any(|s| same(s.cross_km, w.cross_km) && same(s.along_km, w.along_km))
-                {
+                if !run.contains(&k) {
                     return Err(WeightsError::Unknown {
                         cross_km: w.cross_km,
                         along_km: w.along_km,
@@ -209,10 +214,9 @@ pub fn scenario_weights(
             scenarios
                 .iter()
                 .map(|s| {
-                    weights
-                        .iter()
-                        .find(|w| same(s.cross_km, w.cross_km) && same(s.along_km, w.along_km))
-                        .map(|w| w.weight)
+                    given
+                        .get(&key(s.cross_km, s.along_km))
+                        .copied()
                         .ok_or(WeightsError::Missing {
                             cross_km: s.cross_km,
                             along_km: s.along_km,

@@ -196,6 +196,13 @@ fn main() -> anyhow::Result<()> {
         units: Units::Metric,
         raster_type,
         snowfall_bands: DEFAULT_BANDS_CM.to_vec(),
+        prior: trackswing::summarise::weights::TrackPrior::Gaussian {
+            cross_sigma_km: 50.0,
+            along_sigma_km: 50.0,
+        },
+        snow_thresholds: Units::Metric.default_snow_thresholds(),
+        ice_thresholds: Units::Metric.default_ice_thresholds(),
+        report: false,
         force: true,
     };
     let expected = expected_cells(&grid, &totals, baseline);

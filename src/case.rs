@@ -7,6 +7,7 @@
 use crate::diagnose::{Methods, PtypeMethod, SlrMethod};
 use crate::scenario::{parse_offsets, Axes, OffsetError};
 use crate::shift::Taper;
+use crate::summarise::weights::{read_weights_csv, scenario_weights, ExplicitWeight, TrackPrior};
 use serde::Deserialize;
 use std::path::{Path, PathBuf};
 
@@ -137,6 +138,24 @@ pub struct OutputFile {
     pub raster_type: Option<String>,
     /// Snowfall isoband thresholds in the output units, increasing.
     pub snowfall_bands: Option<Vec<f64>>,
+    /// Snowfall thresholds for the exceedance probabilities, in the output units.
+    pub thresholds: Option<Vec<f64>>,
+    /// Ice-accretion thresholds for the exceedance probabilities, in the output liquid units.
+    pub ice_thresholds: Option<Vec<f64>>,
+}
+
+/// `[weights]`: the prior over track offsets.
+#[derive(Debug, Deserialize, Clone, Default)]
+#[serde(deny_unknown_fields)]
+pub struct WeightsFile {
+    /// Gaussian σ across the track, km (from the user's own verification of track error).
+    pub cross_sigma_km: Option<f64>,
+    /// Gaussian σ along the track, km.
+    pub along_sigma_km: Option<f64>,
+    /// Explicit weights, one per offset of the run.
+    pub explicit: Option<Vec<ExplicitWeight>>,
+    /// Explicit weights from a CSV (`cross_km,along_km,weight`).
+    pub explicit_file: Option<String>,
 }
 
 /// The case file as written.
@@ -161,6 +180,9 @@ pub struct CaseFile {
     /// Outputs.
     #[serde(default)]
     pub output: OutputFile,
+    /// The prior over track offsets.
+    #[serde(default)]
+    pub weights: WeightsFile,
 }
 
 /// Output units.
@@ -208,6 +230,35 @@ impl Units {
         match self {
             Self::Metric => "mm",
             Self::Us => "in",
+        }
+    }
+    /// Converts a snow depth in the output unit to mm.
+    pub fn snow_to_mm(&self, v: f64) -> f64 {
+        match self {
+            Self::Metric => v * 10.0,
+            Self::Us => v * 25.4,
+        }
+    }
+    /// Converts a liquid (or ice) depth in the output unit to mm.
+    pub fn liquid_to_mm(&self, v: f64) -> f64 {
+        match self {
+            Self::Metric => v,
+            Self::Us => v * 25.4,
+        }
+    }
+    /// Default snowfall thresholds in this unit: common round amounts, not a standard.
+    pub fn default_snow_thresholds(&self) -> Vec<f64> {
+        match self {
+            Self::Metric => vec![2.5, 5.0, 10.0, 15.0, 20.0, 30.0],
+            Self::Us => vec![1.0, 2.0, 4.0, 6.0, 8.0, 12.0],
+        }
+    }
+    /// Default ice-accretion thresholds in this unit (a quarter and a half inch of ice are
+    /// widely used damage criteria, common practice).
+    pub fn default_ice_thresholds(&self) -> Vec<f64> {
+        match self {
+            Self::Metric => vec![1.0, 2.5, 6.0, 12.0, 25.0],
+            Self::Us => vec![0.05, 0.1, 0.25, 0.5, 1.0],
         }
     }
 }
@@ -308,6 +359,12 @@ pub struct Overrides {
     pub warm_bias: Option<String>,
     /// `--raster-type`.
     pub raster_type: Option<String>,
+    /// `--cross-sigma`, km.
+    pub cross_sigma: Option<f64>,
+    /// `--along-sigma`, km.
+    pub along_sigma: Option<f64>,
+    /// `--report` (and `demo`): write report.html with the set.
+    pub report: bool,
 }
 
 /// A case ready to run.
@@ -348,6 +405,14 @@ pub struct Case {
     pub raster_type: RasterType,
     /// Snowfall isoband thresholds in the output units, increasing.
     pub snowfall_bands: Vec<f64>,
+    /// The prior over track offsets.
+    pub prior: TrackPrior,
+    /// Snowfall thresholds, output snow units, increasing.
+    pub snow_thresholds: Vec<f64>,
+    /// Ice-accretion thresholds, output liquid units, increasing.
+    pub ice_thresholds: Vec<f64>,
+    /// Write report.html with the set.
+    pub report: bool,
 }
 
 /// Default core radius, km: the displacement is complete over the low's circulation and
@@ -641,6 +706,49 @@ impl Case {
                 b.clone()
             }
         };
+        let thresholds = |field: &str, given: &Option<Vec<f64>>, default: Vec<f64>| {
+            let t = given.clone().unwrap_or(default);
+            let ok = !t.is_empty()
+                && t.len() <= 16
+                && t.iter().all(|v| v.is_finite() && *v > 0.0)
+                && t.windows(2).all(|w| w[0] < w[1]);
+            if ok {
+                Ok(t)
+            } else {
+                Err(invalid(
+                    field,
+                    format!("{t:?}: expected 1 to 16 positive amounts in increasing order, in the output units ({})", match field {
+                        "output.thresholds" => units.snow_unit(),
+                        _ => units.liquid_unit(),
+                    }),
+                ))
+            }
+        };
+        let snow_thresholds = thresholds(
+            "output.thresholds",
+            &file.output.thresholds,
+            units.default_snow_thresholds(),
+        )?;
+        let ice_thresholds = thresholds(
+            "output.ice_thresholds",
+            &file.output.ice_thresholds,
+            units.default_ice_thresholds(),
+        )?;
+        let prior = resolve_prior(dir, &file.weights, over)
+            .map_err(|(field, what)| invalid(&field, what))?;
+        scenario_weights(&prior, &crate::scenario::scenario_set(&cross_km, &along_km)).map_err(
+            |e| {
+                let field = match (&prior, over.cross_sigma.or(over.along_sigma)) {
+                    (_, Some(_)) => "--cross-sigma/--along-sigma",
+                    (TrackPrior::Explicit { .. }, _) if file.weights.explicit_file.is_some() => {
+                        "weights.explicit_file"
+                    }
+                    (TrackPrior::Explicit { .. }, _) => "weights.explicit",
+                    _ => "weights",
+                };
+                invalid(field, e.to_string())
+            },
+        )?;
         let out_dir = match (&over.out, &file.output.folder) {
             (Some(o), _) => o.clone(),
             (None, Some(f)) => dir.join(f),
@@ -672,6 +780,10 @@ impl Case {
             force: over.force,
             raster_type,
             snowfall_bands,
+            prior,
+            snow_thresholds,
+            ice_thresholds,
+            report: over.report,
         })
     }
 
@@ -695,6 +807,61 @@ impl Case {
             intensity: self.intensity.clone(),
             warm_bias_k: self.warm_bias_k.clone(),
         }
+    }
+}
+
+/// The prior from `[weights]` and the σ flags (which win, and select the Gaussian). Errors name
+/// the field.
+fn resolve_prior(
+    dir: &Path,
+    w: &WeightsFile,
+    over: &Overrides,
+) -> Result<TrackPrior, (String, String)> {
+    let sigma_flags = over.cross_sigma.is_some() || over.along_sigma.is_some();
+    let explicit = match (&w.explicit, &w.explicit_file) {
+        (Some(_), Some(_)) => {
+            return Err((
+                "weights".into(),
+                "give either explicit or explicit_file, not both".into(),
+            ))
+        }
+        (Some(list), None) => Some(TrackPrior::Explicit {
+            source: "case file".into(),
+            weights: list.clone(),
+        }),
+        (None, Some(f)) => {
+            let p = dir.join(f);
+            let weights = read_weights_csv(&p).map_err(|e| {
+                (
+                    "weights.explicit_file".to_string(),
+                    format!("{}: {e}", p.display()),
+                )
+            })?;
+            Some(TrackPrior::Explicit {
+                source: p.display().to_string(),
+                weights,
+            })
+        }
+        (None, None) => None,
+    };
+    if explicit.is_some() && (w.cross_sigma_km.is_some() || w.along_sigma_km.is_some()) {
+        return Err((
+            "weights".into(),
+            "give either σ (cross_sigma_km, along_sigma_km) or explicit weights, not both".into(),
+        ));
+    }
+    match explicit {
+        Some(e) if !sigma_flags => Ok(e),
+        _ => Ok(TrackPrior::Gaussian {
+            cross_sigma_km: over
+                .cross_sigma
+                .or(w.cross_sigma_km)
+                .unwrap_or(crate::summarise::weights::EXAMPLE_CROSS_SIGMA_KM),
+            along_sigma_km: over
+                .along_sigma
+                .or(w.along_sigma_km)
+                .unwrap_or(crate::summarise::weights::EXAMPLE_ALONG_SIGMA_KM),
+        }),
     }
 }
 
@@ -842,7 +1009,9 @@ impl Case {
                 units: None,
                 raster_type: None,
                 snowfall_bands: None,
+                ..OutputFile::default()
             },
+            weights: WeightsFile::default(),
         };
         let mut case = Self::resolve(Path::new("command line"), file, over)?;
         // No case file exists; the manifest hashes `path`, so it names the first model file.
@@ -975,6 +1144,46 @@ snow_ratio = "max-column-temperature"
         let c = Case::load(&p, &over).unwrap();
         assert_eq!(c.cross_km, vec![0.0]);
         assert_eq!(c.units, Units::Us);
+    }
+
+    #[test]
+    fn weights_and_thresholds() {
+        let (_d, p) = setup(GOOD);
+        let c = Case::load(&p, &Overrides::default()).unwrap();
+        assert_eq!(c.prior, TrackPrior::default());
+        assert_eq!(c.snow_thresholds, vec![2.5, 5.0, 10.0, 15.0, 20.0, 30.0]);
+        let over = Overrides {
+            units: Some("us".into()),
+            cross_sigma: Some(30.0),
+            ..Default::default()
+        };
+        let c = Case::load(&p, &over).unwrap();
+        assert_eq!(c.snow_thresholds, vec![1.0, 2.0, 4.0, 6.0, 8.0, 12.0]);
+        assert_eq!(
+            c.prior,
+            TrackPrior::Gaussian {
+                cross_sigma_km: 30.0,
+                along_sigma_km: crate::summarise::weights::EXAMPLE_ALONG_SIGMA_KM
+            }
+        );
+        let load_err = |extra: &str| {
+            let (_d, p) = setup(&format!("{GOOD}{extra}"));
+            Case::load(&p, &Overrides::default())
+                .unwrap_err()
+                .to_string()
+        };
+        let e = load_err("[weights]\ncross_sigma_km = -5\n");
+        assert!(e.contains("'weights'") && e.contains("positive"), "{e}");
+        let e = load_err("[weights]\nexplicit = [{ cross_km = 0, along_km = 0, weight = 1 }]\n");
+        assert!(
+            e.contains("weights.explicit") && e.contains("cross -20 km, along 0 km"),
+            "{e}"
+        );
+        let e = load_err("[output]\nthresholds = [5, 2.5]\n").replace('\n', " ");
+        assert!(
+            e.contains("output.thresholds") && e.contains("increasing"),
+            "{e}"
+        );
     }
 
     #[test]

@@ -37,6 +37,8 @@ pub enum Command {
     Track(TrackArgs),
     /// Run the shipped demo case (an invented storm over an invented region).
     Demo(DemoArgs),
+    /// Write report.html (maps, bust-prone towns, settings) for a finished run's output folder.
+    Report(ReportArgs),
     /// Write the invented demo storm's input files (used to build demo-grid/ and benchmark cases).
     #[command(hide = true)]
     MakeDemo(MakeDemoArgs),
@@ -91,9 +93,29 @@ pub struct Common {
     /// Sample type of the GeoTIFF layers: float32 or int16 (scaled, about half the size).
     #[arg(long, value_name = "float32|int16")]
     pub raster_type: Option<String>,
+    /// Track-error σ across the track, km, for the Gaussian weighting of the offsets. Take it
+    /// from your own verification of track error at this lead time; the default (50 km) is an
+    /// example, not a climatology.
+    #[arg(long, value_name = "KM")]
+    pub cross_sigma: Option<f64>,
+    /// Track-error σ along the track, km (timing error as distance). Take it from your own
+    /// verification; the default (50 km) is an example, not a climatology.
+    #[arg(long, value_name = "KM")]
+    pub along_sigma: Option<f64>,
+    /// Also write report.html (always written by `demo`).
+    #[arg(long)]
+    pub report: bool,
     /// Print nothing but errors.
     #[arg(long, short)]
     pub quiet: bool,
+}
+
+/// `trackswing report`.
+#[derive(Args, Debug)]
+pub struct ReportArgs {
+    /// The output folder of a finished run (with manifest.json).
+    #[arg(value_name = "OUT_DIR")]
+    pub out_dir: PathBuf,
 }
 
 /// `trackswing run`.

@@ -4,9 +4,10 @@
 //! [`read`] (fields, track, towns) → [`shift`] (storm-relative displacement of the fields per
 //! scenario) → [`diagnose`] (precipitation type and snow-to-liquid ratio per column) →
 //! [`accumulate`] (per-scenario running totals) → [`summarise`] (min/max/range, towns) →
-//! [`write`] (GeoTIFF, GeoJSON, CSV, manifest). [`engine`] drives the stages over the time steps
-//! and is the one place where work runs in parallel. [`sounding`] shows one cell's profile and
-//! what every method makes of it.
+//! [`write`] (GeoTIFF, GeoJSON, CSV, manifest, quicklook maps drawn with [`render`], and the
+//! HTML report). [`engine`] drives the stages over the time steps and is the one place where
+//! work runs in parallel. [`sounding`] shows one cell's profile and what every method makes of
+//! it.
 //!
 //! Decision support for trained forecasters: not an official forecast or warning. Defer to the
 //! national weather service and local emergency management.
@@ -20,6 +21,7 @@ pub mod geotiff;
 pub mod grid;
 pub mod progress;
 pub mod read;
+pub mod render;
 pub mod scenario;
 pub mod shift;
 pub mod sounding;

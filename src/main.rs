@@ -38,7 +38,12 @@ enum Plan<'a> {
     },
 }
 
-fn run_case(plan: Plan<'_>, common: &Common, default_out: Option<PathBuf>) -> Result<(), Failure> {
+fn run_case(
+    plan: Plan<'_>,
+    common: &Common,
+    default_out: Option<PathBuf>,
+    with_report: bool,
+) -> Result<(), Failure> {
     let over = Overrides {
         cross: common.cross.clone(),
         along: common.along.clone(),
@@ -52,6 +57,9 @@ fn run_case(plan: Plan<'_>, common: &Common, default_out: Option<PathBuf>) -> Re
         intensity: common.intensity.clone(),
         warm_bias: common.warm_bias.clone(),
         raster_type: common.raster_type.clone(),
+        cross_sigma: common.cross_sigma,
+        along_sigma: common.along_sigma,
+        report: with_report || common.report,
     };
     let case = match plan {
         Plan::CaseFile(p) => Case::load(p, &over),
@@ -106,7 +114,7 @@ fn run_plan(a: &cli::RunArgs) -> Result<(), Failure> {
                 "--track and --towns go with model files; a case file names its own track and towns"
             )));
         }
-        return run_case(Plan::CaseFile(&a.inputs[0]), &a.common, None);
+        return run_case(Plan::CaseFile(&a.inputs[0]), &a.common, None, false);
     }
     run_case(
         Plan::ModelFiles {
@@ -116,6 +124,7 @@ fn run_plan(a: &cli::RunArgs) -> Result<(), Failure> {
         },
         &a.common,
         None,
+        false,
     )
 }
 
@@ -183,7 +192,24 @@ fn main() -> ExitCode {
             Plan::CaseFile(&demo_case()),
             &a.common,
             Some(PathBuf::from("demo-out")),
+            true,
         ),
+        Command::Report(a) => trackswing::write::report::write_report(&a.out_dir)
+            .map(|p| println!("wrote {}", p.display()))
+            .with_context(|| format!("writing the report for {}", a.out_dir.display()))
+            .map_err(|e| {
+                let missing_input = e.chain().any(|c| {
+                    c.downcast_ref::<trackswing::write::report::ReportError>()
+                        .is_some_and(|r| {
+                            !matches!(r, trackswing::write::report::ReportError::Write(_))
+                        })
+                });
+                if missing_input {
+                    Failure::Input(e)
+                } else {
+                    Failure::Output(e)
+                }
+            }),
         Command::MakeDemo(a) => {
             let spec = trackswing::demo::spec_from(a.nx, a.ny, a.steps, a.step_hours, a.levels);
             if a.grib2 {

@@ -4,6 +4,16 @@
 //! split into shards are recomputed exactly from the merged totals. A cell or town missing in
 //! any scenario is missing in the summary: a range over incomplete scenarios would understate
 //! the spread.
+//!
+//! Decision products: [`weights`] (the prior over track offsets), [`quantiles`] (weighted mean,
+//! P10/P50/P90 and threshold probabilities), [`sensitivity`] (change per 50 km of offset and
+//! the flip distance), [`ice`] (ice accretion) and [`bust`] (the ranked bust-prone towns).
+
+pub mod bust;
+pub mod ice;
+pub mod quantiles;
+pub mod sensitivity;
+pub mod weights;
 
 use crate::accumulate::Totals;
 use crate::engine::RunResult;

@@ -62,6 +62,8 @@ struct ScenarioEntry {
     warm_bias_k: f64,
     label: String,
     baseline: bool,
+    /// Normalised weight under the track-error prior.
+    weight: f64,
 }
 
 #[derive(Serialize)]
@@ -83,6 +85,7 @@ struct Manifest<'a> {
     scenarios: Vec<ScenarioEntry>,
     files: Vec<FileEntry<'a>>,
     inputs: Vec<Input>,
+    decisions: serde_json::Value,
 }
 
 fn sha256_of(path: &Path) -> Result<String, WriteError> {
@@ -123,6 +126,21 @@ pub fn write_manifest(
     if let Some(t) = &case.towns {
         add("towns", t)?;
     }
+    let weights = crate::summarise::weights::scenario_weights(&case.prior, &r.scenarios)?;
+    let decisions = serde_json::json!({
+        "track_error_prior": &case.prior,
+        "track_error_prior_note": "σ (or the explicit weights) should come from the user's own verification of track error at this lead time; the defaults are examples, not a climatology",
+        "snow_thresholds": &case.snow_thresholds,
+        "snow_threshold_units": case.units.snow_unit(),
+        "ice_thresholds": &case.ice_thresholds,
+        "ice_threshold_units": case.units.liquid_unit(),
+        "ice_accretion": format!("{} × freezing-rain liquid (median flat-surface ratio, Sanders & Barjenbruch 2016)", crate::diagnose::slr::FREEZING_RAIN_ACCRETION_RATIO),
+        "quantiles": "weighted empirical CDF with each scenario at the middle of its step, linear between scenario values, clamped to the smallest/largest (Hyndman & Fan 1996 definition 5 when weights are equal)",
+        "exceedance": "P(X ≥ threshold): the weight of the scenarios at or above the threshold",
+        "sensitivity": format!("change per {} km of offset at offset 0: centred difference of the nearest offsets either side, one-sided where only one side was run", crate::summarise::sensitivity::PER_KM),
+        "flip": format!("smallest √(cross² + along²) at which the dominant type changes or the snowfall halves or doubles, snowfalls floored at {} mm", crate::summarise::sensitivity::FLIP_FLOOR_MM),
+        "bust_score": format!("(P90 − P10) / max(baseline, {} mm of snow)", crate::summarise::bust::SCORE_FLOOR_MM),
+    });
     let gt = r.grid.georef.geotransform;
     let grid_crs = || CrsEntry {
         epsg: r.grid.georef.crs.epsg(),
@@ -211,10 +229,12 @@ pub fn write_manifest(
                 warm_bias_k: s.warm_bias_k,
                 label: s.label(),
                 baseline: s.is_baseline(),
+                weight: weights[i],
             })
             .collect(),
         files: entries,
         inputs,
+        decisions,
     };
     let text = serde_json::to_string_pretty(&m).expect("manifest serialises");
     write_text_atomic(dir, "manifest.json", &(text + "\n"))?;

@@ -5,12 +5,16 @@
 //! when complete, and the manifest is written last. An interrupted run leaves the previous
 //! complete set (or nothing), never a half-written layer or a mix of two runs.
 
+pub mod bust;
+pub mod decisions;
 pub mod folder;
 pub mod isobands;
 pub mod lines;
 pub mod manifest;
+pub mod maps;
 pub mod polygons;
 pub mod rasters;
+pub mod report;
 pub mod towns;
 pub mod zones;
 
@@ -31,6 +35,12 @@ pub enum WriteError {
     /// The GeoTIFF encoder failed.
     #[error(transparent)]
     GeoTiff(#[from] crate::geotiff::GeoTiffError),
+    /// report.html could not be built.
+    #[error(transparent)]
+    Report(Box<report::ReportError>),
+    /// The track-error weights do not fit the run's scenarios.
+    #[error("track-error weights: {0}")]
+    Weights(#[from] crate::summarise::weights::WeightsError),
     /// Contouring failed.
     #[error("contouring the rain–snow line failed: {0}")]
     Contour(String),
@@ -54,6 +64,8 @@ pub enum Kind {
     Vector,
     /// CSV.
     Table,
+    /// PNG quicklook.
+    Image,
 }
 
 /// One written file, for the manifest.
@@ -112,6 +124,70 @@ pub fn write_text_atomic(dir: &Path, name: &str, text: &str) -> Result<PathBuf, 
                 source,
             })
     })
+}
+
+/// The prior in words, for maps and the report.
+pub fn prior_words(p: &crate::summarise::weights::TrackPrior) -> String {
+    use crate::summarise::weights::TrackPrior;
+    match p {
+        TrackPrior::Gaussian {
+            cross_sigma_km,
+            along_sigma_km,
+        } => format!(
+            "Gaussian, σ {cross_sigma_km} km across and {along_sigma_km} km along the track (set σ from your own track-error verification)"
+        ),
+        TrackPrior::Explicit { source, weights } => {
+            format!("explicit weights for {} offsets ({source})", weights.len())
+        }
+    }
+}
+
+/// The decision products: weighted layers, sensitivity and flip rasters, the bust-prone towns
+/// and the quicklook maps.
+fn write_decision_products(
+    dir: &Path,
+    case: &crate::case::Case,
+    r: &crate::engine::RunResult,
+) -> Result<Vec<Written>, WriteError> {
+    let weights = crate::summarise::weights::scenario_weights(&case.prior, &r.scenarios)?;
+    let meta = vec![
+        (
+            "trackswing_version".to_string(),
+            env!("CARGO_PKG_VERSION").to_string(),
+        ),
+        ("case_title".to_string(), case.title.clone()),
+        ("caution".to_string(), crate::CAUTION.to_string()),
+        ("track_error_prior".to_string(), prior_words(&case.prior)),
+    ];
+    let settings = decisions::DecisionSettings {
+        units: case.units,
+        weights: &weights,
+        snow_thresholds: &case.snow_thresholds,
+        ice_thresholds: &case.ice_thresholds,
+        meta: &meta,
+    };
+    let (mut files, map_inputs) = decisions::write_decision_rasters(dir, r, &settings)?;
+    let snow_mm: Vec<f64> = case
+        .snow_thresholds
+        .iter()
+        .map(|t| case.units.snow_to_mm(*t))
+        .collect();
+    let ranked = crate::summarise::bust::town_decisions(r, &weights, &snow_mm);
+    files.extend(bust::write_towns_bust(
+        dir,
+        &ranked,
+        &r.scenarios,
+        case.units,
+        &case.snow_thresholds,
+    )?);
+    let ctx = maps::MapContext {
+        title: &case.title,
+        units: case.units,
+        snow_thresholds: &case.snow_thresholds,
+        prior_words: prior_words(&case.prior),
+    };
+    files.extend(maps::write_maps(dir, r, &ctx, &map_inputs, &ranked)?);
+    Ok(files)
 }
 
 /// Writes every layer of a run into `case.out_dir`, the manifest last, replacing any previous
@@ -191,6 +267,7 @@ fn write_set(
             valid_times: &r.valid_times,
         },
     )?);
+    files.extend(write_decision_products(dir, case, r)?);
     manifest::write_manifest(dir, case, r, &files)?;
     let mut all = files;
     all.push(Written {
@@ -200,5 +277,17 @@ fn write_set(
         description: "What was written, from which inputs, with which settings".into(),
         bands: Vec::new(),
     });
+    if case.report {
+        // Part of the set (swapped in with it), built from the files just written.
+        report::write_report(dir).map_err(|e| WriteError::Report(Box::new(e)))?;
+        all.push(Written {
+            file: report::REPORT.into(),
+            kind: Kind::Table,
+            units: String::new(),
+            description: "Self-contained report: maps, bust-prone towns, scenarios, settings"
+                .into(),
+            bands: Vec::new(),
+        });
+    }
     Ok(all)
 }

@@ -96,6 +96,25 @@ fn demo_writes_every_layer_and_the_same_bytes_on_one_thread() {
         "snowfall_bands_max.geojson",
         "towns.csv",
         "towns.geojson",
+        "snowfall_mean.tif",
+        "snowfall_p10.tif",
+        "snowfall_p50.tif",
+        "snowfall_p90.tif",
+        "snowfall_exceedance.tif",
+        "ice_accretion_mean.tif",
+        "ice_accretion_p10.tif",
+        "ice_accretion_p50.tif",
+        "ice_accretion_p90.tif",
+        "ice_accretion_exceedance.tif",
+        "snowfall_sensitivity_cross.tif",
+        "snowfall_sensitivity_along.tif",
+        "flip_distance.tif",
+        "towns_bust.csv",
+        "towns_bust.geojson",
+        "map_baseline.png",
+        "map_p90.png",
+        "map_range.png",
+        "map_flip_distance.png",
     ] {
         let x = std::fs::read(a.join(f)).unwrap();
         let y = std::fs::read(b.join(f)).unwrap();
@@ -104,7 +123,22 @@ fn demo_writes_every_layer_and_the_same_bytes_on_one_thread() {
     let m: serde_json::Value =
         serde_json::from_slice(&std::fs::read(a.join("manifest.json")).unwrap()).unwrap();
     let files = m["files"].as_array().unwrap();
-    assert_eq!(files.len(), 21);
+    assert_eq!(files.len(), 40);
+    // Every town of the towns table is ranked in the bust table, once.
+    let (h, rows) = towns_csv(&a);
+    let name = h.iter().position(|c| c == "name").unwrap();
+    let mut bust = csv::Reader::from_path(a.join("towns_bust.csv")).unwrap();
+    let mut ranked: Vec<String> = bust
+        .records()
+        .map(|r| r.unwrap().get(1).unwrap().to_string())
+        .collect();
+    let mut names: Vec<String> = rows.iter().map(|r| r[name].clone()).collect();
+    ranked.sort();
+    names.sort();
+    assert_eq!(ranked, names);
+    // The demo also writes the report (not in the manifest, which it reads).
+    let html = std::fs::read_to_string(a.join("report.html")).unwrap();
+    assert!(html.contains("<table id=\"towns\""));
     for f in files {
         assert!(a.join(f["file"].as_str().unwrap()).is_file());
     }

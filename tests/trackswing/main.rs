@@ -2,6 +2,7 @@
 
 mod atomic;
 mod bad_input;
+mod decisions;
 mod demo;
 mod engine;
 mod fuzz;
@@ -10,4 +11,5 @@ mod geotiff_gdal;
 mod grib;
 mod physics;
 mod reference;
+mod report;
 mod support;

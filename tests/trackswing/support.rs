@@ -187,3 +187,107 @@ folder = "out"
 pub fn bin() -> std::process::Command {
     std::process::Command::new(env!("CARGO_BIN_EXE_trackswing"))
 }
+
+/// Row of the synthetic front: the 2 m temperature is 273.5 K (and the profile as in
+/// [`write_case`] with no anomaly) on this row, warmer by [`FRONT_K_PER_ROW`] per row to the
+/// south and colder to the north, the same in every column; precipitation is uniform. The
+/// rain–snow line is therefore a straight east–west line, and a cross-track shift of the storm
+/// (left = north for the eastward track) moves it north by exactly the shift.
+pub const FRONT_ROW: usize = 18;
+/// Temperature change per row across the synthetic front, K.
+pub const FRONT_K_PER_ROW: f64 = 0.6;
+
+/// A case like [`write_case`] (flat terrain, eastward track along the middle row, full
+/// displacement everywhere) whose weather is the straight front above, with the given towns
+/// (`name,lat,lon` lines).
+pub fn write_front_case(dir: &Path, towns: &[(&str, f64, f64)], extra: &str) -> PathBuf {
+    let s = Synthetic {
+        flat: true,
+        ..Default::default()
+    };
+    let case = write_case(dir, &s, extra);
+    let n = s.nx * s.ny;
+    let anom = |i: usize| (i / s.nx) as f64 * FRONT_K_PER_ROW - FRONT_ROW as f64 * FRONT_K_PER_ROW;
+    for k in 0..s.steps {
+        let mut bands = Vec::new();
+        let mut z = vec![100.0f64; n];
+        let mut t_prev = vec![0.0f64; n];
+        for (li, p) in LEVELS.iter().enumerate() {
+            let mut t = vec![0.0f32; n];
+            for i in 0..n {
+                let base = [273.0, 271.5, 270.0, 262.0, 245.0][li];
+                let tk = base + anom(i) * [1.0, 1.0, 0.9, 0.6, 0.3][li];
+                t[i] = tk as f32;
+                if li > 0 {
+                    let tm = 0.5 * (tk + t_prev[i]);
+                    z[i] += 287.04 * tm / 9.80665 * (LEVELS[li - 1] / p).ln();
+                }
+                t_prev[i] = tk;
+            }
+            let tag = format!("{}hPa", *p as i64);
+            bands.push((format!("air_temperature@{tag}"), t));
+            bands.push((
+                format!("geopotential_height@{tag}"),
+                z.iter().map(|v| *v as f32).collect(),
+            ));
+            bands.push((format!("relative_humidity@{tag}"), vec![95.0; n]));
+        }
+        let t2: Vec<f32> = (0..n)
+            .map(|i| (273.5 + anom(i) - 0.0065 * 100.0) as f32)
+            .collect();
+        bands.push(("air_temperature@2m".into(), t2));
+        bands.push(("relative_humidity@2m".into(), vec![90.0; n]));
+        bands.push(("precipitation_amount".into(), vec![2.0; n]));
+        let meta = vec![(
+            "valid_time".into(),
+            format!("2026-01-14T{:02}:00:00Z", 3 * (k + 1)),
+        )];
+        write(&dir.join(format!("f/s_{k:02}.tif")), &s, bands, meta);
+    }
+    let mut csv = String::from("name,lat,lon\n");
+    for (name, lat, lon) in towns {
+        let quoted = name.replace('"', "\"\"");
+        csv.push_str(&format!("\"{quoted}\",{lat},{lon}\n"));
+    }
+    std::fs::write(dir.join("towns.csv"), csv).unwrap();
+    case
+}
+
+/// Latitude of the centre of row `row` of the default synthetic grid.
+pub fn row_lat(row: usize) -> f64 {
+    let s = Synthetic::default();
+    s.lat0 - s.d * row as f64
+}
+
+/// Longitude of the centre of column `col` of the default synthetic grid.
+pub fn col_lon(col: usize) -> f64 {
+    let s = Synthetic::default();
+    s.lon0 + s.d * col as f64
+}
+
+/// True when headless Chromium can be run; otherwise prints why (or panics when references
+/// are required).
+pub fn chromium_available() -> bool {
+    let ok = std::process::Command::new("chromium")
+        .arg("--version")
+        .output()
+        .is_ok_and(|o| o.status.success());
+    if !ok {
+        if std::env::var("TRACKSWING_REQUIRE_REFERENCES").as_deref() == Ok("1") {
+            panic!("chromium not on PATH but TRACKSWING_REQUIRE_REFERENCES=1");
+        }
+        eprintln!("note: chromium not on PATH; skipping the headless report rendering test");
+    }
+    ok
+}
+
+/// Decodes a PNG into (width, height, RGB or RGBA bytes, channels).
+pub fn decode_png(path: &Path) -> (u32, u32, Vec<u8>, usize) {
+    let file = std::io::BufReader::new(std::fs::File::open(path).unwrap());
+    let mut r = png::Decoder::new(file).read_info().unwrap();
+    let mut buf = vec![0; r.output_buffer_size().unwrap()];
+    let info = r.next_frame(&mut buf).unwrap();
+    buf.truncate(info.buffer_size());
+    let ch = info.color_type.samples();
+    (info.width, info.height, buf, ch)
+}

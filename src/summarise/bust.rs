@@ -1,0 +1,437 @@
+//! Bust-prone towns: each town's weighted distribution, flip and sensitivity, a bust score to
+//! rank by, and one plain-language sentence computed from the numbers.
+//!
+//! **Bust score** = (P90 − P10) / max(baseline, 5 cm), both in snow depth. P90 − P10 is the
+//! spread of the likely outcomes under the track-error prior: weighted, so the most extreme
+//! offsets (which set min and max) do not dominate. Dividing by the modelled amount expresses
+//! the spread as a share of what is being forecast: 20 cm of spread on a 5 cm forecast is a
+//! bust, on a 60 cm forecast a detail. The 5 cm floor ([`SCORE_FLOOR_MM`]) keeps places with a
+//! trace forecast from topping the list on small absolute swings. A score of 1 means the likely
+//! range is as wide as the forecast itself.
+
+use super::ice::ice_accretion;
+use super::quantiles::{exceedance, prepare, summary, Summary};
+use super::sensitivity::{
+    by_distance, difference, flip_search, stencil, Axis, CellTotals, FlipKind, FlipSearch, Ptype,
+};
+use crate::accumulate::Totals;
+use crate::case::Units;
+use crate::engine::RunResult;
+use crate::grid::Grid;
+use crate::scenario::Scenario;
+
+/// Floor of the baseline in the bust score, mm of snow depth (5 cm).
+pub const SCORE_FLOOR_MM: f64 = 50.0;
+
+/// Changes of snowfall smaller than this (mm, 1 cm) are not worth a clause in the sentence.
+const NOTABLE_MM: f32 = 10.0;
+
+/// The (up to four) grid cells and bilinear weights that give a town's value.
+#[derive(Clone, Debug)]
+struct TownPoint {
+    cells: Vec<(usize, f32)>,
+}
+
+impl TownPoint {
+    fn new(grid: &Grid, lon: f64, lat: f64) -> Option<Self> {
+        let (c, r) = grid.index_of(lon, lat)?;
+        let (c0, r0) = (c.floor() as usize, r.floor() as usize);
+        let (fx, fy) = ((c - c0 as f64) as f32, (r - r0 as f64) as f32);
+        let mut cells = Vec::with_capacity(4);
+        for (dc, dr, w) in [
+            (0, 0, (1.0 - fx) * (1.0 - fy)),
+            (1, 0, fx * (1.0 - fy)),
+            (0, 1, (1.0 - fx) * fy),
+            (1, 1, fx * fy),
+        ] {
+            if w > 0.0 {
+                cells.push(((r0 + dr) * grid.nx + c0 + dc, w));
+            }
+        }
+        Some(Self { cells })
+    }
+
+    fn sample(&self, value: impl Fn(usize) -> f32) -> f32 {
+        self.cells.iter().map(|&(i, w)| w * value(i)).sum()
+    }
+
+    fn totals(&self, t: &Totals) -> CellTotals {
+        CellTotals {
+            liquid: self.sample(|i| t.liquid[i]),
+            snow_liquid: self.sample(|i| t.snow_liquid[i]),
+            snowfall: self.sample(|i| t.snowfall[i]),
+            ice_pellets: self.sample(|i| t.ice_pellets[i]),
+            freezing_rain: self.sample(|i| t.freezing_rain[i]),
+        }
+    }
+}
+
+/// One town's decision numbers (snow depth and ice in mm).
+#[derive(Clone, Debug)]
+pub struct TownDecision {
+    /// Name.
+    pub name: String,
+    /// Latitude.
+    pub lat: f64,
+    /// Longitude.
+    pub lon: f64,
+    /// Totals as modelled.
+    pub baseline: CellTotals,
+    /// Snowfall per scenario, mm.
+    pub snowfall: Vec<f32>,
+    /// Weighted mean and P10/P50/P90 of snowfall (`None` when missing in some scenario).
+    pub snow: Option<Summary>,
+    /// `P(snowfall ≥ threshold)` per threshold (NaN when missing).
+    pub snow_exceedance: Vec<f64>,
+    /// Smallest and largest snowfall over the scenarios and the scenarios giving them.
+    pub extremes: Option<Extremes>,
+    /// Ice accretion as modelled, mm.
+    pub ice_baseline: f32,
+    /// Weighted mean and P10/P50/P90 of ice accretion.
+    pub ice: Option<Summary>,
+    /// The nearest flip.
+    pub flip: FlipSearch,
+    /// Snowfall sensitivity across the track, mm per 50 km (positive: more if the low tracks left).
+    pub sensitivity_cross: f32,
+    /// Snowfall sensitivity along the track, mm per 50 km (positive: more if the low runs ahead).
+    pub sensitivity_along: f32,
+    /// The bust score (NaN when missing).
+    pub score: f64,
+}
+
+/// Smallest and largest snowfall of a town.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Extremes {
+    /// Smallest, mm.
+    pub min: f32,
+    /// Its scenario.
+    pub argmin: usize,
+    /// Largest, mm.
+    pub max: f32,
+    /// Its scenario.
+    pub argmax: usize,
+}
+
+/// The bust score of a town (see the module notes). NaN when any input is missing.
+///
+/// ```
+/// use trackswing::summarise::bust::bust_score;
+/// assert_eq!(bust_score(20.0, 220.0, 100.0), 2.0); // 20 cm spread on a 10 cm forecast
+/// assert_eq!(bust_score(0.0, 100.0, 0.0), 2.0);    // the 5 cm floor
+/// ```
+pub fn bust_score(p10_mm: f64, p90_mm: f64, baseline_mm: f64) -> f64 {
+    (p90_mm - p10_mm) / baseline_mm.max(SCORE_FLOOR_MM)
+}
+
+/// Every town's decision numbers, ranked: highest bust score first, missing last, ties by name.
+/// `snow_thresholds_mm` are snow depths in mm.
+pub fn town_decisions(
+    r: &RunResult,
+    weights: &[f64],
+    snow_thresholds_mm: &[f64],
+) -> Vec<TownDecision> {
+    let order = by_distance(&r.scenarios);
+    let cross = stencil(&r.scenarios, r.baseline, Axis::Cross);
+    let along = stencil(&r.scenarios, r.baseline, Axis::Along);
+    let mut out: Vec<TownDecision> = r
+        .towns
+        .iter()
+        .map(|t| {
+            let point = TownPoint::new(&r.grid, t.lon, t.lat);
+            let per: Vec<CellTotals> = r
+                .totals
+                .iter()
+                .map(|tot| match &point {
+                    Some(p) => p.totals(tot),
+                    None => CellTotals {
+                        liquid: f32::NAN,
+                        snow_liquid: f32::NAN,
+                        snowfall: f32::NAN,
+                        ice_pellets: f32::NAN,
+                        freezing_rain: f32::NAN,
+                    },
+                })
+                .collect();
+            let ice: Vec<f32> = r
+                .totals
+                .iter()
+                .map(|tot| {
+                    point
+                        .as_ref()
+                        .map_or(f32::NAN, |p| p.sample(|i| ice_accretion(tot, i)))
+                })
+                .collect();
+            let snowfall: Vec<f32> = per.iter().map(|c| c.snowfall).collect();
+            let weighted = |v: &[f32]| {
+                let mut pairs: Vec<(f64, f64)> = v
+                    .iter()
+                    .zip(weights)
+                    .map(|(x, w)| (*x as f64, *w))
+                    .collect();
+                prepare(&mut pairs).map(|_| pairs)
+            };
+            let snow_pairs = weighted(&snowfall);
+            let snow = snow_pairs.as_deref().map(summary);
+            let snow_exceedance = snow_thresholds_mm
+                .iter()
+                .map(|th| {
+                    snow_pairs
+                        .as_deref()
+                        .map_or(f64::NAN, |p| exceedance(p, *th))
+                })
+                .collect();
+            let extremes = extremes(&snowfall);
+            let base = per[r.baseline];
+            let flip = flip_search(&r.scenarios, &order, &base, |k| per[k]);
+            let diff = |st: &Option<super::sensitivity::Stencil>| {
+                st.as_ref()
+                    .map_or(f32::NAN, |s| difference(s, |k| snowfall[k]))
+            };
+            let score = snow.map_or(f64::NAN, |s| {
+                bust_score(s.quantiles[0], s.quantiles[2], base.snowfall as f64)
+            });
+            let (sensitivity_cross, sensitivity_along) = (diff(&cross), diff(&along));
+            TownDecision {
+                name: t.name.clone(),
+                lat: t.lat,
+                lon: t.lon,
+                baseline: base,
+                ice_baseline: ice[r.baseline],
+                ice: weighted(&ice).as_deref().map(summary),
+                snowfall,
+                snow,
+                snow_exceedance,
+                extremes,
+                flip,
+                sensitivity_cross,
+                sensitivity_along,
+                score,
+            }
+        })
+        .collect();
+    out.sort_by(|a, b| match (a.score.is_nan(), b.score.is_nan()) {
+        (true, true) => a.name.cmp(&b.name),
+        (true, false) => std::cmp::Ordering::Greater,
+        (false, true) => std::cmp::Ordering::Less,
+        _ => b
+            .score
+            .total_cmp(&a.score)
+            .then_with(|| a.name.cmp(&b.name)),
+    });
+    out
+}
+
+fn extremes(v: &[f32]) -> Option<Extremes> {
+    if v.is_empty() || v.iter().any(|x| x.is_nan()) {
+        return None;
+    }
+    let (mut argmin, mut argmax) = (0, 0);
+    for (i, x) in v.iter().enumerate() {
+        if *x < v[argmin] {
+            argmin = i;
+        }
+        if *x > v[argmax] {
+            argmax = i;
+        }
+    }
+    Some(Extremes {
+        min: v[argmin],
+        argmin,
+        max: v[argmax],
+        argmax,
+    })
+}
+
+/// A snow depth for a sentence: whole units from 10 up, one decimal below, "no snow" for what
+/// rounds to zero.
+pub fn snow_words(mm: f64, units: Units) -> String {
+    let v = units.snow(mm as f32) as f64;
+    let u = units.snow_unit();
+    if v >= 9.95 {
+        format!("{v:.0} {u}")
+    } else if v >= 0.05 {
+        format!("{v:.1} {u}")
+    } else {
+        "no snow".to_string()
+    }
+}
+
+/// The nearest scenario (by distance from the baseline; ties: the more extreme value) whose
+/// snowfall is at or beyond `bound` on the given side.
+fn nearest_reaching(
+    snowfall: &[f32],
+    scenarios: &[Scenario],
+    bound: f64,
+    low_side: bool,
+) -> Option<usize> {
+    let reaches = |v: f32| {
+        if low_side {
+            v as f64 <= bound
+        } else {
+            v as f64 >= bound
+        }
+    };
+    let dist = |k: usize| scenarios[k].cross_km.hypot(scenarios[k].along_km);
+    (0..snowfall.len().min(scenarios.len()))
+        .filter(|&k| super::sensitivity::track_only(&scenarios[k]) && reaches(snowfall[k]))
+        .min_by(|&a, &b| {
+            dist(a).total_cmp(&dist(b)).then_with(|| {
+                let (x, y) = (snowfall[a], snowfall[b]);
+                if low_side {
+                    x.total_cmp(&y)
+                } else {
+                    y.total_cmp(&x)
+                }
+            })
+        })
+}
+
+/// One plain-language sentence from a town's numbers, e.g. "18 cm as modelled; 4.0 cm or less
+/// if the low tracks 40 km left; turns mostly to rain with the low 40 km left; 0.5–24 cm over
+/// all offsets run." The low and high clauses name the nearest offset that brings the town to
+/// its P10 (or below) and its P90 (or above): how little track error it takes to reach the
+/// ends of the likely range.
+pub fn sentence(t: &TownDecision, scenarios: &[Scenario], units: Units) -> String {
+    let (Some(s), Some(x)) = (t.snow, t.extremes) else {
+        return "Missing in some track offsets (near the grid edge or where the model has no data), so no spread is given.".to_string();
+    };
+    let base = t.baseline.snowfall as f64;
+    let mut parts = vec![format!("{} as modelled", snow_words(base, units))];
+    if let Some(ty) = t.baseline.dominant().filter(|p| *p != Ptype::Snow) {
+        parts[0].push_str(&format!(" (mostly {})", ty.words()));
+    }
+    let (p10, p90) = (s.quantiles[0], s.quantiles[2]);
+    if base - p10 >= NOTABLE_MM as f64 {
+        if let Some(k) = nearest_reaching(&t.snowfall, scenarios, p10, true) {
+            let amount = snow_words(p10, units);
+            let amount = if amount == "no snow" {
+                amount
+            } else {
+                format!("{amount} or less")
+            };
+            parts.push(format!(
+                "{amount} if the low tracks {}",
+                scenarios[k].in_words()
+            ));
+        }
+    }
+    if p90 - base >= NOTABLE_MM as f64 {
+        if let Some(k) = nearest_reaching(&t.snowfall, scenarios, p90, false) {
+            parts.push(format!(
+                "{} or more if it tracks {}",
+                snow_words(p90, units),
+                scenarios[k].in_words()
+            ));
+        }
+    }
+    match t.flip {
+        FlipSearch::Flip(f) => {
+            let at = scenarios[f.scenario].in_words();
+            parts.push(match (f.kind, f.to) {
+                (FlipKind::Type, Some(to)) => {
+                    format!("turns mostly to {} with the low {at}", to.words())
+                }
+                (FlipKind::Halves, _) | (FlipKind::Type, None) => {
+                    format!("halves with the low {at}")
+                }
+                (FlipKind::Doubles, _) => format!("doubles with the low {at}"),
+            });
+        }
+        FlipSearch::Never => {
+            let far = scenarios
+                .iter()
+                .map(|s| s.cross_km.hypot(s.along_km))
+                .fold(0.0, f64::max);
+            parts.push(format!(
+                "no change of type, halving or doubling within the offsets run (up to {far:.0} km)"
+            ));
+        }
+        FlipSearch::Missing => {}
+    }
+    let lo = snow_words(x.min as f64, units);
+    let lo = if lo == "no snow" {
+        "0".to_string()
+    } else {
+        lo.trim_end_matches(units.snow_unit())
+            .trim_end()
+            .to_string()
+    };
+    parts.push(format!(
+        "{lo}–{} over all offsets run",
+        snow_words(x.max as f64, units)
+    ));
+    parts.join("; ") + "."
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn decision(base: f32, snowfall: Vec<f32>, flip: FlipSearch) -> TownDecision {
+        let mut pairs: Vec<(f64, f64)> = snowfall.iter().map(|v| (*v as f64, 1.0)).collect();
+        prepare(&mut pairs).unwrap();
+        TownDecision {
+            name: "T".into(),
+            lat: 0.0,
+            lon: 0.0,
+            baseline: CellTotals {
+                liquid: 18.0,
+                snow_liquid: 18.0,
+                snowfall: base,
+                ice_pellets: 0.0,
+                freezing_rain: 0.0,
+            },
+            extremes: extremes(&snowfall),
+            snow: Some(summary(&pairs)),
+            snowfall,
+            snow_exceedance: vec![],
+            ice_baseline: 0.0,
+            ice: None,
+            flip,
+            sensitivity_cross: 0.0,
+            sensitivity_along: 0.0,
+            score: 0.0,
+        }
+    }
+
+    #[test]
+    fn sentence_reads_the_numbers() {
+        // Five offsets −40…40 km with equal weights; snowfall 200, 190, 180, 60, 40 mm.
+        // Hazen positions 0.1…0.9: P10 = 40 mm (reached first at +40 km), P90 = 200 mm
+        // (reached first at −40 km).
+        let sc = crate::scenario::scenario_set(&[-40.0, -20.0, 0.0, 20.0, 40.0], &[0.0]);
+        let flip = FlipSearch::Flip(super::super::sensitivity::Flip {
+            distance_km: 20.0,
+            scenario: 3,
+            cross_km: 20.0,
+            along_km: 0.0,
+            kind: FlipKind::Type,
+            to: Some(Ptype::Rain),
+            snowfall: 60.0,
+        });
+        let t = decision(180.0, vec![200.0, 190.0, 180.0, 60.0, 40.0], flip);
+        assert_eq!(
+            sentence(&t, &sc, Units::Metric),
+            "18 cm as modelled; 4.0 cm or less if the low tracks 40 km left; 20 cm or more if it tracks 40 km right; turns mostly to rain with the low 20 km left; 4.0–20 cm over all offsets run."
+        );
+        let t = decision(
+            180.0,
+            vec![185.0, 182.0, 180.0, 178.0, 175.0],
+            FlipSearch::Never,
+        );
+        let s = sentence(&t, &sc, Units::Us);
+        assert_eq!(
+            s,
+            "7.1 in as modelled; no change of type, halving or doubling within the offsets run (up to 40 km); 6.9–7.3 in over all offsets run."
+        );
+    }
+
+    #[test]
+    fn score_ranks_relative_spread() {
+        // 10 cm forecast, likely 2–22 cm: spread 20 cm = 2× the forecast.
+        assert_eq!(bust_score(20.0, 220.0, 100.0), 2.0);
+        // 60 cm forecast with the same spread: a third.
+        assert!((bust_score(500.0, 700.0, 600.0) - 1.0 / 3.0).abs() < 1e-12);
+        assert!(bust_score(f64::NAN, 1.0, 1.0).is_nan());
+    }
+}

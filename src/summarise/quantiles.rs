@@ -1,0 +1,228 @@
+//! Weighted distribution of a total over the scenarios: mean, quantiles and the probability of
+//! reaching a threshold, per cell and per town.
+//!
+//! **Weighted quantile.** Sort the scenario values `v₁ ≤ … ≤ vₙ` with their normalised weights
+//! `wᵢ` (scenarios of weight 0 are left out). Each value sits at the middle of its step of the
+//! weighted empirical CDF, `pᵢ = Σⱼ₍ⱼ₌₁…ᵢ₎ wⱼ − wᵢ/2`. The q-quantile is `v₁` for `q ≤ p₁`, `vₙ`
+//! for `q ≥ pₙ`, and between them the straight line through `(pᵢ, vᵢ)` and `(pᵢ₊₁, vᵢ₊₁)`. With
+//! equal weights `pᵢ = (i − ½)/n`, which is definition 5 of Hyndman & Fan (1996), *Sample
+//! quantiles in statistical packages*, The American Statistician 50(4), 361–365 (numpy's
+//! `method="hazen"`). The quantiles are monotone in q, so P10 ≤ P50 ≤ P90 always.
+//!
+//! **Probability of reaching a threshold** `t`: `P(X ≥ t) = Σ wᵢ·[vᵢ ≥ t]`, the weight of the
+//! scenarios at or above it. It lies in [0, 1] and never increases with `t`.
+//!
+//! A cell missing (NaN) in any scenario of positive weight is missing in every summary: a
+//! distribution over the scenarios that happen to be present would be biased.
+
+use crate::accumulate::Totals;
+
+/// Quantiles every summary reports.
+pub const QUANTILES: [f64; 3] = [0.1, 0.5, 0.9];
+
+/// Summary of one weighted sample.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Summary {
+    /// Weighted mean.
+    pub mean: f64,
+    /// P10, P50, P90.
+    pub quantiles: [f64; 3],
+}
+
+/// Sorts (value, weight) pairs by value, dropping zero weights; returns `None` when a value of
+/// positive weight is missing or no weight is positive.
+pub fn prepare(pairs: &mut Vec<(f64, f64)>) -> Option<()> {
+    pairs.retain(|(_, w)| *w > 0.0);
+    if pairs.is_empty() || pairs.iter().any(|(v, _)| v.is_nan()) {
+        return None;
+    }
+    pairs.sort_by(|a, b| a.0.total_cmp(&b.0));
+    Some(())
+}
+
+/// The q-quantile of sorted, positively weighted pairs (see the module notes).
+///
+/// ```
+/// use trackswing::summarise::quantiles::weighted_quantile;
+/// // Hyndman & Fan (1996) definition 5 on 1, 2, 3, 4: the 30 % point is 1.7.
+/// let s = [(1.0, 0.25), (2.0, 0.25), (3.0, 0.25), (4.0, 0.25)];
+/// assert!((weighted_quantile(&s, 0.3) - 1.7).abs() < 1e-12);
+/// ```
+pub fn weighted_quantile(sorted: &[(f64, f64)], q: f64) -> f64 {
+    let total: f64 = sorted.iter().map(|p| p.1).sum();
+    let mut cum = 0.0;
+    let mut prev: Option<(f64, f64)> = None;
+    for &(v, w) in sorted {
+        let p = (cum + w / 2.0) / total;
+        cum += w;
+        if q <= p {
+            return match prev {
+                None => v,
+                Some((pp, pv)) => pv + (q - pp) / (p - pp) * (v - pv),
+            };
+        }
+        prev = Some((p, v));
+    }
+    sorted.last().map_or(f64::NAN, |p| p.0)
+}
+
+/// `P(X ≥ threshold)`: the share of the weight at or above the threshold.
+pub fn exceedance(sorted: &[(f64, f64)], threshold: f64) -> f64 {
+    let total: f64 = sorted.iter().map(|p| p.1).sum();
+    // A fold from +0, not `sum` (whose empty sum is −0, which prints as "-0").
+    let above = sorted
+        .iter()
+        .filter(|p| p.0 >= threshold)
+        .fold(0.0, |a, p| a + p.1);
+    (above / total).clamp(0.0, 1.0)
+}
+
+/// Mean and quantiles of sorted, positively weighted pairs.
+pub fn summary(sorted: &[(f64, f64)]) -> Summary {
+    let total: f64 = sorted.iter().map(|p| p.1).sum();
+    let mean = sorted.iter().map(|p| p.0 * p.1).sum::<f64>() / total;
+    Summary {
+        mean,
+        quantiles: QUANTILES.map(|q| weighted_quantile(sorted, q)),
+    }
+}
+
+/// Per-cell weighted distribution of one total, in the total's units (mm).
+#[derive(Clone, Debug)]
+pub struct DistributionLayers {
+    /// Weighted mean.
+    pub mean: Vec<f32>,
+    /// P10, P50, P90.
+    pub quantiles: [Vec<f32>; 3],
+    /// `P(X ≥ tₖ)` for every threshold, one layer each.
+    pub exceedance: Vec<Vec<f32>>,
+}
+
+/// The weighted distribution of `value(totals, cell)` over the scenarios, for every cell.
+/// `thresholds` are in the same units as `value` (mm). Memory: the outputs plus one cell's
+/// values at a time; the totals are read in place.
+pub fn distribution(
+    totals: &[Totals],
+    weights: &[f64],
+    value: impl Fn(&Totals, usize) -> f32,
+    thresholds: &[f64],
+) -> DistributionLayers {
+    let n = totals.first().map_or(0, Totals::len);
+    let mut out = DistributionLayers {
+        mean: vec![f32::NAN; n],
+        quantiles: [vec![f32::NAN; n], vec![f32::NAN; n], vec![f32::NAN; n]],
+        exceedance: thresholds.iter().map(|_| vec![f32::NAN; n]).collect(),
+    };
+    let mut pairs = Vec::with_capacity(totals.len());
+    for i in 0..n {
+        pairs.clear();
+        pairs.extend(
+            totals
+                .iter()
+                .zip(weights)
+                .map(|(t, w)| (value(t, i) as f64, *w)),
+        );
+        if prepare(&mut pairs).is_none() {
+            continue;
+        }
+        let s = summary(&pairs);
+        out.mean[i] = s.mean as f32;
+        for (layer, q) in out.quantiles.iter_mut().zip(s.quantiles) {
+            layer[i] = q as f32;
+        }
+        for (layer, t) in out.exceedance.iter_mut().zip(thresholds) {
+            layer[i] = exceedance(&pairs, *t) as f32;
+        }
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use proptest::prelude::*;
+
+    /// Three scenarios, totals 40, 10, 20 mm with weights 0.1, 0.6, 0.3, worked by hand:
+    /// sorted 10 (0.6), 20 (0.3), 40 (0.1); mid-step positions p = 0.3, 0.75, 0.95.
+    /// mean = 0.6·10 + 0.3·20 + 0.1·40 = 16;
+    /// P10 = 10 (0.1 < p₁); P50 = 10 + (0.5 − 0.3)/(0.75 − 0.3)·10 = 14.444…;
+    /// P90 = 20 + (0.9 − 0.75)/(0.95 − 0.75)·20 = 35;
+    /// P(≥5) = 1, P(≥15) = 0.4, P(≥25) = 0.1, P(≥40) = 0.1, P(≥50) = 0.
+    #[test]
+    fn three_scenarios_match_the_hand_computation() {
+        let mut t: Vec<Totals> = (0..3).map(|_| Totals::new(2)).collect();
+        for (k, v) in [40.0, 10.0, 20.0].iter().enumerate() {
+            t[k].snowfall = vec![*v, f32::NAN];
+        }
+        t[1].snowfall[1] = 5.0;
+        let w = [0.1, 0.6, 0.3];
+        let th = [5.0, 15.0, 25.0, 40.0, 50.0];
+        let d = distribution(&t, &w, |x, i| x.snowfall[i], &th);
+        assert!((d.mean[0] - 16.0).abs() < 1e-5);
+        assert_eq!(d.quantiles[0][0], 10.0);
+        assert!((d.quantiles[1][0] - 14.444_445).abs() < 1e-4);
+        assert!((d.quantiles[2][0] - 35.0).abs() < 1e-5);
+        let want = [1.0, 0.4, 0.1, 0.1, 0.0];
+        for (layer, p) in d.exceedance.iter().zip(want) {
+            assert!((layer[0] - p).abs() < 1e-6, "{} vs {p}", layer[0]);
+        }
+        assert!(d.mean[1].is_nan() && d.quantiles[1][1].is_nan() && d.exceedance[0][1].is_nan());
+        assert!(d.exceedance[4][0].is_sign_positive(), "no negative zero");
+    }
+
+    #[test]
+    fn equal_weights_are_hyndman_fan_definition_5() {
+        // Definition 5 (Hyndman & Fan 1996): h = n·q + ½, Q = x⌊h⌋ + (h − ⌊h⌋)(x⌊h⌋₊₁ − x⌊h⌋),
+        // clamped to the sample. On 3, 1, 4, 1, 5 (sorted 1, 1, 3, 4, 5):
+        // q = 0.5 → h = 3 → 3; q = 0.3 → h = 2 → 1; q = 0.7 → h = 4 → 4;
+        // q = 0.65 → h = 3.75 → 3.75; q = 0.05 → h = 0.75 → 1; q = 0.95 → 5.
+        let mut p: Vec<(f64, f64)> = [3.0, 1.0, 4.0, 1.0, 5.0]
+            .iter()
+            .map(|v| (*v, 0.2))
+            .collect();
+        prepare(&mut p).unwrap();
+        for (q, want) in [
+            (0.5, 3.0),
+            (0.3, 1.0),
+            (0.7, 4.0),
+            (0.65, 3.75),
+            (0.05, 1.0),
+            (0.95, 5.0),
+        ] {
+            assert!((weighted_quantile(&p, q) - want).abs() < 1e-12, "q {q}");
+        }
+    }
+
+    #[test]
+    fn zero_weights_are_ignored_even_when_missing() {
+        let mut p = vec![(f64::NAN, 0.0), (2.0, 0.5), (4.0, 0.5)];
+        prepare(&mut p).unwrap();
+        assert_eq!(summary(&p).mean, 3.0);
+        let mut p = vec![(f64::NAN, 0.1), (2.0, 0.9)];
+        assert!(prepare(&mut p).is_none());
+    }
+
+    proptest! {
+        #[test]
+        fn quantiles_ordered_and_probabilities_monotone(
+            v in prop::collection::vec((0.0f64..500.0, 0.0f64..1.0), 1..40),
+            t in prop::collection::vec(0.0f64..600.0, 1..8),
+        ) {
+            let mut p = v.clone();
+            prop_assume!(p.iter().any(|x| x.1 > 0.0));
+            prepare(&mut p).unwrap();
+            let s = summary(&p);
+            prop_assert!(s.quantiles[0] <= s.quantiles[1] + 1e-9);
+            prop_assert!(s.quantiles[1] <= s.quantiles[2] + 1e-9);
+            prop_assert!(s.quantiles[0] >= p[0].0 - 1e-9);
+            prop_assert!(s.quantiles[2] <= p[p.len() - 1].0 + 1e-9);
+            let mut th = t.clone();
+            th.sort_by(f64::total_cmp);
+            let probs: Vec<f64> = th.iter().map(|x| exceedance(&p, *x)).collect();
+            for w in probs.windows(2) {
+                prop_assert!(w[1] <= w[0]);
+            }
+            prop_assert!(probs.iter().all(|x| (0.0..=1.0).contains(x)));
+        }
+    }
+}

@@ -1,0 +1,255 @@
+//! The bust-prone towns: `towns_bust.csv` (ranked, spreadsheet-safe) and `towns_bust.geojson`
+//! (RFC 7946 points with the same values).
+//!
+//! Onset timing is in towns.csv (baseline, earliest and latest onset); this table does not
+//! repeat it.
+
+use super::decisions::threshold_text;
+use super::towns::spreadsheet_safe;
+use super::{write_text_atomic, Kind, WriteError, Written};
+use crate::case::Units;
+use crate::scenario::Scenario;
+use crate::summarise::bust::{sentence, TownDecision};
+use crate::summarise::sensitivity::{FlipKind, FlipSearch};
+use geojson::{Feature, FeatureCollection, Geometry, JsonObject};
+use serde_json::Value;
+use std::path::Path;
+
+/// One cell of the table: text, or a number with its decimals (empty when missing).
+enum Cell {
+    Text(String),
+    Num(f64, usize),
+}
+
+impl Cell {
+    fn csv(&self) -> String {
+        match self {
+            Cell::Text(s) => spreadsheet_safe(s),
+            Cell::Num(v, d) if v.is_finite() => format!("{v:.d$}"),
+            Cell::Num(..) => String::new(),
+        }
+    }
+    fn json(&self) -> Value {
+        match self {
+            Cell::Text(s) if s.is_empty() => Value::Null,
+            Cell::Text(s) => s.clone().into(),
+            Cell::Num(v, 0) if v.is_finite() => (v.round() as i64).into(),
+            Cell::Num(v, d) if v.is_finite() => {
+                let f = 10f64.powi(*d as i32);
+                ((v * f).round() / f).into()
+            }
+            Cell::Num(..) => Value::Null,
+        }
+    }
+}
+
+/// What flips, in words, for the table.
+pub fn flip_words(f: &FlipSearch) -> &'static str {
+    match f {
+        FlipSearch::Flip(x) => match x.kind {
+            FlipKind::Type => "type changes",
+            FlipKind::Halves => "snowfall halves",
+            FlipKind::Doubles => "snowfall doubles",
+        },
+        FlipSearch::Never => "nothing within the offsets run",
+        FlipSearch::Missing => "",
+    }
+}
+
+/// The columns and values of one ranked town.
+fn row(
+    rank: usize,
+    t: &TownDecision,
+    scenarios: &[Scenario],
+    units: Units,
+    thresholds: &[f64],
+) -> Vec<(String, Cell)> {
+    let su = units.snow_unit();
+    let lu = units.liquid_unit();
+    let snow = |mm: f64| Cell::Num(units.snow(mm as f32) as f64, 1);
+    let q = |k: usize| t.snow.map_or(f64::NAN, |s| s.quantiles[k]);
+    let (min, max) = t
+        .extremes
+        .map_or((f64::NAN, f64::NAN), |x| (x.min as f64, x.max as f64));
+    let flip = match t.flip {
+        FlipSearch::Flip(f) => Some(f),
+        _ => None,
+    };
+    let mut v = vec![
+        ("rank".to_string(), Cell::Num(rank as f64, 0)),
+        ("name".into(), Cell::Text(t.name.clone())),
+        ("lat".into(), Cell::Num(t.lat, 5)),
+        ("lon".into(), Cell::Num(t.lon, 5)),
+        ("bust_score".into(), Cell::Num(t.score, 2)),
+        (format!("baseline_{su}"), snow(t.baseline.snowfall as f64)),
+        (
+            format!("mean_{su}"),
+            snow(t.snow.map_or(f64::NAN, |s| s.mean)),
+        ),
+        (format!("p10_{su}"), snow(q(0))),
+        (format!("p50_{su}"), snow(q(1))),
+        (format!("p90_{su}"), snow(q(2))),
+        (format!("min_{su}"), snow(min)),
+        (format!("max_{su}"), snow(max)),
+        (format!("range_{su}"), snow(max - min)),
+        (
+            "baseline_type".into(),
+            Cell::Text(t.baseline.dominant().map_or("", |p| p.words()).to_string()),
+        ),
+        (
+            "flip_km".into(),
+            Cell::Num(flip.map_or(f64::NAN, |f| f.distance_km), 1),
+        ),
+        (
+            "flip_cross_km".into(),
+            Cell::Num(flip.map_or(f64::NAN, |f| f.cross_km), 1),
+        ),
+        (
+            "flip_along_km".into(),
+            Cell::Num(flip.map_or(f64::NAN, |f| f.along_km), 1),
+        ),
+        (
+            "flip_direction".into(),
+            Cell::Text(flip.map_or(String::new(), |f| scenarios[f.scenario].in_words())),
+        ),
+        ("flip_what".into(), Cell::Text(flip_words(&t.flip).into())),
+        (
+            "flip_to_type".into(),
+            Cell::Text(
+                flip.and_then(|f| f.to)
+                    .map_or("", |p| p.words())
+                    .to_string(),
+            ),
+        ),
+        (
+            format!("change_{su}_per_50km_left"),
+            Cell::Num(units.snow(t.sensitivity_cross) as f64, 1),
+        ),
+        (
+            format!("change_{su}_per_50km_ahead"),
+            Cell::Num(units.snow(t.sensitivity_along) as f64, 1),
+        ),
+    ];
+    for (th, p) in thresholds.iter().zip(&t.snow_exceedance) {
+        v.push((
+            format!("p_snow_ge_{}{su}", threshold_text(*th)),
+            Cell::Num(*p, 2),
+        ));
+    }
+    v.push((
+        format!("ice_baseline_{lu}"),
+        Cell::Num(units.liquid(t.ice_baseline) as f64, 1),
+    ));
+    v.push((
+        format!("ice_p90_{lu}"),
+        Cell::Num(
+            t.ice
+                .map_or(f64::NAN, |s| units.liquid(s.quantiles[2] as f32) as f64),
+            1,
+        ),
+    ));
+    v.push(("summary".into(), Cell::Text(sentence(t, scenarios, units))));
+    v
+}
+
+/// Writes `towns_bust.csv` and `towns_bust.geojson` for towns already ranked.
+pub fn write_towns_bust(
+    dir: &Path,
+    ranked: &[TownDecision],
+    scenarios: &[Scenario],
+    units: Units,
+    snow_thresholds: &[f64],
+) -> Result<Vec<Written>, WriteError> {
+    let csv_err = |e: csv::Error| WriteError::Io {
+        path: dir.join("towns_bust.csv"),
+        source: std::io::Error::other(e.to_string()),
+    };
+    let mut w = csv::Writer::from_writer(Vec::new());
+    let mut features = Vec::new();
+    let header_only = row(
+        0,
+        &placeholder(scenarios.len(), snow_thresholds.len()),
+        scenarios,
+        units,
+        snow_thresholds,
+    );
+    w.write_record(header_only.iter().map(|(k, _)| k))
+        .map_err(csv_err)?;
+    for (i, t) in ranked.iter().enumerate() {
+        let cells = row(i + 1, t, scenarios, units, snow_thresholds);
+        w.write_record(cells.iter().map(|(_, c)| c.csv()))
+            .map_err(csv_err)?;
+        let mut p = JsonObject::new();
+        for (k, c) in &cells {
+            if k != "lat" && k != "lon" {
+                p.insert(k.clone(), c.json());
+            }
+        }
+        features.push(Feature {
+            bbox: None,
+            geometry: Some(Geometry::new_point([
+                (t.lon * 1e5).round() / 1e5,
+                (t.lat * 1e5).round() / 1e5,
+            ])),
+            id: None,
+            properties: Some(p),
+            foreign_members: None,
+        });
+    }
+    let bytes = w.into_inner().map_err(|e| WriteError::Io {
+        path: dir.join("towns_bust.csv"),
+        source: std::io::Error::other(e.to_string()),
+    })?;
+    let text = String::from_utf8(bytes).expect("csv writes the UTF-8 it was given");
+    write_text_atomic(dir, "towns_bust.csv", &text)?;
+    let fc = FeatureCollection {
+        bbox: None,
+        features,
+        foreign_members: None,
+    };
+    write_text_atomic(dir, "towns_bust.geojson", &fc.to_string())?;
+    let su = units.snow_unit();
+    Ok(vec![
+        Written {
+            file: "towns_bust.csv".into(),
+            kind: Kind::Table,
+            units: format!("snowfall in {su}, ice in {}, offsets in km, probabilities 0–1", units.liquid_unit()),
+            description: "Bust-prone towns, ranked by bust score (P90 − P10 over the baseline, the baseline floored at 5 cm): weighted percentiles, flip distance and direction, sensitivity, and a sentence in plain words".into(),
+            bands: Vec::new(),
+        },
+        Written {
+            file: "towns_bust.geojson".into(),
+            kind: Kind::Vector,
+            units: format!("snowfall in {su}"),
+            description: "The bust-prone towns as points with the same values as towns_bust.csv".into(),
+            bands: Vec::new(),
+        },
+    ])
+}
+
+/// A town with every value missing, to name the columns when there are no towns.
+fn placeholder(n: usize, thresholds: usize) -> TownDecision {
+    use crate::summarise::sensitivity::CellTotals;
+    TownDecision {
+        name: String::new(),
+        lat: f64::NAN,
+        lon: f64::NAN,
+        baseline: CellTotals {
+            liquid: f32::NAN,
+            snow_liquid: f32::NAN,
+            snowfall: f32::NAN,
+            ice_pellets: f32::NAN,
+            freezing_rain: f32::NAN,
+        },
+        snowfall: vec![f32::NAN; n],
+        snow: None,
+        snow_exceedance: vec![f64::NAN; thresholds],
+        extremes: None,
+        ice_baseline: f32::NAN,
+        ice: None,
+        flip: FlipSearch::Missing,
+        sensitivity_cross: f32::NAN,
+        sensitivity_along: f32::NAN,
+        score: f64::NAN,
+    }
+}

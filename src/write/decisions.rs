@@ -1,0 +1,258 @@
+//! Decision layers (GeoTIFF): the weighted mean, P10/P50/P90 and threshold probabilities of
+//! snowfall and ice accretion, the sensitivity to the track, and the flip distance.
+//!
+//! Memory: each family of layers is computed from the totals in place (one cell's scenario
+//! values at a time), written, and dropped before the next; only what the quicklook maps need
+//! (P90 and the flip layers) is handed back.
+
+use super::{write_atomic, Kind, WriteError, Written};
+use crate::case::Units;
+use crate::engine::RunResult;
+use crate::geotiff::{write_geotiff, BandSpec, SampleEncoding, WriteOptions};
+use crate::summarise::ice::ice_accretion;
+use crate::summarise::quantiles::{distribution, DistributionLayers};
+use crate::summarise::sensitivity::{flip_layers, sensitivity_layer, Axis, FlipLayers, PER_KM};
+use std::path::Path;
+
+/// What the decision layers hand on to the quicklook maps.
+pub struct MapInputs {
+    /// Snowfall P90, mm.
+    pub snow_p90: Vec<f32>,
+    /// Flip layers.
+    pub flip: FlipLayers,
+}
+
+/// Settings of the decision layers.
+pub struct DecisionSettings<'a> {
+    /// Output units.
+    pub units: Units,
+    /// Normalised weight per scenario.
+    pub weights: &'a [f64],
+    /// Snowfall thresholds, output snow units.
+    pub snow_thresholds: &'a [f64],
+    /// Ice thresholds, output liquid units.
+    pub ice_thresholds: &'a [f64],
+    /// Dataset metadata for every GeoTIFF.
+    pub meta: &'a [(String, String)],
+}
+
+/// A threshold as written in band descriptions and column names: `2.5`, `10`.
+pub fn threshold_text(v: f64) -> String {
+    format!("{v}")
+}
+
+struct Band {
+    description: String,
+    data: Vec<f32>,
+    metadata: Vec<(String, String)>,
+}
+
+fn write_bands(
+    dir: &Path,
+    r: &RunResult,
+    meta: &[(String, String)],
+    file: &str,
+    units: &str,
+    description: &str,
+    bands: Vec<Band>,
+) -> Result<Written, WriteError> {
+    let specs: Vec<BandSpec> = bands
+        .iter()
+        .map(|b| BandSpec {
+            data: &b.data,
+            description: b.description.clone(),
+            metadata: b.metadata.clone(),
+        })
+        .collect();
+    let opts = WriteOptions {
+        encoding: SampleEncoding::Float32,
+        nodata: super::rasters::NODATA,
+        dataset_metadata: meta.to_vec(),
+        band_scaling: vec![],
+    };
+    write_atomic(dir, file, |tmp| {
+        write_geotiff(tmp, r.grid.nx, r.grid.ny, &r.grid.georef, &specs, &opts)
+            .map_err(WriteError::from)
+    })?;
+    Ok(Written {
+        file: file.into(),
+        kind: Kind::Raster,
+        units: units.into(),
+        description: description.into(),
+        bands: if bands.len() > 1 {
+            bands.into_iter().map(|b| b.description).collect()
+        } else {
+            Vec::new()
+        },
+    })
+}
+
+fn one(description: String, data: Vec<f32>, units: &str) -> Band {
+    Band {
+        description,
+        data,
+        metadata: vec![("units".into(), units.into())],
+    }
+}
+
+/// Writes the mean / P10 / P50 / P90 / exceedance family of one quantity; returns P90 (mm).
+#[allow(clippy::too_many_arguments)]
+fn write_family(
+    dir: &Path,
+    r: &RunResult,
+    meta: &[(String, String)],
+    stem: &str,
+    what: &str,
+    unit: &str,
+    to_unit: impl Fn(f32) -> f32,
+    thresholds: &[f64],
+    d: DistributionLayers,
+    out: &mut Vec<Written>,
+) -> Result<Vec<f32>, WriteError> {
+    let conv = |v: &[f32]| v.iter().map(|x| to_unit(*x)).collect::<Vec<f32>>();
+    out.push(write_bands(
+        dir,
+        r,
+        meta,
+        &format!("{stem}_mean.tif"),
+        unit,
+        &format!("{what}: mean over the track offsets, weighted by the track-error prior"),
+        vec![one(format!("{what}, weighted mean"), conv(&d.mean), unit)],
+    )?);
+    for (q, layer) in ["p10", "p50", "p90"].iter().zip(&d.quantiles) {
+        let pct = &q[1..];
+        out.push(write_bands(
+            dir,
+            r,
+            meta,
+            &format!("{stem}_{q}.tif"),
+            unit,
+            &format!("{what}: weighted {pct}th percentile over the track offsets ({pct} % of the prior's weight lies at or below it)"),
+            vec![one(format!("{what}, P{pct}"), conv(layer), unit)],
+        )?);
+    }
+    let bands = thresholds
+        .iter()
+        .zip(d.exceedance)
+        .map(|(t, data)| Band {
+            description: format!("P({what} ≥ {} {unit})", threshold_text(*t)),
+            data,
+            metadata: vec![
+                ("threshold".into(), threshold_text(*t)),
+                ("threshold_units".into(), unit.into()),
+                ("units".into(), "1".into()),
+            ],
+        })
+        .collect();
+    out.push(write_bands(
+        dir,
+        r,
+        meta,
+        &format!("{stem}_exceedance.tif"),
+        "1",
+        &format!("Probability (0–1, weighted by the track-error prior) that {what} reaches each threshold; one band per threshold"),
+        bands,
+    )?);
+    let [_, _, p90] = d.quantiles;
+    Ok(p90)
+}
+
+/// Writes every decision raster; returns what was written and what the maps need.
+pub fn write_decision_rasters(
+    dir: &Path,
+    r: &RunResult,
+    s: &DecisionSettings,
+) -> Result<(Vec<Written>, MapInputs), WriteError> {
+    let u = s.units;
+    let (su, lu) = (u.snow_unit(), u.liquid_unit());
+    let mut out = Vec::new();
+
+    let snow_mm: Vec<f64> = s.snow_thresholds.iter().map(|t| u.snow_to_mm(*t)).collect();
+    let d = distribution(&r.totals, s.weights, |t, i| t.snowfall[i], &snow_mm);
+    let snow_p90 = write_family(
+        dir,
+        r,
+        s.meta,
+        "snowfall",
+        "snowfall",
+        su,
+        |v| u.snow(v),
+        s.snow_thresholds,
+        d,
+        &mut out,
+    )?;
+
+    let ice_mm: Vec<f64> = s
+        .ice_thresholds
+        .iter()
+        .map(|t| u.liquid_to_mm(*t))
+        .collect();
+    let d = distribution(&r.totals, s.weights, ice_accretion, &ice_mm);
+    write_family(
+        dir,
+        r,
+        s.meta,
+        "ice_accretion",
+        "ice accretion",
+        lu,
+        |v| u.liquid(v),
+        s.ice_thresholds,
+        d,
+        &mut out,
+    )?;
+
+    let per = format!("{su} per {PER_KM} km");
+    for (axis, file, words) in [
+        (
+            Axis::Cross,
+            "snowfall_sensitivity_cross.tif",
+            "across the track (positive: more snow if the low tracks further left)",
+        ),
+        (
+            Axis::Along,
+            "snowfall_sensitivity_along.tif",
+            "along the track (positive: more snow if the low runs ahead)",
+        ),
+    ] {
+        let layer = sensitivity_layer(&r.totals, &r.scenarios, r.baseline, axis, |t, i| {
+            t.snowfall[i]
+        });
+        let data = layer.iter().map(|v| u.snow(*v)).collect();
+        out.push(write_bands(
+            dir,
+            r,
+            s.meta,
+            file,
+            &per,
+            &format!("Change of snowfall per {PER_KM} km of track shift at the model as issued, {words}; nodata where no offsets were run on this axis"),
+            vec![one(format!("snowfall change per {PER_KM} km, {words}"), data, &per)],
+        )?);
+    }
+
+    let flip = flip_layers(&r.totals, &r.scenarios, r.baseline);
+    let km = |d: &str, v: &[f32]| one(d.into(), v.to_vec(), "km");
+    let mut kind = one(
+        "what flips: 1 dominant type changes, 2 snowfall halves, 3 snowfall doubles, 0 nothing within the offsets run".into(),
+        flip.kind.clone(),
+        "1",
+    );
+    kind.metadata.push((
+        "codes".into(),
+        "0 none within offsets; 1 type change; 2 halves; 3 doubles".into(),
+    ));
+    out.push(write_bands(
+        dir,
+        r,
+        s.meta,
+        "flip_distance.tif",
+        "km",
+        "Smallest track shift (√(cross² + along²), km) at which the dominant precipitation type changes or the snowfall halves or doubles (each floored at 1 cm); band 2/3 give that shift's cross/along offset, band 4 what flips; nodata where nothing flips within the offsets run",
+        vec![
+            km("flip distance, km", &flip.distance_km),
+            km("cross-track offset of the flip, km (positive left)", &flip.cross_km),
+            km("along-track offset of the flip, km (positive ahead)", &flip.along_km),
+            kind,
+        ],
+    )?);
+    Ok((out, MapInputs { snow_p90, flip }))
+}

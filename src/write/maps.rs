@@ -1,0 +1,847 @@
+//! Quicklook maps (PNG): snowfall as modelled, its P90, its range over the offsets and the flip
+//! distance, each with every scenario's rain–snow line (the modelled one bold), the track of
+//! the low, the towns, a legend with units and a scale bar.
+//!
+//! Layout: the image is [`IMAGE_WIDTH`] px wide. The map panel shows the grid in an
+//! equirectangular projection true to scale at the grid's middle latitude (x = lon·cos φ₀,
+//! y = lat), as large as fits in [`PANEL_MAX_W`] × [`PANEL_MAX_H`] px; the legend stands to its
+//! right; a header of [`HEADER_H`] px and a footer of [`FOOTER_H`] px frame both. The height is
+//! `HEADER_H + max(panel height, LEGEND_MIN_H) + FOOTER_H`. North is up.
+
+use super::decisions::{threshold_text, MapInputs};
+use super::{write_atomic, Kind, WriteError, Written};
+use crate::case::Units;
+use crate::engine::RunResult;
+use crate::grid::{km_per_degree, Grid};
+use crate::render::ramp::{self, Ramp};
+use crate::render::{text, Canvas, Rgb};
+use crate::summarise::bust::TownDecision;
+use std::path::Path;
+
+/// Width of every map image, px.
+pub const IMAGE_WIDTH: usize = 1200;
+/// Largest map panel width, px.
+pub const PANEL_MAX_W: f64 = 820.0;
+/// Largest map panel height, px.
+pub const PANEL_MAX_H: f64 = 760.0;
+/// Header height, px.
+pub const HEADER_H: usize = 84;
+/// Footer height, px.
+pub const FOOTER_H: usize = 64;
+/// Least room for the legend, px.
+pub const LEGEND_MIN_H: usize = 680;
+const MARGIN: f64 = 24.0;
+/// Towns labelled on a map, highest bust score first (all get a marker).
+const MAX_LABELS: usize = 24;
+
+const INK: Rgb = [28, 30, 36];
+const MUTED: Rgb = [92, 96, 106];
+const WHITE: Rgb = [255, 255, 255];
+const TRACK: Rgb = [178, 34, 24];
+const NO_FLIP: Rgb = [236, 238, 232];
+const HATCH: Rgb = [150, 150, 150];
+
+/// Where the grid lands on the image. The panel shows the grid in its own cell-index space:
+/// on a lat/lon grid columns are narrowed by cos φ₀ (equirectangular, true to scale at the
+/// middle latitude φ₀); a projected grid is shown in its own projection (grid north up).
+#[derive(Clone, Copy, Debug)]
+pub struct Frame {
+    /// Pixels per column and per row.
+    px_per_col: f64,
+    px_per_row: f64,
+    /// km per pixel across the map at its centre.
+    km_per_px: f64,
+    /// Latitude of the map's centre, degrees.
+    mid_lat: f64,
+    lonlat: bool,
+    /// Panel left edge, px.
+    pub x0: f64,
+    /// Panel top, px.
+    pub y0: f64,
+    /// Panel width, px.
+    pub w: f64,
+    /// Panel height, px.
+    pub h: f64,
+    gt: [f64; 6],
+}
+
+impl Frame {
+    /// The frame of a grid.
+    pub fn of(grid: &Grid) -> Self {
+        let gt = grid.georef.geotransform;
+        let lonlat = !grid.is_projected();
+        let (_, mid_lat) =
+            grid.lonlat_of((grid.nx as f64 - 1.0) / 2.0, (grid.ny as f64 - 1.0) / 2.0);
+        // Display units per cell: degrees of latitude (lat/lon) or metres (projected).
+        let (dx, dy) = if lonlat {
+            (
+                gt[1].abs() * mid_lat.to_radians().cos().max(0.05),
+                gt[5].abs(),
+            )
+        } else {
+            (gt[1].abs(), gt[5].abs())
+        };
+        let scale = (PANEL_MAX_W / (grid.nx as f64 * dx)).min(PANEL_MAX_H / (grid.ny as f64 * dy));
+        let km_per_unit = if lonlat {
+            km_per_degree(mid_lat).0 / mid_lat.to_radians().cos().max(0.05)
+        } else {
+            0.001
+        };
+        Self {
+            px_per_col: dx * scale,
+            px_per_row: dy * scale,
+            km_per_px: km_per_unit / scale,
+            mid_lat,
+            lonlat,
+            x0: MARGIN,
+            y0: HEADER_H as f64,
+            w: (grid.nx as f64 * dx * scale).round(),
+            h: (grid.ny as f64 * dy * scale).round(),
+            gt,
+        }
+    }
+
+    /// Pixel position of a fractional (column, row) in cell-centre index space.
+    fn at_index(&self, col: f64, row: f64) -> (f64, f64) {
+        (
+            self.x0 + (col + 0.5) * self.px_per_col,
+            self.y0 + (row + 0.5) * self.px_per_row,
+        )
+    }
+
+    /// Pixel position of a lon/lat point (`None` off a projected grid's cell-centre hull).
+    pub fn project(&self, grid: &Grid, lon: f64, lat: f64) -> Option<(f64, f64)> {
+        let (c, r) = if self.lonlat {
+            let gt = self.gt;
+            ((lon - gt[0]) / gt[1] - 0.5, (lat - gt[3]) / gt[5] - 0.5)
+        } else {
+            grid.index_of(lon, lat)?
+        };
+        Some(self.at_index(c, r))
+    }
+
+    /// Fractional (column, row) under a pixel position.
+    fn index_at(&self, x: f64, y: f64) -> (f64, f64) {
+        (
+            (x - self.x0) / self.px_per_col - 0.5,
+            (y - self.y0) / self.px_per_row - 0.5,
+        )
+    }
+
+    fn clip(&self) -> [f64; 4] {
+        [self.x0, self.y0, self.x0 + self.w, self.y0 + self.h]
+    }
+
+    fn scale_note(&self) -> String {
+        if self.lonlat {
+            format!("North is up; scale true at {:.1}° latitude", self.mid_lat)
+        } else {
+            "Grid north is up; scale of the projected grid".to_string()
+        }
+    }
+}
+
+/// Projects a lon/lat polyline, splitting it where points fall off the map.
+fn project_line(
+    f: &Frame,
+    grid: &Grid,
+    pts: impl Iterator<Item = (f64, f64)>,
+) -> Vec<Vec<(f64, f64)>> {
+    let mut out = vec![Vec::new()];
+    for (lon, lat) in pts {
+        match f.project(grid, lon, lat) {
+            Some(p) => out.last_mut().expect("never empty").push(p),
+            None => out.push(Vec::new()),
+        }
+    }
+    out.retain(|l| l.len() >= 2);
+    out
+}
+
+/// Size (width, height) of the map images of a grid, px.
+pub fn image_size(grid: &Grid) -> (usize, usize) {
+    let f = Frame::of(grid);
+    (
+        IMAGE_WIDTH,
+        HEADER_H + (f.h as usize).max(LEGEND_MIN_H) + FOOTER_H,
+    )
+}
+
+/// Colour classes of a map.
+struct Classes {
+    /// Class k holds values in [bounds[k−1], bounds[k]) (or (…, …] when `upper_inclusive`).
+    bounds: Vec<f64>,
+    colours: Vec<Rgb>,
+    labels: Vec<String>,
+    upper_inclusive: bool,
+}
+
+impl Classes {
+    fn of(&self, v: f64) -> usize {
+        self.bounds
+            .iter()
+            .filter(|b| {
+                if self.upper_inclusive {
+                    v > **b
+                } else {
+                    v >= **b
+                }
+            })
+            .count()
+    }
+}
+
+/// Rounds to two significant figures (class bounds beyond the thresholds stay readable).
+fn two_figures(v: f64) -> f64 {
+    if v <= 0.0 {
+        return v;
+    }
+    let p = 10f64.powf(v.log10().floor() - 1.0);
+    (v / p).round() * p
+}
+
+/// Snow classes: below the first threshold, between thresholds, and up to three more steps of
+/// a third of the last threshold each (to two figures) when the field goes beyond it.
+fn amount_classes(thresholds: &[f64], max: f64, unit: &str, ramp: &Ramp) -> Classes {
+    let mut bounds = thresholds.to_vec();
+    let last = *bounds.last().expect("thresholds are never empty");
+    for k in 1..=3 {
+        if bounds.last().is_some_and(|b| *b < max) {
+            bounds.push(two_figures(last * (1.0 + k as f64 / 3.0)));
+        }
+    }
+    let t = |v: f64| threshold_text((v * 100.0).round() / 100.0);
+    let mut labels = vec![format!("under {} {unit}", t(bounds[0]))];
+    for w in bounds.windows(2) {
+        labels.push(format!("{} – {} {unit}", t(w[0]), t(w[1])));
+    }
+    labels.push(format!(
+        "{} {unit} or more",
+        t(*bounds.last().expect("not empty"))
+    ));
+    Classes {
+        colours: ramp.classes(labels.len()),
+        bounds,
+        labels,
+        upper_inclusive: false,
+    }
+}
+
+/// Flip-distance classes: steps of 25, 50 or 100 km up to the farthest offset.
+fn distance_classes(max_km: f64, ramp: &Ramp) -> Classes {
+    let step = if max_km <= 150.0 {
+        25.0
+    } else if max_km <= 400.0 {
+        50.0
+    } else {
+        100.0
+    };
+    let n = ((max_km / step).ceil() as usize).clamp(1, 12);
+    let bounds: Vec<f64> = (1..n).map(|k| k as f64 * step).collect();
+    let mut labels = Vec::new();
+    let mut lo = 0.0;
+    for k in 0..n {
+        let hi = (k + 1) as f64 * step;
+        labels.push(if k == 0 {
+            format!("within {hi:.0} km")
+        } else {
+            format!("{lo:.0} – {hi:.0} km")
+        });
+        lo = hi;
+    }
+    Classes {
+        colours: ramp.classes(n),
+        bounds,
+        labels,
+        upper_inclusive: true,
+    }
+}
+
+/// The value of a field at a fractional (column, row): bilinear where the four cells are
+/// present, otherwise the nearest cell (NaN outside the grid).
+fn sample(grid: &Grid, field: &[f32], c: f64, r: f64, nearest_only: bool) -> f32 {
+    if c < -0.5 || r < -0.5 || c > grid.nx as f64 - 0.5 || r > grid.ny as f64 - 0.5 {
+        return f32::NAN;
+    }
+    let near = |c: f64, r: f64| {
+        let ci = (c.round().max(0.0) as usize).min(grid.nx - 1);
+        let ri = (r.round().max(0.0) as usize).min(grid.ny - 1);
+        field[ri * grid.nx + ci]
+    };
+    if nearest_only || grid.nx < 2 || grid.ny < 2 {
+        return near(c, r);
+    }
+    let (cc, rr) = (
+        c.clamp(0.0, (grid.nx - 1) as f64),
+        r.clamp(0.0, (grid.ny - 1) as f64),
+    );
+    let c0 = (cc.floor() as usize).min(grid.nx - 2);
+    let r0 = (rr.floor() as usize).min(grid.ny - 2);
+    let (fx, fy) = ((cc - c0 as f64) as f32, (rr - r0 as f64) as f32);
+    let v = |dc: usize, dr: usize| field[(r0 + dr) * grid.nx + c0 + dc];
+    let s = v(0, 0) * (1.0 - fx) * (1.0 - fy)
+        + v(1, 0) * fx * (1.0 - fy)
+        + v(0, 1) * (1.0 - fx) * fy
+        + v(1, 1) * fx * fy;
+    if s.is_nan() {
+        near(c, r)
+    } else {
+        s
+    }
+}
+
+fn hatch(c: &mut Canvas, x: i64, y: i64) {
+    if (x + y).rem_euclid(7) == 0 {
+        c.set(x, y, HATCH);
+    } else {
+        c.set(x, y, [246, 246, 246]);
+    }
+}
+
+/// What one map shows.
+struct MapSpec<'a> {
+    file: &'a str,
+    title: String,
+    legend_title: String,
+    field: &'a [f32],
+    classes: Classes,
+    nearest_only: bool,
+    /// Cells (value 0 in this layer) shown as "nothing flips within the offsets run".
+    never: Option<&'a [f32]>,
+}
+
+/// Everything the maps draw besides the field.
+struct Overlay<'a> {
+    frame: Frame,
+    /// Rain–snow lines per scenario (baseline last), lon/lat.
+    lines: Vec<(bool, Vec<Vec<[f64; 2]>>)>,
+    track: Vec<(f64, f64)>,
+    centres: Vec<(f64, f64)>,
+    towns: &'a [TownDecision],
+    subtitle: String,
+    notes: Vec<String>,
+}
+
+fn draw_field(c: &mut Canvas, grid: &Grid, f: &Frame, spec: &MapSpec) {
+    let (x0, y0) = (f.x0 as i64, f.y0 as i64);
+    for py in 0..f.h as i64 {
+        for px in 0..f.w as i64 {
+            let (col, row) = f.index_at((x0 + px) as f64 + 0.5, (y0 + py) as f64 + 0.5);
+            let v = sample(grid, spec.field, col, row, spec.nearest_only);
+            let (x, y) = (x0 + px, y0 + py);
+            if v.is_finite() {
+                c.set(x, y, spec.classes.colours[spec.classes.of(v as f64)]);
+            } else if spec
+                .never
+                .is_some_and(|k| sample(grid, k, col, row, true) == 0.0)
+            {
+                c.set(x, y, NO_FLIP);
+            } else {
+                hatch(c, x, y);
+            }
+        }
+    }
+}
+
+fn draw_overlays(c: &mut Canvas, grid: &Grid, o: &Overlay) {
+    let f = &o.frame;
+    let clip = f.clip();
+    for (baseline, lines) in &o.lines {
+        for pts in lines
+            .iter()
+            .flat_map(|l| project_line(f, grid, l.iter().map(|p| (p[0], p[1]))))
+        {
+            if *baseline {
+                c.polyline(&pts, 5.5, WHITE, 0.9, clip);
+                c.polyline(&pts, 2.8, INK, 1.0, clip);
+            } else {
+                c.polyline(&pts, 1.1, [40, 52, 70], 0.32, clip);
+            }
+        }
+    }
+    let inside =
+        |p: &(f64, f64)| p.0 >= clip[0] && p.0 <= clip[2] && p.1 >= clip[1] && p.1 <= clip[3];
+    for pts in project_line(f, grid, o.track.iter().copied()) {
+        c.polyline(&pts, 5.5, WHITE, 0.85, clip);
+        c.polyline(&pts, 2.6, TRACK, 1.0, clip);
+        // Arrowhead on the last segment that ends inside the panel.
+        if let Some(k) = (1..pts.len()).rev().find(|&k| inside(&pts[k])) {
+            let (a, b) = (pts[k - 1], pts[k]);
+            let len = (b.0 - a.0).hypot(b.1 - a.1);
+            if len > 0.0 {
+                let (ux, uy) = ((b.0 - a.0) / len, (b.1 - a.1) / len);
+                let tip = b;
+                let back = (tip.0 - 14.0 * ux, tip.1 - 14.0 * uy);
+                c.triangle(
+                    [
+                        tip,
+                        (back.0 - 6.0 * uy, back.1 + 6.0 * ux),
+                        (back.0 + 6.0 * uy, back.1 - 6.0 * ux),
+                    ],
+                    TRACK,
+                );
+            }
+        }
+    }
+    for q in o.centres.iter().filter_map(|p| f.project(grid, p.0, p.1)) {
+        if inside(&q) {
+            c.disc(q.0, q.1, 3.6, WHITE);
+            c.disc(q.0, q.1, 2.4, TRACK);
+        }
+    }
+    let mut placed: Vec<[f64; 4]> = Vec::new();
+    let size = 13.0;
+    let lh = text::line_height(size);
+    for (rank, t) in o.towns.iter().enumerate() {
+        let Some((x, y)) = f.project(grid, t.lon, t.lat) else {
+            continue;
+        };
+        c.disc(x, y, 5.0, INK);
+        c.disc(x, y, 3.2, WHITE);
+        if rank >= MAX_LABELS {
+            continue;
+        }
+        let w = text::width(&t.name, size);
+        let candidates = [
+            (x + 8.0, y - lh / 2.0),
+            (x - 8.0 - w, y - lh / 2.0),
+            (x - w / 2.0, y - 8.0 - lh),
+            (x - w / 2.0, y + 8.0),
+        ];
+        let fits = |r: &[f64; 4]| {
+            r[0] >= clip[0] + 2.0
+                && r[2] <= clip[2] - 2.0
+                && r[1] >= clip[1] + 2.0
+                && r[3] <= clip[3] - 2.0
+                && placed
+                    .iter()
+                    .all(|p| r[2] < p[0] || r[0] > p[2] || r[3] < p[1] || r[1] > p[3])
+        };
+        if let Some(r) = candidates
+            .iter()
+            .map(|&(lx, ly)| [lx, ly, lx + w, ly + lh])
+            .find(fits)
+        {
+            text::draw_with_halo(c, r[0], r[1], size, INK, WHITE, &t.name);
+            placed.push(r);
+        }
+    }
+}
+
+fn nice_length(target: f64) -> f64 {
+    let p = 10f64.powf(target.log10().floor());
+    [1.0, 2.0, 5.0, 10.0]
+        .iter()
+        .map(|m| m * p)
+        .filter(|v| *v <= target)
+        .fold(p, f64::max)
+}
+
+/// Draws the scale bar (km and miles, true at the middle latitude) with its top-left corner at
+/// (bx, by), at most `max_w` px wide; returns the height used.
+fn draw_scale_bar(c: &mut Canvas, f: &Frame, bx: f64, by: f64, max_w: f64) -> f64 {
+    let km_px = f.km_per_px;
+    let target_px = (max_w - 80.0).min(f.w * 0.3);
+    let km = nice_length(target_px * km_px);
+    let mi = nice_length(target_px * km_px / 1.609_344);
+    let (km_w, mi_w) = (km / km_px, mi * 1.609_344 / km_px);
+    let bx = bx - 8.0;
+    for (row, len_px, label) in [
+        (0.0, km_w, format!("{km} km")),
+        (22.0, mi_w, format!("{mi} mi")),
+    ] {
+        let y = by + 12.0 + row;
+        for k in 0..4 {
+            let (sx, ex) = (
+                bx + 8.0 + len_px * k as f64 / 4.0,
+                bx + 8.0 + len_px * (k + 1) as f64 / 4.0,
+            );
+            let col = if k % 2 == 0 { INK } else { WHITE };
+            c.fill_rect(sx as i64, y as i64, ex as i64, (y + 6.0) as i64, col);
+        }
+        c.stroke_rect(
+            (bx + 8.0) as i64,
+            y as i64,
+            (bx + 8.0 + len_px) as i64 + 1,
+            (y + 6.0) as i64 + 1,
+            1,
+            INK,
+        );
+        text::draw(c, bx + 14.0 + len_px, y - 5.0, 12.0, INK, &label);
+    }
+    text::draw(c, bx + 8.0, by + 50.0, 11.0, MUTED, &f.scale_note());
+    68.0
+}
+
+fn legend(c: &mut Canvas, o: &Overlay, spec: &MapSpec, scenarios: usize) {
+    let f = &o.frame;
+    let lx = f.x0 + f.w + 28.0;
+    let lw = IMAGE_WIDTH as f64 - lx - MARGIN;
+    let mut y = f.y0;
+    for l in text::wrap(&spec.legend_title, 16.0, lw) {
+        text::draw(c, lx, y, 16.0, INK, &l);
+        y += 21.0;
+    }
+    y += 6.0;
+    let sw = 28.0;
+    let n = spec.classes.colours.len();
+    // Largest amounts at the top, as on a thermometer.
+    for k in (0..n).rev() {
+        c.fill_rect(
+            lx as i64,
+            y as i64,
+            (lx + sw) as i64,
+            (y + 18.0) as i64,
+            spec.classes.colours[k],
+        );
+        c.stroke_rect(
+            lx as i64,
+            y as i64,
+            (lx + sw) as i64,
+            (y + 18.0) as i64,
+            1,
+            [170, 170, 170],
+        );
+        text::draw(
+            c,
+            lx + sw + 10.0,
+            y + 1.0,
+            13.0,
+            INK,
+            &spec.classes.labels[k],
+        );
+        y += 21.0;
+    }
+    if spec.never.is_some() {
+        c.fill_rect(
+            lx as i64,
+            y as i64,
+            (lx + sw) as i64,
+            (y + 18.0) as i64,
+            NO_FLIP,
+        );
+        c.stroke_rect(
+            lx as i64,
+            y as i64,
+            (lx + sw) as i64,
+            (y + 18.0) as i64,
+            1,
+            [170, 170, 170],
+        );
+        text::draw(
+            c,
+            lx + sw + 10.0,
+            y + 1.0,
+            13.0,
+            INK,
+            "no flip within the offsets run",
+        );
+        y += 21.0;
+    }
+    for yy in y as i64..(y + 18.0) as i64 {
+        for xx in lx as i64..(lx + sw) as i64 {
+            hatch(c, xx, yy);
+        }
+    }
+    c.stroke_rect(
+        lx as i64,
+        y as i64,
+        (lx + sw) as i64,
+        (y + 18.0) as i64,
+        1,
+        [170, 170, 170],
+    );
+    text::draw(c, lx + sw + 10.0, y + 1.0, 13.0, INK, "no data");
+    y += 34.0;
+
+    let key = |c: &mut Canvas, y: &mut f64, draw: &dyn Fn(&mut Canvas, f64), words: &str| {
+        draw(c, *y + 9.0);
+        let lines = text::wrap(words, 12.5, lw - sw - 10.0);
+        for (i, l) in lines.iter().enumerate() {
+            text::draw(c, lx + sw + 10.0, *y + i as f64 * 16.0, 12.5, INK, l);
+        }
+        *y += 16.0 * lines.len().max(1) as f64 + 8.0;
+    };
+    let wide = [0.0, 0.0, IMAGE_WIDTH as f64, c.height as f64];
+    key(
+        c,
+        &mut y,
+        &|c, yy| {
+            c.polyline(&[(lx, yy), (lx + sw, yy)], 5.5, WHITE, 0.9, wide);
+            c.polyline(&[(lx, yy), (lx + sw, yy)], 2.8, INK, 1.0, wide);
+        },
+        "rain–snow line as modelled (half the precipitation falls as snow)",
+    );
+    key(
+        c,
+        &mut y,
+        &|c, yy| c.polyline(&[(lx, yy), (lx + sw, yy)], 1.1, [40, 52, 70], 0.6, wide),
+        &format!(
+            "the same line for each of the {} other track offsets",
+            scenarios.saturating_sub(1)
+        ),
+    );
+    key(
+        c,
+        &mut y,
+        &|c, yy| {
+            c.polyline(&[(lx, yy), (lx + sw, yy)], 2.6, TRACK, 1.0, wide);
+            c.disc(lx + sw / 2.0, yy, 2.4, TRACK);
+        },
+        "track of the low as modelled; dots at the model's time steps",
+    );
+    key(
+        c,
+        &mut y,
+        &|c, yy| {
+            c.disc(lx + sw / 2.0, yy, 5.0, INK);
+            c.disc(lx + sw / 2.0, yy, 3.2, WHITE);
+        },
+        "town (labels for the most bust-prone first)",
+    );
+    y += 8.0;
+    for note in &o.notes {
+        for l in text::wrap(note, 12.0, lw) {
+            text::draw(c, lx, y, 12.0, MUTED, &l);
+            y += 15.5;
+        }
+        y += 6.0;
+    }
+    y += 10.0;
+    draw_scale_bar(c, f, lx, y, lw);
+}
+
+fn render(grid: &Grid, spec: &MapSpec, o: &Overlay, scenarios: usize) -> Canvas {
+    let (w, h) = image_size(grid);
+    let mut c = Canvas::new(w, h, WHITE);
+    let f = &o.frame;
+    text::draw(&mut c, MARGIN, 16.0, 24.0, INK, &spec.title);
+    text::draw(&mut c, MARGIN, 52.0, 13.5, MUTED, &o.subtitle);
+    draw_field(&mut c, grid, f, spec);
+    draw_overlays(&mut c, grid, o);
+    c.stroke_rect(
+        f.x0 as i64 - 1,
+        f.y0 as i64 - 1,
+        (f.x0 + f.w) as i64 + 1,
+        (f.y0 + f.h) as i64 + 1,
+        1,
+        MUTED,
+    );
+    legend(&mut c, o, spec, scenarios);
+    let mut y = h as f64 - FOOTER_H as f64 + 14.0;
+    for l in text::wrap(crate::CAUTION, 12.0, IMAGE_WIDTH as f64 - 2.0 * MARGIN) {
+        text::draw(&mut c, MARGIN, y, 12.0, MUTED, &l);
+        y += 16.0;
+    }
+    c
+}
+
+/// What the maps say about the run, for their subtitles and notes.
+pub struct MapContext<'a> {
+    /// The case's title.
+    pub title: &'a str,
+    /// Output units.
+    pub units: Units,
+    /// Snowfall thresholds (output units): the colour classes.
+    pub snow_thresholds: &'a [f64],
+    /// The prior in words.
+    pub prior_words: String,
+}
+
+/// Writes the four quicklook maps.
+pub fn write_maps(
+    dir: &Path,
+    r: &RunResult,
+    ctx: &MapContext,
+    inputs: &MapInputs,
+    ranked_towns: &[TownDecision],
+) -> Result<Vec<Written>, WriteError> {
+    let u = ctx.units;
+    let su = u.snow_unit();
+    let frame = Frame::of(&r.grid);
+    let mut lines = Vec::new();
+    for (i, t) in r.totals.iter().enumerate() {
+        if i != r.baseline {
+            lines.push((
+                false,
+                super::lines::isolines(
+                    &r.grid,
+                    &t.snow_fraction(),
+                    super::lines::RAIN_SNOW_FRACTION,
+                )?,
+            ));
+        }
+    }
+    lines.push((
+        true,
+        super::lines::isolines(
+            &r.grid,
+            &r.totals[r.baseline].snow_fraction(),
+            super::lines::RAIN_SNOW_FRACTION,
+        )?,
+    ));
+    let track = r
+        .track
+        .as_ref()
+        .map(|t| t.points.iter().map(|p| (p.lon, p.lat)).collect())
+        .unwrap_or_default();
+    let centres = r.centres.iter().flatten().copied().collect();
+    let far = r
+        .scenarios
+        .iter()
+        .map(|s| s.cross_km.hypot(s.along_km))
+        .fold(0.0, f64::max);
+    let span = |v: &dyn Fn(&crate::scenario::Scenario) -> f64| {
+        let (lo, hi) = r
+            .scenarios
+            .iter()
+            .map(v)
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), x| {
+                (a.min(x), b.max(x))
+            });
+        if lo == hi {
+            format!("{lo} km")
+        } else {
+            format!("{lo} … {hi} km")
+        }
+    };
+    let overlay = Overlay {
+        frame,
+        lines,
+        track,
+        centres,
+        towns: ranked_towns,
+        subtitle: format!(
+            "{} · {} track offsets · snowfall in {su}",
+            ctx.title,
+            r.scenarios.len()
+        ),
+        notes: vec![
+            format!(
+                "Offsets: across the track {} (positive = left of the storm's motion), along it {} (positive = ahead).",
+                span(&|s| s.cross_km),
+                span(&|s| s.along_km)
+            ),
+            format!("Track-error prior: {}.", ctx.prior_words),
+        ],
+    };
+
+    let to_unit = |v: &[f32]| v.iter().map(|x| u.snow(*x)).collect::<Vec<f32>>();
+    let baseline = to_unit(&r.totals[r.baseline].snowfall);
+    let p90 = to_unit(&inputs.snow_p90);
+    let refs: Vec<&[f32]> = r.totals.iter().map(|t| t.snowfall.as_slice()).collect();
+    let range = to_unit(&crate::summarise::spread(&refs).range);
+    let fmax = |v: &[f32]| {
+        v.iter()
+            .filter(|x| x.is_finite())
+            .fold(0.0f32, |a, b| a.max(*b)) as f64
+    };
+    let amounts = amount_classes(
+        ctx.snow_thresholds,
+        fmax(&baseline).max(fmax(&p90)),
+        su,
+        &ramp::snow(),
+    );
+    let range_classes = amount_classes(ctx.snow_thresholds, fmax(&range), su, &ramp::spread());
+    let specs = [
+        MapSpec {
+            file: "map_baseline.png",
+            title: "Snowfall as modelled".into(),
+            legend_title: format!("Storm-total snowfall ({su}), track as modelled"),
+            field: &baseline,
+            classes: amounts,
+            nearest_only: false,
+            never: None,
+        },
+        MapSpec {
+            file: "map_p90.png",
+            title: "Snowfall if the track error goes the snowy way (P90)".into(),
+            legend_title: format!(
+                "Snowfall ({su}) exceeded with 1-in-10 chance under the track-error prior (P90)"
+            ),
+            field: &p90,
+            classes: amount_classes(
+                ctx.snow_thresholds,
+                fmax(&baseline).max(fmax(&p90)),
+                su,
+                &ramp::snow(),
+            ),
+            nearest_only: false,
+            never: None,
+        },
+        MapSpec {
+            file: "map_range.png",
+            title: "How much the snowfall depends on the track".into(),
+            legend_title: format!("Largest minus smallest snowfall over all track offsets ({su})"),
+            field: &range,
+            classes: range_classes,
+            nearest_only: false,
+            never: None,
+        },
+        MapSpec {
+            file: "map_flip_distance.png",
+            title: "How far the track must shift before the forecast flips".into(),
+            legend_title: "Smallest track shift (km) that changes the main precipitation type or halves or doubles the snowfall".into(),
+            field: &inputs.flip.distance_km,
+            classes: distance_classes(far, &ramp::flip()),
+            nearest_only: true,
+            never: Some(&inputs.flip.kind),
+        },
+    ];
+    let mut out = Vec::new();
+    for spec in &specs {
+        let canvas = render(&r.grid, spec, &overlay, r.scenarios.len());
+        let bytes = canvas.to_png();
+        write_atomic(dir, spec.file, |tmp| {
+            std::fs::write(tmp, &bytes).map_err(|source| WriteError::Io {
+                path: tmp.to_path_buf(),
+                source,
+            })
+        })?;
+        out.push(Written {
+            file: spec.file.into(),
+            kind: Kind::Image,
+            units: if spec.never.is_some() {
+                "km".into()
+            } else {
+                su.into()
+            },
+            description: format!("Quicklook map (PNG): {}", spec.title),
+            bands: Vec::new(),
+        });
+    }
+    Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn classes_follow_the_thresholds() {
+        let c = amount_classes(&[2.5, 5.0, 10.0], 25.0, "cm", &ramp::snow());
+        // 10 → 13, 17, 20 added (thirds of 10, two figures); 25 > 20 so all three.
+        assert_eq!(c.bounds, [2.5, 5.0, 10.0, 13.0, 17.0, 20.0]);
+        assert_eq!(c.labels[0], "under 2.5 cm");
+        assert_eq!(c.labels[3], "10 – 13 cm");
+        assert_eq!(c.labels.last().unwrap(), "20 cm or more");
+        assert_eq!(c.of(0.0), 0);
+        assert_eq!(c.of(2.5), 1);
+        assert_eq!(c.of(99.0), 6);
+        let d = distance_classes(100.0, &ramp::flip());
+        assert_eq!(
+            d.labels,
+            ["within 25 km", "25 – 50 km", "50 – 75 km", "75 – 100 km"]
+        );
+        assert_eq!(d.of(25.0), 0);
+        assert_eq!(d.of(25.1), 1);
+        assert_eq!(d.of(100.0), 3);
+    }
+
+    #[test]
+    fn nice_lengths() {
+        assert_eq!(nice_length(180.0), 100.0);
+        assert_eq!(nice_length(230.0), 200.0);
+        assert_eq!(nice_length(60.0), 50.0);
+    }
+}

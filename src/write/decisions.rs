@@ -8,7 +8,7 @@
 use super::{write_atomic, Kind, WriteError, Written};
 use crate::case::Units;
 use crate::engine::RunResult;
-use crate::geotiff::{write_geotiff, BandSpec, SampleEncoding, WriteOptions};
+use crate::geotiff::{write_cog, BandSpec, CogOptions, SampleEncoding, WriteOptions};
 use crate::summarise::ice::ice_accretion;
 use crate::summarise::quantiles::{distribution, DistributionLayers};
 use crate::summarise::sensitivity::{flip_layers, sensitivity_layer, Axis, FlipLayers, PER_KM};
@@ -71,19 +71,25 @@ fn write_bands(
         band_scaling: vec![],
     };
     write_atomic(dir, file, |tmp| {
-        write_geotiff(tmp, r.grid.nx, r.grid.ny, &r.grid.georef, &specs, &opts)
-            .map_err(WriteError::from)
+        // Cloud-optimised like every other layer, so a GIS opens them the same way.
+        write_cog(
+            tmp,
+            r.grid.nx,
+            r.grid.ny,
+            &r.grid.georef,
+            &specs,
+            &opts,
+            &CogOptions::default(),
+        )
+        .map(|_| ())
+        .map_err(WriteError::from)
     })?;
     Ok(Written {
         file: file.into(),
         kind: Kind::Raster,
         units: units.into(),
         description: description.into(),
-        bands: if bands.len() > 1 {
-            bands.into_iter().map(|b| b.description).collect()
-        } else {
-            Vec::new()
-        },
+        bands: bands.into_iter().map(|b| b.description).collect(),
     })
 }
 

@@ -182,6 +182,17 @@ pub fn write_manifest(
                         along_km: Some(s.along_km),
                     })
                     .collect()
+            } else if !f.bands.is_empty() {
+                f.bands
+                    .iter()
+                    .enumerate()
+                    .map(|(i, d)| BandEntry {
+                        band: i + 1,
+                        description: d.clone(),
+                        cross_km: None,
+                        along_km: None,
+                    })
+                    .collect()
             } else {
                 vec![BandEntry {
                     band: 1,

@@ -91,6 +91,10 @@ pub struct TownDecision {
     pub ice: Option<Summary>,
     /// The nearest flip.
     pub flip: FlipSearch,
+    /// How far the first measurable snow (0.1 mm of liquid as snow in a step) moves over the
+    /// scenarios, hours relative to the model as issued: (earliest, latest); NaN when it never
+    /// snows measurably as modelled. Scenarios in which it never begins are left out.
+    pub onset_shift_h: (f64, f64),
     /// Snowfall sensitivity across the track, mm per 50 km (positive: more if the low tracks left).
     pub sensitivity_cross: f32,
     /// Snowfall sensitivity along the track, mm per 50 km (positive: more if the low runs ahead).
@@ -191,10 +195,12 @@ pub fn town_decisions(
                 bust_score(s.quantiles[0], s.quantiles[2], base.snowfall as f64)
             });
             let (sensitivity_cross, sensitivity_along) = (diff(&cross), diff(&along));
+            let onset_shift_h = onset_shift_hours(r, t.lon, t.lat);
             TownDecision {
                 name: t.name.clone(),
                 lat: t.lat,
                 lon: t.lon,
+                onset_shift_h,
                 baseline: base,
                 ice_baseline: ice[r.baseline],
                 ice: weighted(&ice).as_deref().map(summary),
@@ -363,6 +369,23 @@ pub fn sentence(t: &TownDecision, scenarios: &[Scenario], units: Units) -> Strin
     parts.join("; ") + "."
 }
 
+/// Earliest and latest onset of measurable snow over the scenarios, hours relative to the
+/// baseline's onset (NaN, NaN when the baseline never reaches it).
+fn onset_shift_hours(r: &RunResult, lon: f64, lat: f64) -> (f64, f64) {
+    let time = |k: u32| r.valid_times[k as usize - 1];
+    let onset = |s: usize| crate::accumulate::onset_at(&r.totals[s], &r.grid, lon, lat);
+    let Some(base) = onset(r.baseline).map(time) else {
+        return (f64::NAN, f64::NAN);
+    };
+    let shifts: Vec<f64> = (0..r.totals.len())
+        .filter_map(onset)
+        .map(|k| (time(k) - base).num_minutes() as f64 / 60.0)
+        .collect();
+    let lo = shifts.iter().copied().fold(f64::INFINITY, f64::min);
+    let hi = shifts.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    (lo, hi)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -374,6 +397,7 @@ mod tests {
             name: "T".into(),
             lat: 0.0,
             lon: 0.0,
+            onset_shift_h: (f64::NAN, f64::NAN),
             baseline: CellTotals {
                 liquid: 18.0,
                 snow_liquid: 18.0,

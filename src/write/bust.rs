@@ -114,6 +114,14 @@ fn row(
         ),
         ("flip_what".into(), Cell::Text(flip_words(&t.flip).into())),
         (
+            "onset_earliest_shift_h".into(),
+            Cell::Num(t.onset_shift_h.0, 1),
+        ),
+        (
+            "onset_latest_shift_h".into(),
+            Cell::Num(t.onset_shift_h.1, 1),
+        ),
+        (
             "flip_to_type".into(),
             Cell::Text(
                 flip.and_then(|f| f.to)
@@ -234,6 +242,7 @@ fn placeholder(n: usize, thresholds: usize) -> TownDecision {
         name: String::new(),
         lat: f64::NAN,
         lon: f64::NAN,
+        onset_shift_h: (f64::NAN, f64::NAN),
         baseline: CellTotals {
             liquid: f32::NAN,
             snow_liquid: f32::NAN,

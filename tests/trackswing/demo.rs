@@ -371,3 +371,61 @@ fn demo_towns_table_carries_every_axis_and_the_onset() {
     }
     assert!(compared >= 5, "{compared} towns compared");
 }
+
+#[test]
+fn bust_table_onset_shift_agrees_with_the_towns_table_onset_times() {
+    let d = tempfile::tempdir().unwrap();
+    run_demo(d.path(), &["--cross", "-60:60:30", "--along", "0"]);
+    let hours = |a: &str, b: &str| {
+        let a = chrono::DateTime::parse_from_rfc3339(a).unwrap();
+        let b = chrono::DateTime::parse_from_rfc3339(b).unwrap();
+        (a - b).num_minutes() as f64 / 60.0
+    };
+    let mut towns = csv::Reader::from_path(d.path().join("towns.csv")).unwrap();
+    let th = towns.headers().unwrap().clone();
+    let col = |h: &csv::StringRecord, n: &str| h.iter().position(|c| c == n).unwrap();
+    let (tn, tb, te, tl) = (
+        col(&th, "name"),
+        col(&th, "baseline_onset_utc"),
+        col(&th, "earliest_onset_utc"),
+        col(&th, "latest_onset_utc"),
+    );
+    let mut expected = std::collections::HashMap::new();
+    for r in towns.records() {
+        let r = r.unwrap();
+        if !r[tb].is_empty() {
+            expected.insert(
+                r[tn].to_string(),
+                (hours(&r[te], &r[tb]), hours(&r[tl], &r[tb])),
+            );
+        }
+    }
+    assert!(
+        !expected.is_empty(),
+        "some demo town has a measurable snow onset"
+    );
+    let mut bust = csv::Reader::from_path(d.path().join("towns_bust.csv")).unwrap();
+    let bh = bust.headers().unwrap().clone();
+    let (bn, be, bl) = (
+        col(&bh, "name"),
+        col(&bh, "onset_earliest_shift_h"),
+        col(&bh, "onset_latest_shift_h"),
+    );
+    let mut checked = 0;
+    for r in bust.records() {
+        let r = r.unwrap();
+        match expected.get(&r[bn]) {
+            Some((e, l)) => {
+                assert_eq!(r[be].parse::<f64>().unwrap(), *e, "{}", &r[bn]);
+                assert_eq!(r[bl].parse::<f64>().unwrap(), *l, "{}", &r[bn]);
+                assert!(
+                    e <= &0.0 && l >= &0.0,
+                    "the baseline lies within its own range"
+                );
+                checked += 1;
+            }
+            None => assert!(r[be].is_empty() && r[bl].is_empty()),
+        }
+    }
+    assert_eq!(checked, expected.len());
+}

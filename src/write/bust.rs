@@ -6,12 +6,12 @@
 
 use super::decisions::threshold_text;
 use super::towns::spreadsheet_safe;
-use super::{write_text_atomic, Kind, WriteError, Written};
+use super::{Kind, WriteError, Written};
 use crate::case::Units;
 use crate::scenario::Scenario;
 use crate::summarise::bust::{sentence, TownDecision};
 use crate::summarise::sensitivity::{FlipKind, FlipSearch};
-use geojson::{Feature, FeatureCollection, Geometry, JsonObject};
+use geojson::JsonObject;
 use serde_json::Value;
 use std::path::Path;
 
@@ -193,29 +193,9 @@ pub fn write_towns_bust(
                 p.insert(k.clone(), c.json());
             }
         }
-        features.push(Feature {
-            bbox: None,
-            geometry: Some(Geometry::new_point([
-                (t.lon * 1e5).round() / 1e5,
-                (t.lat * 1e5).round() / 1e5,
-            ])),
-            id: None,
-            properties: Some(p),
-            foreign_members: None,
-        });
+        features.push(super::towns::point_feature(t.lon, t.lat, p));
     }
-    let bytes = w.into_inner().map_err(|e| WriteError::Io {
-        path: dir.join("towns_bust.csv"),
-        source: std::io::Error::other(e.to_string()),
-    })?;
-    let text = String::from_utf8(bytes).expect("csv writes the UTF-8 it was given");
-    write_text_atomic(dir, "towns_bust.csv", &text)?;
-    let fc = FeatureCollection {
-        bbox: None,
-        features,
-        foreign_members: None,
-    };
-    write_text_atomic(dir, "towns_bust.geojson", &fc.to_string())?;
+    super::towns::write_table_and_points(dir, "towns_bust", w, features)?;
     let su = units.snow_unit();
     Ok(vec![
         Written {

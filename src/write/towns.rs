@@ -179,29 +179,9 @@ pub fn write_towns(
                 serde_json::Value::Null
             },
         );
-        features.push(Feature {
-            bbox: None,
-            geometry: Some(Geometry::new_point([
-                (t.lon * 1e5).round() / 1e5,
-                (t.lat * 1e5).round() / 1e5,
-            ])),
-            id: None,
-            properties: Some(p),
-            foreign_members: None,
-        });
+        features.push(point_feature(t.lon, t.lat, p));
     }
-    let bytes = w.into_inner().map_err(|e| WriteError::Io {
-        path: dir.join("towns.csv"),
-        source: std::io::Error::other(e.to_string()),
-    })?;
-    let text = String::from_utf8(bytes).expect("csv writes the UTF-8 it was given");
-    write_text_atomic(dir, "towns.csv", &text)?;
-    let fc = FeatureCollection {
-        bbox: None,
-        features,
-        foreign_members: None,
-    };
-    write_text_atomic(dir, "towns.geojson", &fc.to_string())?;
+    write_table_and_points(dir, "towns", w, features)?;
     Ok(vec![
         Written {
             file: "towns.csv".into(),
@@ -218,6 +198,43 @@ pub fn write_towns(
             bands: Vec::new(),
         },
     ])
+}
+
+/// A town as an RFC 7946 point feature, coordinates rounded to 1e-5° (about 1 m).
+pub(super) fn point_feature(lon: f64, lat: f64, properties: JsonObject) -> Feature {
+    Feature {
+        bbox: None,
+        geometry: Some(Geometry::new_point([
+            (lon * 1e5).round() / 1e5,
+            (lat * 1e5).round() / 1e5,
+        ])),
+        id: None,
+        properties: Some(properties),
+        foreign_members: None,
+    }
+}
+
+/// Writes a finished CSV as `<stem>.csv` and its points as `<stem>.geojson`, each atomically.
+pub(super) fn write_table_and_points(
+    dir: &Path,
+    stem: &str,
+    table: csv::Writer<Vec<u8>>,
+    features: Vec<Feature>,
+) -> Result<(), WriteError> {
+    let csv_name = format!("{stem}.csv");
+    let bytes = table.into_inner().map_err(|e| WriteError::Io {
+        path: dir.join(&csv_name),
+        source: std::io::Error::other(e.to_string()),
+    })?;
+    let text = String::from_utf8(bytes).expect("csv writes the UTF-8 it was given");
+    write_text_atomic(dir, &csv_name, &text)?;
+    let fc = FeatureCollection {
+        bbox: None,
+        features,
+        foreign_members: None,
+    };
+    write_text_atomic(dir, &format!("{stem}.geojson"), &fc.to_string())?;
+    Ok(())
 }
 
 #[cfg(test)]

@@ -371,6 +371,40 @@ pub enum GridError {
     /// The projection could not be set up or does not cover the grid.
     #[error("map projection: {0}")]
     Projection(String),
+    /// More cells than any model grid trackswing is meant for (see [`MAX_CELLS`]).
+    #[error("the grid has {nx}×{ny} cells, more than the {max} trackswing handles; is the size in the file right?")]
+    TooLarge {
+        /// Columns.
+        nx: usize,
+        /// Rows.
+        ny: usize,
+        /// The limit.
+        max: usize,
+    },
+}
+
+/// The most cells a grid may have: 2²⁶ (67 million), some 2.7 GB for the grid's coordinates and
+/// metric alone. A 1 km grid over a continent has about 15 million cells and a 0.1° global grid
+/// 6.5 million; anything larger is taken to be a corrupted size field, refused before any
+/// allocation.
+pub const MAX_CELLS: usize = 1 << 26;
+
+/// A grid of at least 2×2 and at most [`MAX_CELLS`] cells, north-up.
+fn check_shape(nx: usize, ny: usize, gt: [f64; 6]) -> Result<(), GridError> {
+    if nx < 2 || ny < 2 {
+        return Err(GridError::TooSmall { nx, ny });
+    }
+    if nx.saturating_mul(ny) > MAX_CELLS {
+        return Err(GridError::TooLarge {
+            nx,
+            ny,
+            max: MAX_CELLS,
+        });
+    }
+    if gt[2] != 0.0 || gt[4] != 0.0 || gt[1] <= 0.0 || gt[5] >= 0.0 {
+        return Err(GridError::NotNorthUp(gt));
+    }
+    Ok(())
 }
 
 /// Distance of the finite differences that give a projected grid's metric, km: small against a
@@ -380,13 +414,8 @@ const METRIC_STEP_KM: f64 = 0.5;
 impl Grid {
     /// Builds the grid and its metric from a GeoTIFF georeference.
     pub fn new(nx: usize, ny: usize, georef: Georef) -> Result<Self, GridError> {
-        if nx < 2 || ny < 2 {
-            return Err(GridError::TooSmall { nx, ny });
-        }
         let gt = georef.geotransform;
-        if gt[2] != 0.0 || gt[4] != 0.0 || gt[1] <= 0.0 || gt[5] >= 0.0 {
-            return Err(GridError::NotNorthUp(gt));
-        }
+        check_shape(nx, ny, gt)?;
         let n = nx * ny;
         let mut lon = Vec::with_capacity(n);
         let mut lat = Vec::with_capacity(n);
@@ -437,13 +466,8 @@ impl Grid {
         geotransform: [f64; 6],
         map: MapProjection,
     ) -> Result<Self, GridError> {
-        if nx < 2 || ny < 2 {
-            return Err(GridError::TooSmall { nx, ny });
-        }
         let gt = geotransform;
-        if gt[2] != 0.0 || gt[4] != 0.0 || gt[1] <= 0.0 || gt[5] >= 0.0 {
-            return Err(GridError::NotNorthUp(gt));
-        }
+        check_shape(nx, ny, gt)?;
         let pj = Projector::new(&map)?;
         let n = nx * ny;
         let mut lon = Vec::with_capacity(n);

@@ -31,6 +31,18 @@ pub enum GeoTiffError {
         bands: usize,
     },
     #[error(
+        "{path}: the directory declares {width} x {height} x {bands} samples, more than a \
+         {file_len}-byte file can hold at any TIFF compression ratio",
+        path = path.display()
+    )]
+    ImplausibleSize {
+        path: PathBuf,
+        width: usize,
+        height: usize,
+        bands: usize,
+        file_len: u64,
+    },
+    #[error(
         "{path}: band {band} has {got} values, expected width x height = {expected}",
         path = path.display()
     )]

@@ -54,6 +54,8 @@ pub fn read_geotiff(path: &Path) -> Result<Raster, GeoTiffError> {
         });
     }
 
+    check_plausible_size(path, width, height, spp)?;
+
     let georef = read_georef(path, &mut dec)?;
     let nodata = match ascii_tag(path, &mut dec, tag::GDAL_NODATA, "GDAL_NODATA")? {
         None => None,
@@ -246,6 +248,39 @@ fn read_georef(path: &Path, dec: &mut Dec) -> Result<Georef, GeoTiffError> {
     })
 }
 
+/// The most decoded bytes one byte of a TIFF file can stand for. Deflate tops out near 1032:1 and
+/// 12-bit LZW codes can stand for strings of up to 4096 bytes, so 4096 bounds every compression
+/// the `tiff` crate decodes (zlib's own documentation for Deflate; TIFF 6.0 §13 for LZW).
+const MAX_DECODED_PER_FILE_BYTE: u128 = 4096;
+
+/// Refuses a directory whose declared size no file of this length could hold, before anything is
+/// allocated: a corrupted width or height must give an error, not an attempt to allocate
+/// hundreds of gigabytes.
+fn check_plausible_size(
+    path: &Path,
+    width: usize,
+    height: usize,
+    spp: usize,
+) -> Result<(), GeoTiffError> {
+    let file_len = std::fs::metadata(path)
+        .map_err(|source| GeoTiffError::Io {
+            path: path.to_path_buf(),
+            source,
+        })?
+        .len();
+    let samples = width as u128 * height as u128 * spp as u128;
+    if samples > file_len as u128 * MAX_DECODED_PER_FILE_BYTE {
+        return Err(GeoTiffError::ImplausibleSize {
+            path: path.to_path_buf(),
+            width,
+            height,
+            bands: spp,
+            file_len,
+        });
+    }
+    Ok(())
+}
+
 /// Decodes every strip or tile into per-band rows, applying nodata and scale/offset.
 #[allow(clippy::too_many_arguments)]
 fn read_samples(
@@ -274,7 +309,17 @@ fn read_samples(
     let planes = if planar { spp } else { 1 };
     let per_chunk = if planar { 1 } else { spp };
     let cells = width * height;
-    let mut bands = vec![vec![0f32; cells]; spp];
+    let mut bands = Vec::with_capacity(spp);
+    for _ in 0..spp {
+        let mut band = Vec::new();
+        band.try_reserve_exact(cells)
+            .map_err(|_| GeoTiffError::Unsupported {
+                path: path.to_path_buf(),
+                what: format!("{width} x {height} x {spp} samples do not fit in memory"),
+            })?;
+        band.resize(cells, 0f32);
+        bands.push(band);
+    }
     let scale: Vec<f64> = meta.scale.iter().map(|s| s.unwrap_or(1.0)).collect();
     let offset: Vec<f64> = meta.offset.iter().map(|o| o.unwrap_or(0.0)).collect();
 

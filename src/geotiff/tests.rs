@@ -363,3 +363,32 @@ fn per_band_int16_scaling_round_trips() {
     };
     assert!(write_geotiff(&p, w, h, &georef(), &bands, &bad).is_err());
 }
+
+/// Regression (found by tests/trackswing/fuzz.rs): a corrupted ImageWidth made the reader try to
+/// allocate ~200 GB and abort. It must be an error naming the file, before any allocation.
+#[test]
+fn a_corrupted_width_is_refused_before_allocating() {
+    let dir = tempfile::tempdir().unwrap();
+    let data: Vec<Vec<f32>> = (0..2).map(|b| field(8, 20, b)).collect();
+    let mut bytes = std::fs::read(write(dir.path(), "g.tif", 8, 20, &data, &float_opts())).unwrap();
+    // Classic little-endian TIFF (TIFF 6.0 §2): "II", 42, offset of the first directory; each
+    // directory entry is tag u16, type u16, count u32, value u32.
+    assert_eq!(&bytes[..4], b"II*\0");
+    let ifd = u32::from_le_bytes(bytes[4..8].try_into().unwrap()) as usize;
+    let n = u16::from_le_bytes(bytes[ifd..ifd + 2].try_into().unwrap()) as usize;
+    let entry = (0..n)
+        .map(|i| ifd + 2 + 12 * i)
+        .find(|&e| u16::from_le_bytes([bytes[e], bytes[e + 1]]) == 256)
+        .expect("ImageWidth entry");
+    // ImageWidth may be SHORT (3) or LONG (4); write the largest value of its type.
+    match u16::from_le_bytes([bytes[entry + 2], bytes[entry + 3]]) {
+        3 => bytes[entry + 8..entry + 10].copy_from_slice(&u16::MAX.to_le_bytes()),
+        4 => bytes[entry + 8..entry + 12].copy_from_slice(&0x7fff_ffffu32.to_le_bytes()),
+        t => panic!("ImageWidth of TIFF type {t}"),
+    }
+    let wide = dir.path().join("wide.tif");
+    std::fs::write(&wide, &bytes).unwrap();
+    let e = read_geotiff(&wide).unwrap_err();
+    assert!(matches!(e, GeoTiffError::ImplausibleSize { .. }), "{e:?}");
+    assert!(e.to_string().contains("wide.tif"), "{e}");
+}

@@ -1,5 +1,5 @@
 //! Bounded fuzzing on the stable toolchain: random and mutated inputs for the case-file parser,
-//! the track and towns readers and the GeoTIFF reader must give an error or a value, never a
+//! the track and towns readers and the GeoTIFF and GRIB2 readers must give an error or a value, never a
 //! panic. (cargo-fuzz needs a nightly toolchain, which this project's machines do not have;
 //! proptest drives the same entry points with shrinking, and a failure prints its seed.)
 
@@ -59,6 +59,24 @@ fn seed_tiff() -> &'static [u8] {
     })
 }
 
+/// One step file of a small GRIB2 case (every field of one valid time, precipitation as a
+/// 0–3 h total, grid-point packing), made once per test process by the demo generator.
+fn seed_grib2() -> &'static [u8] {
+    use std::sync::OnceLock;
+    static SEED: OnceLock<Vec<u8>> = OnceLock::new();
+    SEED.get_or_init(|| {
+        let d = tempfile::tempdir().unwrap();
+        let spec = trackswing::demo::DemoSpec::scaled(9, 7, 2, 3, 3);
+        trackswing::demo::grib2_case::write_case_grib2(d.path(), &spec).unwrap();
+        let mut files: Vec<PathBuf> = std::fs::read_dir(d.path().join("fields"))
+            .unwrap()
+            .map(|e| e.unwrap().path())
+            .collect();
+        files.sort();
+        std::fs::read(files.last().unwrap()).unwrap()
+    })
+}
+
 fn in_temp(name: &str, bytes: &[u8]) -> (tempfile::TempDir, PathBuf) {
     let d = tempfile::tempdir().unwrap();
     let p = d.path().join(name);
@@ -106,6 +124,21 @@ proptest! {
     }
 
     #[test]
+    fn grib2_reader_never_panics(bytes in mutated(seed_grib2())) {
+        use trackswing::read::grib::{inspect::inspect, GribSource};
+        use trackswing::read::source::Source;
+        let (_d, p) = in_temp("x.grib2", &bytes);
+        let files = [p];
+        let _ = inspect(&files);
+        if let Ok(s) = GribSource::open(&files, &|_| {}) {
+            for k in 0..s.step_count() {
+                let _ = s.step(k);
+                let _ = s.mslp(k);
+            }
+        }
+    }
+
+    #[test]
     fn case_parser_never_panics(text in text_mutations(CASE)) {
         let d = tempfile::tempdir().unwrap();
         for f in ["a.tif", "t.csv", "towns.csv"] {
@@ -148,4 +181,16 @@ proptest! {
         let (_d, p) = in_temp("x.tif", &bytes);
         let _ = trackswing::geotiff::read_geotiff(&p);
     }
+}
+
+/// The GRIB2 seed is a readable step, so the mutations start from the reader's full path.
+#[test]
+fn grib2_seed_reads_whole() {
+    use trackswing::read::grib::GribSource;
+    use trackswing::read::source::Source;
+    let (_d, p) = in_temp("seed.grib2", seed_grib2());
+    let s = GribSource::open(&[p], &|_| {}).unwrap();
+    assert_eq!(s.step_count(), 1);
+    let step = s.step(0).unwrap();
+    assert_eq!(step.columns.len(), 9 * 7 * step.layout.nvar());
 }

@@ -733,6 +733,24 @@ mod cases {
         );
     }
 
+    /// Regression (found by tests/trackswing/fuzz.rs): a single total that is itself negative
+    /// (no earlier total to subtract) made the error message index an empty list and panic.
+    #[test]
+    fn negative_precipitation_total() {
+        let (_d, c) = bad_case(|d| {
+            edit(&d.join("fields/step_001.grib2"), |i, m| {
+                if i == 19 {
+                    // Simple packing's reference value R (template 5.0 octets 12–15, IEEE float):
+                    // Y = (R + X·2^E)/10^D, so a large negative R makes every value negative.
+                    let s5 = section(m, 5);
+                    m[s5 + 11..s5 + 15].copy_from_slice(&(-1.0e4f32).to_be_bytes());
+                }
+                true
+            });
+        });
+        fails_cleanly(&c, &["step_001.grib2", "step 2", "cannot be negative"]);
+    }
+
     #[test]
     fn single_file_single_time_needs_no_track() {
         let d = tempfile::tempdir().unwrap();

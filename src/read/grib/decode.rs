@@ -3,7 +3,9 @@
 //!
 //! Data representation templates decoded (code table 5.0): 5.0 simple packing, 5.2 complex
 //! packing, 5.3 complex packing with spatial differencing, 5.40 JPEG 2000, 5.41 PNG, 5.42
-//! CCSDS, 5.200 run length. A bit map indicator of 254 ("previously defined bit map", code
+//! CCSDS. Run-length packing (5.200, used for radar composites, not for model fields) is refused:
+//! the `grib` crate's unpacker expands runs without bound, so a damaged message could exhaust
+//! memory before its length is checked. A bit map indicator of 254 ("previously defined bit map", code
 //! table 6.0), which the crate does not resolve, is resolved by handing it the earlier Section 6
 //! the scanner found.
 
@@ -12,7 +14,7 @@ use super::GribError;
 use std::path::Path;
 
 /// Data representation templates whose values can be decoded.
-pub const DECODED_TEMPLATES: [u16; 7] = [0, 2, 3, 40, 41, 42, 200];
+pub const DECODED_TEMPLATES: [u16; 6] = [0, 2, 3, 40, 41, 42];
 
 /// Name of a data representation template (code table 5.0).
 pub fn packing_name(t: u16) -> &'static str {

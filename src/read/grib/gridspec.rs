@@ -140,6 +140,17 @@ pub fn grid_spec(sect3: &[u8]) -> Result<GridSpec, Unplaced> {
     }
     let s3 = Section3::try_from_slice(sect3, &mut 0)
         .map_err(|_| Unplaced(format!("grid definition template 3.{template}")))?;
+    // Octets 7–10: the number of data points, which a regular grid's Ni × Nj must equal.
+    let points = u64::from(u32::from_be_bytes([sect3[6], sect3[7], sect3[8], sect3[9]]));
+    let check_points = |ni: u32, nj: u32| {
+        if u64::from(ni) * u64::from(nj) == points {
+            Ok(())
+        } else {
+            Err(Unplaced(format!(
+                "Ni × Nj = {ni} × {nj} differs from the {points} data points Section 3 declares"
+            )))
+        }
+    };
     let check_scan = |scan: u8| {
         if scan & 0x0f != 0 {
             Err(Unplaced(format!(
@@ -149,6 +160,12 @@ pub fn grid_spec(sect3: &[u8]) -> Result<GridSpec, Unplaced> {
             Ok(scan)
         }
     };
+    match &s3.payload.template {
+        GridDefinitionTemplate::_3_0(t) => check_points(t.lat_lon.grid.ni, t.lat_lon.grid.nj)?,
+        GridDefinitionTemplate::_3_30(t) => check_points(t.ni, t.nj)?,
+        GridDefinitionTemplate::_3_20(t) => check_points(t.ni, t.nj)?,
+        _ => {}
+    }
     match &s3.payload.template {
         GridDefinitionTemplate::_3_0(t) => {
             let g = &t.lat_lon.grid;

@@ -783,13 +783,21 @@ impl Source for GribSource {
         if let Some((c, v)) = precip.iter().enumerate().find(|(_, v)| **v < -PRECIP_NOISE) {
             return Err(GribError::Missing {
                 path: self.cat.files[self.cat.entries[s.plus[0]].file].clone(),
-                what: format!(
-                    "step {} (valid {}): the precipitation totals do not chain: {} minus {} is {v} kg m-2 at cell {c} (a later total smaller than an earlier one from the same start)",
-                    k + 1,
-                    short(s.valid),
-                    self.label(s.plus[0]),
-                    self.label(s.minus[0])
-                ),
+                what: match s.minus.first() {
+                    Some(&m) => format!(
+                        "step {} (valid {}): the precipitation totals do not chain: {} minus {} is {v} kg m-2 at cell {c} (a later total smaller than an earlier one from the same start)",
+                        k + 1,
+                        short(s.valid),
+                        self.label(s.plus[0]),
+                        self.label(m)
+                    ),
+                    None => format!(
+                        "step {} (valid {}): precipitation {} is {v} kg m-2 at cell {c}; an amount cannot be negative",
+                        k + 1,
+                        short(s.valid),
+                        s.plus.iter().map(|&i| self.label(i)).collect::<Vec<_>>().join(" + ")
+                    ),
+                },
             }
             .into());
         }

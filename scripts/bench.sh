@@ -6,7 +6,8 @@
 # B1 regional:    400×300 cells, 48 hourly steps, 6 levels, 41 cross × 3 along = 123 scenarios.
 # B2 continental: 1800×1060 cells, 24 three-hourly steps, 6 levels, 41 scenarios.
 # Each case is generated once into target/bench/ by the demo storm generator, then run end to end
-# (reading the GeoTIFF steps from disk, writing every layer). Prints wall time, cell·step·scenario
+# (reading the steps from disk, writing every layer): B1 as GeoTIFF steps, B2 as GRIB2 files (one
+# per valid time, running-total precipitation), the format a continental model run arrives in. Prints wall time, cell·step·scenario
 # evaluations per second, peak resident memory (GNU time -v) and the engine's own time split.
 set -euo pipefail
 cd "$(dirname "$0")/.."
@@ -20,13 +21,13 @@ root=target/bench
 mkdir -p "$root"
 
 run_case() {
-  local name=$1 nx=$2 ny=$3 steps=$4 hours=$5 cross=$6 along=$7
+  local name=$1 nx=$2 ny=$3 steps=$4 hours=$5 cross=$6 along=$7 format=${8:-}
   local dir=$root/$name
-  if [ ! -f "$dir/case.toml" ] || [ "$(cat "$dir/.spec" 2>/dev/null)" != "$nx $ny $steps $hours" ]; then
+  if [ ! -f "$dir/case.toml" ] || [ "$(cat "$dir/.spec" 2>/dev/null)" != "$nx $ny $steps $hours $format" ]; then
     rm -rf "$dir"
-    echo "== generating $name ($nx×$ny, $steps steps of $hours h, 6 levels)"
-    "$bin" make-demo --out "$dir" --nx "$nx" --ny "$ny" --steps "$steps" --step-hours "$hours" --levels 6
-    echo "$nx $ny $steps $hours" > "$dir/.spec"
+    echo "== generating $name ($nx×$ny, $steps steps of $hours h, 6 levels${format:+, $format})"
+    "$bin" make-demo --out "$dir" --nx "$nx" --ny "$ny" --steps "$steps" --step-hours "$hours" --levels 6 $format
+    echo "$nx $ny $steps $hours $format" > "$dir/.spec"
   fi
   local out=$root/$name-out log=$root/$name.log
   rm -rf "$out"
@@ -43,10 +44,10 @@ run_case() {
 
 case $which_case in
   b1) run_case b1 400 300 48 1 -100:100:5 -60:60:60 ;;
-  b2) run_case b2 1800 1060 24 3 -100:100:5 0 ;;
+  b2) run_case b2 1800 1060 24 3 -100:100:5 0 --grib2 ;;
   all)
     run_case b1 400 300 48 1 -100:100:5 -60:60:60
-    run_case b2 1800 1060 24 3 -100:100:5 0
+    run_case b2 1800 1060 24 3 -100:100:5 0 --grib2
     ;;
   *) echo "usage: scripts/bench.sh [b1|b2|all] [--threads N]" >&2; exit 2 ;;
 esac

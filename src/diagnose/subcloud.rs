@@ -17,9 +17,7 @@
 
 use super::column::{Profile, PROFILE_TOP_PA};
 use super::ptype::{smoothstep, MAX_LEVELS};
-use super::thermo::{
-    isobaric_wet_bulb_and_deficit, saturation_vapor_pressure, specific_humidity_from_rh, EPSILON, G,
-};
+use super::thermo::{isobaric_wet_bulb_deficit_humidity, saturation_vapor_pressure, EPSILON, G};
 
 /// Relative humidity (over water, %) from which a point starts to count as cloud.
 pub const CLOUD_RH_START_PCT: f64 = 80.0;
@@ -40,6 +38,8 @@ pub struct SubCloud {
     pub wet_bulb: [f64; MAX_LEVELS],
     /// Specific humidity each weighted point gains when saturated at its wet-bulb, kg/kg.
     pub moistening: [f64; MAX_LEVELS],
+    /// Specific humidity of each weighted point as the profile stands, kg/kg.
+    pub humidity: [f64; MAX_LEVELS],
 }
 
 impl SubCloud {
@@ -74,6 +74,7 @@ impl SubCloud {
             weight: [0.0; MAX_LEVELS],
             wet_bulb: [0.0; MAX_LEVELS],
             moistening: [0.0; MAX_LEVELS],
+            humidity: [0.0; MAX_LEVELS],
         };
         let mut u = 1.0;
         // A point is computed while the weight of the layer below it is non-zero: the layer
@@ -91,7 +92,7 @@ impl SubCloud {
                 // Cloud down to the ground: nothing to saturate.
                 break;
             }
-            let (tw, deficit) = isobaric_wet_bulb_and_deficit(p, t, rh);
+            let (tw, deficit, q) = isobaric_wet_bulb_deficit_humidity(p, t, rh);
             if !(tw.is_finite() && deficit.is_finite()) {
                 s.deficit = f64::NAN;
                 return s;
@@ -100,6 +101,7 @@ impl SubCloud {
             s.weight[k] = u;
             s.wet_bulb[k] = tw;
             s.moistening[k] = deficit;
+            s.humidity[k] = q;
             s.points = k + 1;
         }
         let top = (0..profile.n)
@@ -125,8 +127,8 @@ impl SubCloud {
             if f == 0.0 {
                 continue;
             }
-            let (p, t, rh) = (profile.p[k], profile.t[k], profile.rh[k]);
-            let q = specific_humidity_from_rh(p, t, rh) + f * self.moistening[k];
+            let (p, t) = (profile.p[k], profile.t[k]);
+            let q = self.humidity[k] + f * self.moistening[k];
             let t_new = t - f * (t - self.wet_bulb[k]);
             let e = q * p / (EPSILON + (1.0 - EPSILON) * q);
             profile.rh[k] = (100.0 * e / saturation_vapor_pressure(t_new)).min(100.0);

@@ -442,27 +442,45 @@ pub fn saturation_deficit(p_pa: f64, t_k: f64, rh_pct: f64) -> f64 {
 /// assert!(isobaric_wet_bulb_and_deficit(90_000.0, 273.15, 150.0).0.is_nan());
 /// ```
 pub fn isobaric_wet_bulb_and_deficit(p_pa: f64, t_k: f64, rh_pct: f64) -> (f64, f64) {
-    const NAN2: (f64, f64) = (f64::NAN, f64::NAN);
+    let (tw, deficit, _) = isobaric_wet_bulb_deficit_humidity(p_pa, t_k, rh_pct);
+    (tw, deficit)
+}
+
+/// [`isobaric_wet_bulb_and_deficit`] and the specific humidity of the air (kg/kg, as
+/// [`specific_humidity_from_rh`] gives it, bit for bit) from the same saturation vapour
+/// pressure: the sub-cloud kernel needs all three at every point, and each costs an `exp`.
+///
+/// ```
+/// use trackswing::diagnose::thermo::*;
+/// let (tw, d, q) = isobaric_wet_bulb_deficit_humidity(90_000.0, 273.15, 50.0);
+/// assert_eq!((tw, d), isobaric_wet_bulb_and_deficit(90_000.0, 273.15, 50.0));
+/// assert_eq!(q, specific_humidity_from_rh(90_000.0, 273.15, 50.0));
+/// ```
+pub fn isobaric_wet_bulb_deficit_humidity(p_pa: f64, t_k: f64, rh_pct: f64) -> (f64, f64, f64) {
+    const NAN3: (f64, f64, f64) = (f64::NAN, f64::NAN, f64::NAN);
     if !((P_MIN_PA..=P_MAX_PA).contains(&p_pa) && t_in_domain(t_k)) {
-        return NAN2;
+        return NAN3;
     }
     if !(0.0..=RH_MAX_PCT).contains(&rh_pct) {
-        return NAN2;
+        return NAN3;
     }
     let es = saturation_vapor_pressure(t_k);
     if es >= p_pa {
-        return NAN2;
+        return NAN3;
     }
+    let e = rh_pct / 100.0 * es;
+    let q = EPSILON * e / (p_pa - (1.0 - EPSILON) * e);
     if rh_pct >= 100.0 {
-        return (t_k, 0.0);
+        return (t_k, 0.0, q);
     }
-    let w = mixing_ratio(p_pa, rh_pct / 100.0 * es);
+    let w = mixing_ratio(p_pa, e);
     let l = LATENT_HEAT_VAPORISATION;
-    let (mut tw, mut ws) = (t_k, EPSILON * es / (p_pa - es));
+    // The first Newton step starts at Tw = T, where es(Tw) is the es just computed.
+    let (mut tw, mut es_w) = (t_k, es);
+    let mut ws = EPSILON * es_w / (p_pa - es_w);
     for _ in 0..ISOBARIC_WET_BULB_MAX_STEPS {
-        let tc = tw - T_FREEZE;
-        let es_w = BOLTON_ES0_PA * (BOLTON_A * tc / (tc + BOLTON_B_K)).exp();
         ws = EPSILON * es_w / (p_pa - es_w);
+        let tc = tw - T_FREEZE;
         let des_dt = es_w * BOLTON_A * BOLTON_B_K / ((tc + BOLTON_B_K) * (tc + BOLTON_B_K));
         let dws_dt = EPSILON * p_pa / ((p_pa - es_w) * (p_pa - es_w)) * des_dt;
         let g = CP * (t_k - tw) - l * (ws - w);
@@ -472,12 +490,14 @@ pub fn isobaric_wet_bulb_and_deficit(p_pa: f64, t_k: f64, rh_pct: f64) -> (f64, 
         if step.abs() < ISOBARIC_WET_BULB_TOLERANCE_K {
             break;
         }
+        let tc = tw - T_FREEZE;
+        es_w = BOLTON_ES0_PA * (BOLTON_A * tc / (tc + BOLTON_B_K)).exp();
     }
     if !t_in_domain(tw) {
-        return NAN2;
+        return NAN3;
     }
     // Specific humidities from the mixing ratios, q = w/(1 + w).
-    (tw, (ws / (1.0 + ws) - w / (1.0 + w)).max(0.0))
+    (tw, (ws / (1.0 + ws) - w / (1.0 + w)).max(0.0), q)
 }
 
 /// Potential temperature, K, from pressure (Pa) and temperature (K): θ = T·(p0/p)^κ with

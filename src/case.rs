@@ -572,8 +572,8 @@ impl Case {
                 .map(|v| (v, source))
         };
         let o = &file.offsets;
-        let (cross_km, _) = axis("cross_km", "--cross", "0", &over.cross, &o.cross_km)?;
-        let (along_km, _) = axis("along_km", "--along", "0", &over.along, &o.along_km)?;
+        let (cross_km, cross_src) = axis("cross_km", "--cross", "0", &over.cross, &o.cross_km)?;
+        let (along_km, along_src) = axis("along_km", "--along", "0", &over.along, &o.along_km)?;
         let (timing_h, timing_src) = axis("timing_h", "--timing", "0", &over.timing, &o.timing_h)?;
         let (intensity, intensity_src) = axis(
             "intensity",
@@ -622,6 +622,17 @@ impl Case {
                 "shift",
                 format!("need 0 ≤ core_radius_km < outer_radius_km, got {core} and {outer}"),
             ));
+        }
+        // The shift is centred on the displaced low and fades out at the outer radius, so an
+        // offset beyond that radius moves nothing near the modelled storm: such a scenario would
+        // quietly repeat the model as issued.
+        for (values, source) in [(&cross_km, &cross_src), (&along_km, &along_src)] {
+            if let Some(v) = values.iter().find(|v| v.abs() >= outer) {
+                return Err(invalid(
+                    source,
+                    format!("an offset of {v} km reaches the shift's outer radius ({outer} km, shift.outer_radius_km): the displaced storm would no longer overlap the modelled one; use offsets well inside it (track errors are tens to a few hundred km)"),
+                ));
+            }
         }
         let lapse = file.shift.lapse_rate_k_per_km.unwrap_or(6.5);
         if !(0.0..=12.0).contains(&lapse) {

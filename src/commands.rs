@@ -66,17 +66,19 @@ pub fn track(a: &TrackArgs) -> Result<(), Failure> {
         ("track.csv", track_csv(&found)),
         ("track.geojson", track_geojson(&found)),
     ] {
-        let p = a.out.join(name);
-        std::fs::write(&p, text)
-            .with_context(|| format!("writing {}", p.display()))
-            .map_err(Failure::Output)?;
+        trackswing::write::write_text_atomic(&a.out, name, &text)
+            .map_err(|e| Failure::Output(e.into()))?;
     }
     for c in &found {
+        let (ns, ew) = (
+            if c.lat < 0.0 { 'S' } else { 'N' },
+            if c.lon < 0.0 { 'W' } else { 'E' },
+        );
         println!(
-            "{}  {:9.4}°N {:10.4}°E  {:7.1} hPa",
+            "{}  {:8.4}°{ns} {:9.4}°{ew}  {:7.1} hPa",
             c.time.format("%Y-%m-%dT%H:%MZ"),
-            c.lat,
-            c.lon,
+            c.lat.abs(),
+            c.lon.abs(),
             c.mslp_pa / 100.0
         );
     }

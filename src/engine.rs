@@ -289,6 +289,9 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
     let valid_times = std::mem::take(&mut window.times);
     let layout = window.layout.take().expect("a case has at least one step");
     drop(window);
+    if let Some(w) = step_gap_warning(&valid_times) {
+        progress.warn(&w);
+    }
     let cell_steps = (n * valid_times.len()) as f64;
     let edge: Vec<(usize, f64)> = totals
         .iter()
@@ -340,6 +343,33 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
         track,
         layout,
         timings,
+    })
+}
+
+/// A warning when a step is longer than the one before it: a step file left out of the case
+/// (or a glob that missed one) loses that file's precipitation from every total without any
+/// other sign, so a forecaster should look. Models that change their output interval (hourly,
+/// then three-hourly) also trigger it, once, which is worth a glance too.
+pub fn step_gap_warning(times: &[DateTime<Utc>]) -> Option<String> {
+    let gaps: Vec<String> = times
+        .windows(3)
+        .enumerate()
+        .filter(|(_, w)| w[2] - w[1] > w[1] - w[0])
+        .map(|(i, w)| {
+            format!(
+                "step {} ({}) comes {} h after the step before it, the steps before it {} h apart",
+                i + 3,
+                w[2].format("%Y-%m-%dT%H:%MZ"),
+                (w[2] - w[1]).num_minutes() as f64 / 60.0,
+                (w[1] - w[0]).num_minutes() as f64 / 60.0
+            )
+        })
+        .collect();
+    (!gaps.is_empty()).then(|| {
+        format!(
+            "{}; if a step file is missing, its precipitation is missing from every total",
+            gaps.join("; ")
+        )
     })
 }
 
@@ -1098,6 +1128,19 @@ pub fn accumulate_cell(
 mod tests {
     use super::*;
     use crate::geotiff::{Crs, Georef};
+
+    #[test]
+    fn a_longer_step_is_reported() {
+        let t = |h: i64| DateTime::<Utc>::from_timestamp(h * 3600, 0).unwrap();
+        assert_eq!(step_gap_warning(&[t(0), t(2), t(4), t(6)]), None);
+        // Steps that get shorter are fine; a longer one is named with its lengths.
+        assert_eq!(step_gap_warning(&[t(0), t(3), t(4), t(5)]), None);
+        let w = step_gap_warning(&[t(0), t(2), t(4), t(8), t(10)]).unwrap();
+        assert!(
+            w.starts_with("step 4 (1970-01-01T08:00Z) comes 4 h after the step before it, the steps before it 2 h apart"),
+            "{w}"
+        );
+    }
 
     /// The dry screen is exact: wherever it passes a cell over, sampling the cell would have
     /// found it dry and inside the grid, for shifts in every direction and a step with

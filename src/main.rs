@@ -182,6 +182,23 @@ fn sounding(a: &cli::SoundingArgs) -> Result<(), Failure> {
     Ok(())
 }
 
+/// The error and its causes, joined by ": ", leaving out a cause whose text the message already
+/// holds (many of the library's errors name their cause in their own text).
+fn error_text(e: &anyhow::Error) -> String {
+    let mut text = String::new();
+    for cause in e.chain() {
+        let part = cause.to_string();
+        if text.contains(&part) {
+            continue;
+        }
+        if !text.is_empty() {
+            text.push_str(": ");
+        }
+        text.push_str(&part);
+    }
+    text
+}
+
 fn main() -> ExitCode {
     let cli = Cli::parse();
     let outcome = match &cli.command {
@@ -234,7 +251,7 @@ fn main() -> ExitCode {
                 Failure::Input(e) => (3, e),
                 Failure::Output(e) => (4, e),
             };
-            eprintln!("trackswing: error: {e:#}");
+            eprintln!("trackswing: error: {}", error_text(&e));
             ExitCode::from(code)
         }
     }

@@ -354,6 +354,11 @@ pub fn sentence(t: &TownDecision, scenarios: &[Scenario], units: Units) -> Strin
         }
         FlipSearch::Missing => {}
     }
+    let hi = snow_words(x.max as f64, units);
+    if hi == "no snow" {
+        parts.push("no snow in any offset run".to_string());
+        return parts.join("; ") + ".";
+    }
     let lo = snow_words(x.min as f64, units);
     let lo = if lo == "no snow" {
         "0".to_string()
@@ -362,10 +367,7 @@ pub fn sentence(t: &TownDecision, scenarios: &[Scenario], units: Units) -> Strin
             .trim_end()
             .to_string()
     };
-    parts.push(format!(
-        "{lo}–{} over all offsets run",
-        snow_words(x.max as f64, units)
-    ));
+    parts.push(format!("{lo}–{hi} over all offsets run"));
     parts.join("; ") + "."
 }
 
@@ -448,6 +450,11 @@ mod tests {
             s,
             "7.1 in as modelled; no change of type, halving or doubling within the offsets run (up to 40 km); 6.9–7.3 in over all offsets run."
         );
+        // No snow anywhere: no range to give (it once read "0–no snow").
+        let t = decision(0.0, vec![0.0; 5], FlipSearch::Never);
+        let s = sentence(&t, &sc, Units::Metric);
+        assert!(s.ends_with("; no snow in any offset run."), "{s}");
+        assert!(!s.contains('–'), "{s}");
     }
 
     #[test]

@@ -182,7 +182,7 @@ fn a_run_too_big_for_memory_is_refused_up_front() {
         .arg(case_dir.join("case.toml"))
         .arg("--out")
         .arg(d.path().join("out"))
-        .args(["--cross=-1000:1000:1", "--along=-500:500:1"])
+        .args(["--cross=-900:900:1", "--along=-500:500:1"])
         .output()
         .unwrap();
     assert_eq!(o.status.code(), Some(3));

@@ -146,6 +146,18 @@ fn empty_or_reversed_offsets() {
     );
 }
 
+/// An offset at or beyond the taper's outer radius moves nothing near the modelled storm (the
+/// shift is centred on the displaced low), so the scenario would repeat the model as issued.
+#[test]
+fn offsets_beyond_the_outer_radius() {
+    let (_d, c) = case("");
+    fails_cleanly(
+        &c,
+        &["--cross", "0,7000"],
+        &["--cross", "7000 km", "outer radius (6000 km"],
+    );
+}
+
 #[test]
 fn towns_with_a_bad_row() {
     let (d, c) = case("");

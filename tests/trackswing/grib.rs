@@ -579,6 +579,75 @@ mod cases {
         }
     }
 
+    /// Coarsely packed running totals whose packing grids differ between messages (as a
+    /// packer with its own reference value per message gives them) may decrease by up to the
+    /// sum of the two half-steps where nothing fell; that is packing, not a broken chain. Here
+    /// the totals are packed to 0.1 kg m⁻² (D = 1) and their reference values moved by ±0.04,
+    /// so a dry cell's step amount comes out as −0.08: accepted (and counted as zero), where a
+    /// fixed 0.05 tolerance refused it.
+    #[test]
+    fn coarse_packing_noise_in_running_totals_is_not_a_broken_chain() {
+        use trackswing::demo::grib2::{message, BitMap, FieldDef};
+        use trackswing::demo::grib2_case::demo_grid;
+        let d = tempfile::tempdir().unwrap();
+        let spec = DemoSpec::scaled(16, 12, 4, 6, 5);
+        write_case_grib2(d.path(), &spec).unwrap();
+        let reference =
+            chrono::DateTime::parse_from_rfc3339(&trackswing::demo::valid_time_iso(&spec, 0))
+                .unwrap()
+                .with_timezone(&chrono::Utc);
+        let mut running = vec![0f32; spec.nx * spec.ny];
+        for k in 1..spec.steps {
+            let step = trackswing::demo::step_fields(&spec, k)
+                .into_iter()
+                .find(|f| f.name == "precipitation_amount")
+                .unwrap();
+            for (r, v) in running.iter_mut().zip(&step.data) {
+                *r += v;
+            }
+            let mut m = message(
+                &demo_grid(&spec),
+                &[FieldDef {
+                    param: (0, 1, 8),
+                    surface: (1, 0, 0),
+                    reference,
+                    forecast_hours: 0,
+                    accumulation_hours: Some(k as u32 * spec.step_hours),
+                    decimal_scale: 1,
+                    values: &running,
+                    bitmap: BitMap::Auto,
+                }],
+            );
+            // R (template 5.0 octets 12–15) in units of 10^−D: ±0.4 moves every value ±0.04.
+            let s5 = section(&m, 5);
+            let r = f32::from_be_bytes(m[s5 + 11..s5 + 15].try_into().unwrap());
+            let moved = if k % 2 == 1 { r + 0.4 } else { r - 0.4 };
+            m[s5 + 11..s5 + 15].copy_from_slice(&moved.to_be_bytes());
+            edit(
+                &d.path().join(format!("fields/step_{k:03}.grib2")),
+                |i, old| {
+                    if i == 19 {
+                        *old = m.clone();
+                    }
+                    true
+                },
+            );
+        }
+        let files: Vec<PathBuf> = (0..spec.steps)
+            .map(|k| d.path().join(format!("fields/step_{k:03}.grib2")))
+            .collect();
+        let s = GribSource::open(&files, &|_| {}).unwrap();
+        let st = s.step(2).unwrap();
+        let p: Vec<f32> = st
+            .columns
+            .chunks(st.layout.nvar())
+            .map(|c| c[st.layout.precip()])
+            .collect();
+        // Never negative; dry cells (nothing fell at this step) are exactly zero.
+        assert!(p.iter().all(|v| *v >= 0.0));
+        assert!(p.contains(&0.0));
+    }
+
     /// GRIB2 messages of a file.
     fn messages(bytes: &[u8]) -> Vec<Vec<u8>> {
         let mut out = Vec::new();
@@ -680,6 +749,51 @@ mod cases {
                 "850 hPa",
                 "template 5.4",
                 "not supported",
+            ],
+        );
+    }
+
+    /// Regression (found by tests/trackswing/fuzz.rs): run-length packing is refused, since the
+    /// decoder it would go to expands a damaged message without bound.
+    #[test]
+    fn needed_field_with_run_length_packing() {
+        let (_d, c) = bad_case(|d| {
+            edit(&d.join("fields/step_001.grib2"), |i, m| {
+                if i == 3 {
+                    let s5 = section(m, 5);
+                    m[s5 + 9..s5 + 11].copy_from_slice(&200u16.to_be_bytes());
+                }
+                true
+            });
+        });
+        fails_cleanly(
+            &c,
+            &[
+                "step_001.grib2: message 3",
+                "run length packing",
+                "not supported",
+            ],
+        );
+    }
+
+    /// Regression (found by tests/trackswing/fuzz.rs): a grid whose Ni × Nj disagrees with the
+    /// number of data points of Section 3 (octets 7–10) is refused before any allocation.
+    #[test]
+    fn grid_size_disagrees_with_the_number_of_points() {
+        let (_d, c) = bad_case(|d| {
+            edit(&d.join("fields/step_001.grib2"), |_, m| {
+                let s3 = section(m, 3);
+                m[s3 + 6..s3 + 10].copy_from_slice(&u32::MAX.to_be_bytes());
+                true
+            });
+        });
+        fails_cleanly(
+            &c,
+            &[
+                "step_001.grib2",
+                "valid time 2026-01-13T18:00Z",
+                "Ni × Nj = 16 × 12",
+                "4294967295",
             ],
         );
     }

@@ -22,6 +22,10 @@ pub struct Entry {
     pub grid: Option<usize>,
     /// Data representation template number.
     pub packing: u16,
+    /// The packing's step between representable values, 2^E·10^−D in the field's units (0
+    /// where the template does not say): a decoded value lies within half of it of the value
+    /// packed.
+    pub quantum: f64,
     /// Why it cannot be read, if it cannot.
     pub problem: Option<String>,
 }
@@ -109,6 +113,7 @@ impl Catalog {
             });
         }
         let packing = u16::from_be_bytes([s5[9], s5[10]]);
+        let quantum = packing_quantum(packing, &s5);
         let mut problem = None;
         if !DECODED_TEMPLATES.contains(&packing) {
             problem = Some(format!(
@@ -148,6 +153,7 @@ impl Catalog {
             product: prod,
             grid,
             packing,
+            quantum,
             problem,
         });
         Ok(())
@@ -166,4 +172,34 @@ impl Catalog {
             e.raw.message
         )
     }
+}
+
+/// The step between representable values of the grid-point packings this reader decodes
+/// (templates 5.0, 5.2, 5.3, 5.40, 5.41, 5.42 share the layout): octets 16–17 hold the binary
+/// scale factor E and 18–19 the decimal scale factor D, both sign-and-magnitude (WMO Manual on
+/// Codes, GRIB2 regulation 92.1.5), and Y = (R + X·2^E)·10^−D, so values step by 2^E·10^−D.
+/// 0 for other templates or a short section.
+///
+/// ```
+/// use trackswing::read::grib::catalog::packing_quantum;
+/// let mut s5 = vec![0u8; 21];
+/// s5[15..17].copy_from_slice(&0x8002u16.to_be_bytes()); // E = −2
+/// s5[17..19].copy_from_slice(&1u16.to_be_bytes()); // D = 1
+/// assert_eq!(packing_quantum(0, &s5), 0.025);
+/// assert_eq!(packing_quantum(4, &s5), 0.0);
+/// ```
+pub fn packing_quantum(template: u16, s5: &[u8]) -> f64 {
+    if !matches!(template, 0 | 2 | 3 | 40 | 41 | 42) || s5.len() < 19 {
+        return 0.0;
+    }
+    let signed = |hi: u8, lo: u8| {
+        let v = i32::from(u16::from_be_bytes([hi & 0x7f, lo]));
+        if hi & 0x80 != 0 {
+            -v
+        } else {
+            v
+        }
+    };
+    let (e, d) = (signed(s5[15], s5[16]), signed(s5[17], s5[18]));
+    2f64.powi(e) * 10f64.powi(-d)
 }

@@ -147,7 +147,7 @@ pub fn grid_spec(sect3: &[u8]) -> Result<GridSpec, Unplaced> {
             Ok(())
         } else {
             Err(Unplaced(format!(
-                "Ni × Nj = {ni} × {nj} differs from the {points} data points Section 3 declares"
+                "a grid whose Ni × Nj = {ni} × {nj} differs from the {points} data points Section 3 declares (a damaged message)"
             )))
         }
     };

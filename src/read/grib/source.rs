@@ -67,7 +67,7 @@ pub struct GribSource {
 /// Most levels a column can hold (see `diagnose::ptype::MAX_LEVELS`).
 const MAX_LEVELS: usize = crate::diagnose::ptype::MAX_LEVELS;
 /// Precipitation differences down to this (kg m⁻²) are packing noise and become zero; below it
-/// the totals do not chain.
+/// the totals do not chain. A coarser packing widens it: see [`GribSource::step`].
 const PRECIP_NOISE: f32 = 0.05;
 
 fn same_surface(a: &Surface, b: &Surface) -> bool {
@@ -194,6 +194,30 @@ impl<'a> Chooser<'a> {
         t.sort();
         t.dedup();
         t
+    }
+
+    /// A valid time whose isobaric temperatures the files hold but cannot be read would drop out
+    /// of the steps unnoticed (and with it, hours of the storm): refuse it, naming the field.
+    fn every_time_readable(&self, steps: &[DateTime<Utc>]) -> Result<(), GribError> {
+        let lost = self.cat.entries.iter().find(|e| {
+            e.problem.is_some()
+                && e.param() == Param::Temperature
+                && e.product.statistical_process.is_none()
+                && matches!(e.product.surface, Surface::Isobaric(_))
+                && !steps.contains(&e.product.valid)
+        });
+        match lost {
+            Some(e) => Err(GribError::Missing {
+                path: self.cat.files[e.file].clone(),
+                what: format!(
+                    "valid time {}: {} holds temperature there but {}; without it that valid time would drop out of the steps (remove the file to run without it)",
+                    short(e.product.valid),
+                    self.cat.origin(e),
+                    e.problem.as_deref().unwrap_or("")
+                ),
+            }),
+            None => Ok(()),
+        }
     }
 
     fn missing(&self, valid: DateTime<Utc>, what: String) -> GribError {
@@ -556,6 +580,7 @@ impl GribSource {
         let cat = Catalog::scan(files)?;
         let ch = Chooser::new(&cat)?;
         let steps = ch.steps();
+        ch.every_time_readable(&steps)?;
         let (levels, dropped) = ch.levels(&steps)?;
         let plan = (0..steps.len())
             .map(|k| ch.step(&steps, &levels, k))
@@ -780,7 +805,17 @@ impl Source for GribSource {
                 *a -= v;
             }
         }
-        if let Some((c, v)) = precip.iter().enumerate().find(|(_, v)| **v < -PRECIP_NOISE) {
+        // Each decoded total lies within half its packing step of the value packed, so the
+        // difference of totals may fall that far below zero without anything being wrong.
+        let noise = s
+            .plus
+            .iter()
+            .chain(&s.minus)
+            .map(|&i| 0.5 * self.cat.entries[i].quantum)
+            .sum::<f64>()
+            .max(f64::from(PRECIP_NOISE)) as f32
+            * 1.001;
+        if let Some((c, v)) = precip.iter().enumerate().find(|(_, v)| **v < -noise) {
             return Err(GribError::Missing {
                 path: self.cat.files[self.cat.entries[s.plus[0]].file].clone(),
                 what: match s.minus.first() {

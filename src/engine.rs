@@ -231,12 +231,16 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
     progress.start("time steps", source.step_count() as u64);
     for k in 0..source.step_count() {
         let clock = std::time::Instant::now();
-        window.load_through(k)?;
+        // Sources decode a step's fields in parallel: on the run's threads too.
+        let samples: Vec<Option<TimeSample>> = pool.install(|| {
+            window.load_through(k)?;
+            let t_k = window.times[k];
+            timing_offsets
+                .iter()
+                .map(|&h| window.sample(t_k - hours(h)))
+                .collect::<Result<_, EngineError>>()
+        })?;
         let t_k = window.times[k];
-        let samples: Vec<Option<TimeSample>> = timing_offsets
-            .iter()
-            .map(|&h| window.sample(t_k - hours(h)))
-            .collect::<Result<_, _>>()?;
         let first_needed = samples
             .iter()
             .flatten()

@@ -605,6 +605,20 @@ mod tests {
         let f = bourgouin(&p, &t);
         assert!(f.snow > 0.2 && f.snow < 0.8 && f.rain > 0.2, "{f:?}");
         assert_valid(&f);
+        // Each end pinned: all snow up to 5.6 J/kg and some melting just above it; all rain
+        // from 13.2 J/kg and some snow left just below it.
+        let snow_at = |pa: f64| {
+            let (p, t) = surface_warm(pa);
+            bourgouin(&p, &t).snow
+        };
+        let rain_at = |pa: f64| {
+            let (p, t) = surface_warm(pa);
+            bourgouin(&p, &t).rain
+        };
+        assert!((snow_at(5.6 - 1e-6) - 1.0).abs() < 1e-12);
+        assert!(snow_at(5.65) < 1.0 - 1e-6);
+        assert!((rain_at(13.2 + 1e-6) - 1.0).abs() < 1e-12);
+        assert!(rain_at(13.15) < 1.0 - 1e-6);
     }
 
     #[test]
@@ -628,6 +642,16 @@ mod tests {
         let f = bourgouin(&p, &t);
         assert!(f.freezing_rain > 0.99, "{f:?}");
         assert_valid(&f);
+        // Each end pinned: all freezing rain up to 46 + 0.66·30 = 65.8 J/kg and some pellets
+        // just above; all pellets from 66 + 0.66·30 = 85.8 J/kg and some freezing rain below.
+        let at = |na: f64| {
+            let (p, t) = warm_nose(na, 30.0, 92_000.0);
+            bourgouin(&p, &t)
+        };
+        assert!((at(65.8 - 1e-6).freezing_rain - 1.0).abs() < 1e-9);
+        assert!(at(66.3).ice_pellets > 1e-6);
+        assert!((at(85.8 + 1e-6).ice_pellets - 1.0).abs() < 1e-9);
+        assert!(at(85.3).freezing_rain > 1e-6);
         // Between the two thresholds (46 + 0.66·30 … 66 + 0.66·30): a mix of both.
         let (p, t) = warm_nose(75.8, 30.0, 92_000.0);
         let f = bourgouin(&p, &t);

@@ -89,6 +89,8 @@ pub struct TownDecision {
     pub ice_baseline: f32,
     /// Weighted mean and P10/P50/P90 of ice accretion.
     pub ice: Option<Summary>,
+    /// Probability of ice accretion reaching each ice threshold.
+    pub ice_exceedance: Vec<f64>,
     /// The nearest flip.
     pub flip: FlipSearch,
     /// How far the first measurable snow (0.1 mm of liquid as snow in a step) moves over the
@@ -128,11 +130,12 @@ pub fn bust_score(p10_mm: f64, p90_mm: f64, baseline_mm: f64) -> f64 {
 }
 
 /// Every town's decision numbers, ranked: highest bust score first, missing last, ties by name.
-/// `snow_thresholds_mm` are snow depths in mm.
+/// `snow_thresholds_mm` are snow depths and `ice_thresholds_mm` ice accretions, in mm.
 pub fn town_decisions(
     r: &RunResult,
     weights: &[f64],
     snow_thresholds_mm: &[f64],
+    ice_thresholds_mm: &[f64],
 ) -> Vec<TownDecision> {
     let order = by_distance(&r.scenarios);
     let cross = stencil(&r.scenarios, r.baseline, Axis::Cross);
@@ -184,6 +187,15 @@ pub fn town_decisions(
                         .map_or(f64::NAN, |p| exceedance(p, *th))
                 })
                 .collect();
+            let ice_pairs = weighted(&ice);
+            let ice_exceedance = ice_thresholds_mm
+                .iter()
+                .map(|th| {
+                    ice_pairs
+                        .as_deref()
+                        .map_or(f64::NAN, |p| exceedance(p, *th))
+                })
+                .collect();
             let extremes = extremes(&snowfall);
             let base = per[r.baseline];
             let flip = flip_search(&r.scenarios, &order, &base, |k| per[k]);
@@ -203,7 +215,8 @@ pub fn town_decisions(
                 onset_shift_h,
                 baseline: base,
                 ice_baseline: ice[r.baseline],
-                ice: weighted(&ice).as_deref().map(summary),
+                ice: ice_pairs.as_deref().map(summary),
+                ice_exceedance,
                 snowfall,
                 snow,
                 snow_exceedance,
@@ -413,6 +426,7 @@ mod tests {
             snow_exceedance: vec![],
             ice_baseline: 0.0,
             ice: None,
+            ice_exceedance: vec![],
             flip,
             sensitivity_cross: 0.0,
             sensitivity_along: 0.0,

@@ -63,6 +63,7 @@ fn row(
     scenarios: &[Scenario],
     units: Units,
     thresholds: &[f64],
+    ice_thresholds: &[f64],
 ) -> Vec<(String, Cell)> {
     let su = units.snow_unit();
     let lu = units.liquid_unit();
@@ -144,18 +145,24 @@ fn row(
             Cell::Num(*p, 2),
         ));
     }
+    let ice = |mm: f64| Cell::Num(units.liquid(mm as f32) as f64, 1);
+    v.push((format!("ice_baseline_{lu}"), ice(t.ice_baseline as f64)));
     v.push((
-        format!("ice_baseline_{lu}"),
-        Cell::Num(units.liquid(t.ice_baseline) as f64, 1),
+        format!("ice_mean_{lu}"),
+        ice(t.ice.map_or(f64::NAN, |s| s.mean)),
     ));
-    v.push((
-        format!("ice_p90_{lu}"),
-        Cell::Num(
-            t.ice
-                .map_or(f64::NAN, |s| units.liquid(s.quantiles[2] as f32) as f64),
-            1,
-        ),
-    ));
+    for (k, name) in ["p10", "p50", "p90"].iter().enumerate() {
+        v.push((
+            format!("ice_{name}_{lu}"),
+            ice(t.ice.map_or(f64::NAN, |s| s.quantiles[k])),
+        ));
+    }
+    for (th, p) in ice_thresholds.iter().zip(&t.ice_exceedance) {
+        v.push((
+            format!("p_ice_ge_{}{lu}", threshold_text(*th)),
+            Cell::Num(*p, 2),
+        ));
+    }
     v.push(("summary".into(), Cell::Text(sentence(t, scenarios, units))));
     v
 }
@@ -167,6 +174,7 @@ pub fn write_towns_bust(
     scenarios: &[Scenario],
     units: Units,
     snow_thresholds: &[f64],
+    ice_thresholds: &[f64],
 ) -> Result<Vec<Written>, WriteError> {
     let csv_err = |e: csv::Error| WriteError::Io {
         path: dir.join("towns_bust.csv"),
@@ -176,15 +184,16 @@ pub fn write_towns_bust(
     let mut features = Vec::new();
     let header_only = row(
         0,
-        &placeholder(scenarios.len(), snow_thresholds.len()),
+        &placeholder(scenarios.len(), snow_thresholds.len(), ice_thresholds.len()),
         scenarios,
         units,
         snow_thresholds,
+        ice_thresholds,
     );
     w.write_record(header_only.iter().map(|(k, _)| k))
         .map_err(csv_err)?;
     for (i, t) in ranked.iter().enumerate() {
-        let cells = row(i + 1, t, scenarios, units, snow_thresholds);
+        let cells = row(i + 1, t, scenarios, units, snow_thresholds, ice_thresholds);
         w.write_record(cells.iter().map(|(_, c)| c.csv()))
             .map_err(csv_err)?;
         let mut p = JsonObject::new();
@@ -216,7 +225,7 @@ pub fn write_towns_bust(
 }
 
 /// A town with every value missing, to name the columns when there are no towns.
-fn placeholder(n: usize, thresholds: usize) -> TownDecision {
+fn placeholder(n: usize, thresholds: usize, ice_thresholds: usize) -> TownDecision {
     use crate::summarise::sensitivity::CellTotals;
     TownDecision {
         name: String::new(),
@@ -236,6 +245,7 @@ fn placeholder(n: usize, thresholds: usize) -> TownDecision {
         extremes: None,
         ice_baseline: f32::NAN,
         ice: None,
+        ice_exceedance: vec![f64::NAN; ice_thresholds],
         flip: FlipSearch::Missing,
         sensitivity_cross: f32::NAN,
         sensitivity_along: f32::NAN,

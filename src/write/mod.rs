@@ -172,13 +172,19 @@ fn write_decision_products(
         .iter()
         .map(|t| case.units.snow_to_mm(*t))
         .collect();
-    let ranked = crate::summarise::bust::town_decisions(r, &weights, &snow_mm);
+    let ice_mm: Vec<f64> = case
+        .ice_thresholds
+        .iter()
+        .map(|t| case.units.liquid_to_mm(*t))
+        .collect();
+    let ranked = crate::summarise::bust::town_decisions(r, &weights, &snow_mm, &ice_mm);
     files.extend(bust::write_towns_bust(
         dir,
         &ranked,
         &r.scenarios,
         case.units,
         &case.snow_thresholds,
+        &case.ice_thresholds,
     )?);
     let ctx = maps::MapContext {
         title: &case.title,

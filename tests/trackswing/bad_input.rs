@@ -213,6 +213,19 @@ fn humidity_over_100_percent() {
 }
 
 #[test]
+fn negative_humidity() {
+    let (d, c) = case("");
+    rewrite(&d.path().join("f/s_01.tif"), |desc, b| {
+        Some(if desc == "relative_humidity@2m" {
+            b.iter().map(|v| v - 120.0).collect()
+        } else {
+            b.to_vec()
+        })
+    });
+    fails_cleanly(&c, &[], &["s_01.tif", "relative_humidity@2m", "percent"]);
+}
+
+#[test]
 fn truncated_geotiff() {
     let (d, c) = case("");
     let p = d.path().join("f/s_01.tif");
@@ -324,6 +337,39 @@ fn duplicated_or_unordered_track_times() {
         &["--cross", "-10:10:10"],
         &["track.csv", "line 3", "must increase"],
     );
+}
+
+#[test]
+fn track_times_that_go_back() {
+    let (d, c) = case("");
+    std::fs::write(
+        d.path().join("track.csv"),
+        "time,lat,lon\n2026-01-14T06:00:00Z,0,11\n2026-01-14T00:00:00Z,0,11.5\n2026-01-15T00:00:00Z,0,12\n",
+    )
+    .unwrap();
+    fails_cleanly(
+        &c,
+        &["--cross", "-10:10:10"],
+        &["track.csv", "line 3", "must increase"],
+    );
+}
+
+/// An output folder that cannot be created (the kernel's /proc takes no new folders, even from
+/// root): exit code 4 for an output problem, the folder named, nothing written.
+#[test]
+fn unwritable_output_folder() {
+    let (_d, c) = case("");
+    let out = "/proc/trackswing-cannot-write-here";
+    let o = bin()
+        .arg("run")
+        .arg(&c)
+        .args(["--out", out])
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(4), "{err}");
+    assert!(err.contains(out), "{err}");
+    assert!(!Path::new(out).exists());
 }
 
 #[test]

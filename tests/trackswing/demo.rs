@@ -136,6 +136,37 @@ fn demo_writes_every_layer_and_the_same_bytes_on_one_thread() {
     ranked.sort();
     names.sort();
     assert_eq!(ranked, names);
+    // The ice distribution per town: percentiles ordered, the mean not negative, exceedance probabilities in [0, 1] and never rising with the threshold, and some town
+    // of the demo (which has freezing rain under its warm nose) with ice to speak of.
+    let mut bust = csv::Reader::from_path(a.join("towns_bust.csv")).unwrap();
+    let head = bust.headers().unwrap().clone();
+    let col = |n: &str| head.iter().position(|c| c == n).unwrap();
+    let (p10, p50, p90, mean) = (
+        col("ice_p10_mm"),
+        col("ice_p50_mm"),
+        col("ice_p90_mm"),
+        col("ice_mean_mm"),
+    );
+    let p_ice: Vec<usize> = (0..head.len())
+        .filter(|&i| head[i].starts_with("p_ice_ge_"))
+        .collect();
+    assert_eq!(p_ice.len(), 5, "five default ice thresholds, 1…25 mm");
+    let mut icy = 0;
+    for r in bust.records() {
+        let r = r.unwrap();
+        let v = |i: usize| r[i].parse::<f64>().unwrap();
+        assert!(v(p10) <= v(p50) && v(p50) <= v(p90), "{:?}", r);
+        // At least a tenth of the weight has ≥ 1 mm when P90 does, so the mean has ≥ 0.1 mm.
+        assert!(v(mean) >= 0.0, "{:?}", r);
+        assert!(v(p90) < 1.0 || v(mean) >= 0.1, "{:?}", r);
+        let probs: Vec<f64> = p_ice.iter().map(|&i| v(i)).collect();
+        assert!(probs.iter().all(|p| (0.0..=1.0).contains(p)), "{:?}", r);
+        assert!(probs.windows(2).all(|w| w[1] <= w[0]), "{:?}", r);
+        if v(p90) > 0.5 {
+            icy += 1;
+        }
+    }
+    assert!(icy > 0, "no demo town has ice");
     // The demo also writes the report (not in the manifest, which it reads).
     let html = std::fs::read_to_string(a.join("report.html")).unwrap();
     assert!(html.contains("<table id=\"towns\""));

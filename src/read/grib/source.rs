@@ -693,11 +693,12 @@ impl GribSource {
         h: Humidity,
         t: &[f32],
         p: &dyn Fn(usize) -> f64,
+        decoded: &mut Decoded,
     ) -> Result<Vec<f32>, GribError> {
         Ok(match h {
-            Humidity::Relative(i) => self.values(i)?,
-            Humidity::Dewpoint(i) => self
-                .values(i)?
+            Humidity::Relative(i) => decoded.take(self, i)?,
+            Humidity::Dewpoint(i) => decoded
+                .take(self, i)?
                 .iter()
                 .zip(t)
                 .map(|(&td, &t)| {
@@ -705,14 +706,41 @@ impl GribSource {
                         / saturation_vapor_pressure(f64::from(t))) as f32
                 })
                 .collect(),
-            Humidity::Specific(i) => self
-                .values(i)?
+            Humidity::Specific(i) => decoded
+                .take(self, i)?
                 .iter()
                 .zip(t)
                 .enumerate()
                 .map(|(c, (&q, &t))| rh_from_specific(f64::from(q), f64::from(t), p(c)) as f32)
                 .collect(),
         })
+    }
+}
+
+/// The fields of one step, decoded in parallel (one rayon task per field; the values do not
+/// depend on the number of threads), handed out once each.
+struct Decoded {
+    /// Entry index and its values, until handed out.
+    fields: Vec<(usize, Option<FieldValues>)>,
+}
+
+type FieldValues = Result<Vec<f32>, GribError>;
+
+impl Decoded {
+    fn all(src: &GribSource, need: Vec<usize>) -> Self {
+        use rayon::prelude::*;
+        let values: Vec<FieldValues> = need.par_iter().map(|&i| src.values(i)).collect();
+        Self {
+            fields: need.into_iter().zip(values.into_iter().map(Some)).collect(),
+        }
+    }
+
+    /// The values of entry `i` (decoded again should a step use one entry twice).
+    fn take(&mut self, src: &GribSource, i: usize) -> Result<Vec<f32>, GribError> {
+        match self.fields.iter_mut().find(|(j, _)| *j == i) {
+            Some((_, slot @ Some(_))) => slot.take().expect("just matched"),
+            _ => src.values(i),
+        }
     }
 }
 
@@ -761,6 +789,17 @@ impl Source for GribSource {
 
     fn step(&self, k: usize) -> Result<StepFields, SourceError> {
         let s = &self.plan[k];
+        let mut need: Vec<usize> = s
+            .levels
+            .iter()
+            .flat_map(|l| [l.t, l.z, hum_index(l.hum)])
+            .chain([s.t2, hum_index(s.hum2)])
+            .chain(s.psfc)
+            .chain(s.plus.iter().chain(&s.minus).copied())
+            .collect();
+        need.sort_unstable();
+        need.dedup();
+        let mut decoded = Decoded::all(self, need);
         let levels_pa: Vec<f64> = s
             .levels
             .iter()
@@ -771,37 +810,37 @@ impl Source for GribSource {
             .collect();
         let mut owned: Vec<[(String, Vec<f32>); 3]> = Vec::with_capacity(s.levels.len());
         for (l, &p) in s.levels.iter().zip(&levels_pa) {
-            let t = self.values(l.t)?;
-            let mut z = self.values(l.z)?;
+            let t = decoded.take(self, l.t)?;
+            let mut z = decoded.take(self, l.z)?;
             if l.z_is_geopotential {
                 for v in &mut z {
                     *v /= G as f32;
                 }
             }
-            let rh = self.relative(l.hum, &t, &|_| p)?;
+            let rh = self.relative(l.hum, &t, &|_| p, &mut decoded)?;
             owned.push([
                 (self.label(l.t), t),
                 (self.label(l.z), z),
                 (self.label(hum_index(l.hum)), rh),
             ]);
         }
-        let t2 = self.values(s.t2)?;
-        let psfc = s.psfc.map(|i| self.values(i)).transpose()?;
+        let t2 = decoded.take(self, s.t2)?;
+        let psfc = s.psfc.map(|i| decoded.take(self, i)).transpose()?;
         let terrain = &self.statics.terrain;
         let p_at = |c: usize| match &psfc {
             Some(p) => f64::from(p[c]),
             None => standard_pressure(f64::from(terrain[c])),
         };
-        let rh2 = self.relative(s.hum2, &t2, &p_at)?;
+        let rh2 = self.relative(s.hum2, &t2, &p_at, &mut decoded)?;
         let n = terrain.len();
         let mut precip = vec![0f32; n];
         for &i in &s.plus {
-            for (a, v) in precip.iter_mut().zip(self.values(i)?) {
+            for (a, v) in precip.iter_mut().zip(decoded.take(self, i)?) {
                 *a += v;
             }
         }
         for &i in &s.minus {
-            for (a, v) in precip.iter_mut().zip(self.values(i)?) {
+            for (a, v) in precip.iter_mut().zip(decoded.take(self, i)?) {
                 *a -= v;
             }
         }

@@ -15,6 +15,7 @@
 use crate::geotiff::{read_geotiff, GeoTiffError, Raster};
 use crate::grid::{Grid, GridError};
 use chrono::{DateTime, Utc};
+use rayon::prelude::*;
 use std::path::{Path, PathBuf};
 
 /// Why model fields cannot be used.
@@ -383,25 +384,23 @@ pub fn assemble(
     };
     let n = terrain.len();
     let nvar = layout.nvar();
-    let mut columns = vec![f32::NAN; n * nvar];
-    let mut put = |var: usize, f: &Labelled<'_>| -> Result<(), FieldError> {
-        if f.values.len() != n {
-            return Err(FieldError::Layout {
-                path: path.to_path_buf(),
-                what: format!(
-                    "{} has {} values but the grid has {n} cells",
-                    f.label,
-                    f.values.len()
-                ),
-            });
+    let length = |f: &Labelled<'_>| -> Result<(), FieldError> {
+        if f.values.len() == n {
+            return Ok(());
         }
-        for (c, x) in f.values.iter().enumerate() {
-            columns[c * nvar + var] = *x;
-        }
-        Ok(())
+        Err(FieldError::Layout {
+            path: path.to_path_buf(),
+            what: format!(
+                "{} has {} values but the grid has {n} cells",
+                f.label,
+                f.values.len()
+            ),
+        })
     };
     const T_HINT: &str = "temperatures must be in kelvin (a value near 0–30 suggests °C)";
     const RH_HINT: &str = "relative humidity must be in percent, 0–100";
+    // Every field with the place it takes in a column.
+    let mut sources: Vec<(usize, &[f32])> = Vec::with_capacity(nvar);
     for (k, [t, z, rh]) in v.levels.iter().enumerate() {
         check_range(path, &t.label, t.values, 150.0, 340.0, T_HINT)?;
         check_range(
@@ -413,9 +412,14 @@ pub fn assemble(
             "expected metres",
         )?;
         check_range(path, &rh.label, rh.values, 0.0, 100.5, RH_HINT)?;
-        put(layout.t(k), t)?;
-        put(layout.z(k), z)?;
-        put(layout.rh(k), rh)?;
+        for f in [t, z, rh] {
+            length(f)?;
+        }
+        sources.extend([
+            (layout.t(k), t.values),
+            (layout.z(k), z.values),
+            (layout.rh(k), rh.values),
+        ]);
     }
     check_range(path, &v.t2.label, v.t2.values, 150.0, 340.0, T_HINT)?;
     check_range(path, &v.rh2.label, v.rh2.values, 0.0, 100.5, RH_HINT)?;
@@ -427,37 +431,55 @@ pub fn assemble(
         1000.0,
         "expected kg m-2 (mm) per step, not negative",
     )?;
-    put(layout.t2(), &v.t2)?;
-    put(layout.rh2(), &v.rh2)?;
-    put(layout.precip(), &v.precip)?;
-    put(
-        layout.terrain(),
-        &Labelled {
-            label: "terrain".into(),
-            values: terrain,
-        },
-    )?;
-    for c in 0..n {
-        let col = &mut columns[c * nvar..(c + 1) * nvar];
-        // Rounding noise only: the range checks above refused anything larger.
-        col[layout.precip()] = col[layout.precip()].max(0.0);
-        for k in 0..layout.levels_pa.len() {
-            col[layout.rh(k)] = col[layout.rh(k)].min(100.0);
-        }
-        col[layout.rh2()] = col[layout.rh2()].min(100.0);
-        for k in 1..layout.levels_pa.len() {
-            let (z0, z1) = (col[layout.z(k - 1)], col[layout.z(k)]);
-            if z1 <= z0 {
-                return Err(FieldError::Implausible {
-                    path: path.to_path_buf(),
-                    band: v.levels[k][1].label.clone(),
-                    what: format!(
-                        "cell {c}: height {z1} m is not above {z0} m at {}; heights must increase upward",
-                        level_tag(layout.levels_pa[k - 1])
-                    ),
-                });
+    for f in [&v.t2, &v.rh2, &v.precip] {
+        length(f)?;
+    }
+    sources.extend([
+        (layout.t2(), v.t2.values),
+        (layout.rh2(), v.rh2.values),
+        (layout.precip(), v.precip.values),
+        (layout.terrain(), terrain),
+    ]);
+    // Interleave cell by cell (each column written once, every field read in order), in
+    // parallel blocks; the first cell whose heights do not increase is reported whatever the
+    // number of threads.
+    const CELLS_PER_BLOCK: usize = 16_384;
+    let nlev = layout.levels_pa.len();
+    let mut columns = vec![0f32; n * nvar];
+    let not_rising = columns
+        .par_chunks_mut(CELLS_PER_BLOCK * nvar)
+        .enumerate()
+        .filter_map(|(b, block)| {
+            let mut first = None;
+            for (i, col) in block.chunks_mut(nvar).enumerate() {
+                let c = b * CELLS_PER_BLOCK + i;
+                for &(var, src) in &sources {
+                    col[var] = src[c];
+                }
+                // Rounding noise only: the range checks above refused anything larger.
+                col[layout.precip()] = col[layout.precip()].max(0.0);
+                for k in 0..nlev {
+                    col[layout.rh(k)] = col[layout.rh(k)].min(100.0);
+                }
+                col[layout.rh2()] = col[layout.rh2()].min(100.0);
+                if first.is_none() {
+                    first = (1..nlev)
+                        .find(|&k| col[layout.z(k)] <= col[layout.z(k - 1)])
+                        .map(|k| (c, k, col[layout.z(k - 1)], col[layout.z(k)]));
+                }
             }
-        }
+            first
+        })
+        .min_by_key(|(c, ..)| *c);
+    if let Some((c, k, z0, z1)) = not_rising {
+        return Err(FieldError::Implausible {
+            path: path.to_path_buf(),
+            band: v.levels[k][1].label.clone(),
+            what: format!(
+                "cell {c}: height {z1} m is not above {z0} m at {}; heights must increase upward",
+                level_tag(layout.levels_pa[k - 1])
+            ),
+        });
     }
     Ok(StepFields {
         valid,

@@ -18,16 +18,24 @@ struct Input {
     sha256: String,
 }
 
-/// A band of a raster file, with the offsets of its scenario for the per-scenario stack.
+/// A band of a raster file, with every axis of its scenario for the per-scenario stack.
 #[derive(Serialize)]
 struct BandEntry {
     /// 1-based, as GDAL numbers bands.
     band: usize,
     description: String,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    cross_km: Option<f64>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    along_km: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none", flatten)]
+    scenario: Option<BandScenario>,
+}
+
+/// The axes of a band's scenario.
+#[derive(Serialize)]
+struct BandScenario {
+    cross_km: f64,
+    along_km: f64,
+    timing_h: f64,
+    intensity: f64,
+    warm_bias_k: f64,
 }
 
 /// How a file is georeferenced: EPSG code where there is one, and always the PROJ definition.
@@ -178,8 +186,13 @@ pub fn write_manifest(
                     .map(|(i, (d, s))| BandEntry {
                         band: i + 1,
                         description: d.clone(),
-                        cross_km: Some(s.cross_km),
-                        along_km: Some(s.along_km),
+                        scenario: Some(BandScenario {
+                            cross_km: s.cross_km,
+                            along_km: s.along_km,
+                            timing_h: s.timing_h,
+                            intensity: s.intensity,
+                            warm_bias_k: s.warm_bias_k,
+                        }),
                     })
                     .collect()
             } else if !f.bands.is_empty() {
@@ -189,16 +202,14 @@ pub fn write_manifest(
                     .map(|(i, d)| BandEntry {
                         band: i + 1,
                         description: d.clone(),
-                        cross_km: None,
-                        along_km: None,
+                        scenario: None,
                     })
                     .collect()
             } else {
                 vec![BandEntry {
                     band: 1,
                     description: f.description.clone(),
-                    cross_km: None,
-                    along_km: None,
+                    scenario: None,
                 }]
             };
             FileEntry {

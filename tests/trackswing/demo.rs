@@ -401,6 +401,31 @@ fn demo_towns_table_carries_every_axis_and_the_onset() {
         );
     }
     assert!(compared >= 5, "{compared} towns compared");
+    // The manifest's per-scenario bands carry every axis too, in the stack's band order.
+    let m: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(d.path().join("manifest.json")).unwrap()).unwrap();
+    let stack = m["files"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|f| f["file"] == "snowfall_by_scenario.tif")
+        .unwrap();
+    let axes: Vec<(f64, f64)> = stack["bands"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|b| {
+            assert_eq!(b["cross_km"], 0.0);
+            assert_eq!(b["intensity"], 1.0);
+            (
+                b["timing_h"].as_f64().unwrap(),
+                b["warm_bias_k"].as_f64().unwrap(),
+            )
+        })
+        .collect();
+    let mut sorted = axes.clone();
+    sorted.sort_by(|a, b| a.partial_cmp(b).unwrap());
+    assert_eq!(sorted, vec![(0.0, 0.0), (0.0, 1.0), (2.0, 0.0), (2.0, 1.0)]);
 }
 
 #[test]

@@ -238,6 +238,99 @@ fn latlon_grids_match_gdal_in_every_scanning_order_gdal_reads() {
     }
 }
 
+/// Packings other than simple packing, written by GDAL (`gdal_translate -of GRIB -co
+/// DATA_ENCODING=…`, with its own choice of reference value and scale factors): complex packing
+/// with and without spatial differencing (5.2/5.3, missing points by missing-value management),
+/// PNG (5.41), JPEG 2000 (5.40) and IEEE floating point (5.4), decoded by trackswing value by
+/// value as GDAL reads them back. Two sources: three fields with missing points (bit maps of
+/// indicator 0 and 254), and a whole step of the demo storm (20 fields, none missing). GDAL 3.6
+/// keeps missing points only with complex packing ("non-COMPLEX_PACKING DATA_ENCODING cannot
+/// preserve nodata": it writes a fill value instead), so the other packings are checked on the
+/// whole step.
+#[test]
+fn packings_written_by_gdal_decode_as_gdal_reads_them() {
+    if !gdal_available() {
+        return;
+    }
+    let d = tempfile::tempdir().unwrap();
+    let holes = d.path().join("holes.grib2");
+    write_file(
+        &holes,
+        &GridDef::LatLon {
+            ni: 13,
+            nj: 11,
+            la1: 60.0,
+            lo1: 350.0,
+            di: 2.5,
+            dj: 2.0,
+            scan: 0,
+        },
+    );
+    let demo = d.path().join("demo");
+    trackswing::demo::grib2_case::write_case_grib2(
+        &demo,
+        // 1.2° × 0.8° cells: steps GRIB2 stores exactly in micro-degrees.
+        &trackswing::demo::DemoSpec::scaled(16, 13, 2, 6, 5),
+    )
+    .unwrap();
+    let whole = demo.join("fields/step_001.grib2");
+    for (name, options, templates, sources) in [
+        (
+            "complex",
+            vec!["DATA_ENCODING=COMPLEX_PACKING"],
+            vec![2u16, 3],
+            vec![&holes, &whole],
+        ),
+        (
+            "complex_sd2",
+            vec![
+                "DATA_ENCODING=COMPLEX_PACKING",
+                "SPATIAL_DIFFERENCING_ORDER=2",
+            ],
+            vec![3],
+            // GDAL 3.6 fails to pack some of the demo's fields this way ("Error while packing").
+            vec![&holes],
+        ),
+        ("png", vec!["DATA_ENCODING=PNG"], vec![41], vec![&whole]),
+        (
+            "jpeg2000",
+            vec!["DATA_ENCODING=JPEG2000"],
+            vec![40],
+            vec![&whole],
+        ),
+        (
+            "ieee",
+            vec!["DATA_ENCODING=IEEE_FLOATING_POINT"],
+            vec![4],
+            vec![&whole],
+        ),
+    ] {
+        for src in sources {
+            let dst = d.path().join(format!(
+                "{name}_{}",
+                src.file_name().unwrap().to_str().unwrap()
+            ));
+            let mut args = vec!["-q", "-of", "GRIB"];
+            for o in &options {
+                args.extend(["-co", o]);
+            }
+            args.extend([src.to_str().unwrap(), dst.to_str().unwrap()]);
+            gdal("gdal_translate", &args, None);
+            let (_, _, cat) = trackswing_read(&dst);
+            let (_, _, original) = trackswing_read(src);
+            assert_eq!(cat.entries.len(), original.entries.len(), "{name}");
+            for e in &cat.entries {
+                assert!(
+                    templates.contains(&e.packing),
+                    "{name}: GDAL wrote template 5.{}",
+                    e.packing
+                );
+            }
+            compare_with_gdal(&dst, true);
+        }
+    }
+}
+
 #[test]
 fn global_grid_is_rotated_to_start_at_180_west() {
     let d = tempfile::tempdir().unwrap();
@@ -737,7 +830,7 @@ mod cases {
             edit(&d.join("fields/step_001.grib2"), |i, m| {
                 if i == 3 {
                     let s5 = section(m, 5);
-                    m[s5 + 9..s5 + 11].copy_from_slice(&4u16.to_be_bytes());
+                    m[s5 + 9..s5 + 11].copy_from_slice(&1u16.to_be_bytes());
                 }
                 true
             });
@@ -747,8 +840,31 @@ mod cases {
             &[
                 "step_001.grib2: message 3",
                 "850 hPa",
-                "template 5.4",
+                "template 5.1",
                 "not supported",
+            ],
+        );
+    }
+
+    /// A simple-packed field relabelled as IEEE floating point (5.4): its octet 12 (the first
+    /// octet of the reference value R) is no precision of code table 5.7, so it is refused.
+    #[test]
+    fn simple_packing_labelled_as_ieee_floating_point() {
+        let (_d, c) = bad_case(|d| {
+            edit(&d.join("fields/step_001.grib2"), |i, m| {
+                if i == 3 {
+                    let s5 = section(m, 5);
+                    m[s5 + 9..s5 + 11].copy_from_slice(&4u16.to_be_bytes());
+                }
+                true
+            });
+        });
+        fails_cleanly(
+            &c,
+            &[
+                "step_001.grib2",
+                "message 3",
+                "IEEE floating point of precision",
             ],
         );
     }

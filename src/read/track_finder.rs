@@ -225,7 +225,7 @@ pub fn find_track(
             .min_by(|a, b| p0[a.1 * grid.nx + a.0].total_cmp(&p0[b.1 * grid.nx + b.0]))
             .ok_or_else(|| {
                 FinderError::NoStart(format!(
-                    "no closed low at the first step (a minimum at least {} hPa below a ring {CLOSED_RING_KM} km out, inside the grid); give --start LAT,LON",
+                    "no closed low at the first step (a minimum at least {} hPa below a ring {CLOSED_RING_KM} km out, inside the grid); start the finder near the low with `trackswing track FILES --start LAT,LON` and run with its track.csv as the track",
                     CLOSED_PA / 100.0
                 ))
             })?,

@@ -15,15 +15,24 @@ fn files(inputs: &[PathBuf]) -> Result<Vec<PathBuf>, Failure> {
 /// Prints what the files hold.
 pub fn inspect(inputs: &[PathBuf]) -> Result<(), anyhow::Error> {
     let files = expand_model_args(inputs)?;
+    let mut all_grib2 = true;
     for f in &files {
-        if magic(f)? != Magic::Grib2 {
-            return Err(anyhow!(
-                "{}: not a GRIB2 file; inspect reads GRIB2",
-                f.display()
-            ));
-        }
+        all_grib2 &= magic(f)? == Magic::Grib2;
     }
-    print!("{}", trackswing::read::grib::inspect::inspect(&files)?);
+    if all_grib2 {
+        print!("{}", trackswing::read::grib::inspect::inspect(&files)?);
+        return Ok(());
+    }
+    // Other formats go through GDAL (the `gdal` feature; without it, the error says how to
+    // rebuild). Warnings about unused bands are part of what the files hold.
+    let warnings = std::cell::RefCell::new(Vec::new());
+    let src = trackswing::read::source::open_model(&files, &|w: &str| {
+        warnings.borrow_mut().push(w.to_string())
+    })?;
+    print!("{}", trackswing::read::source::describe(src.as_ref()));
+    for w in warnings.into_inner() {
+        println!("note: {w}");
+    }
     Ok(())
 }
 

@@ -201,3 +201,60 @@ pub fn open_model(files: &[PathBuf], warn: &dyn Fn(&str)) -> Result<Box<dyn Sour
         what: format!("{what}; {how}"),
     })
 }
+
+/// What an opened source holds, as `trackswing inspect` prints it for files that are not GRIB2
+/// (read through GDAL): the grid, the valid times, the isobaric levels, the fields of the first
+/// step, and the case requirements (all met, since the source opened; each step is read and
+/// checked, so a step that fails is named).
+pub fn describe(src: &dyn Source) -> String {
+    let mut out = String::new();
+    let inputs = src.inputs();
+    out.push_str(&format!(
+        "{} file(s) read through the general reader\n\nGrid:\n  {}\n",
+        inputs.len(),
+        src.statics().grid.describe()
+    ));
+    let mut times = Vec::new();
+    let mut first = None;
+    let mut failed = None;
+    for k in 0..src.step_count() {
+        match src.step(k) {
+            Ok(s) => {
+                times.push(s.valid.format("%Y-%m-%dT%H:%MZ").to_string());
+                if first.is_none() {
+                    first = Some(s);
+                }
+            }
+            Err(e) => {
+                failed = Some((k, e));
+                break;
+            }
+        }
+    }
+    out.push_str(&format!(
+        "\nValid times ({}): {}\n",
+        src.step_count(),
+        times.join(", ")
+    ));
+    if let Some(s) = &first {
+        let levels: Vec<String> = s
+            .layout
+            .levels_pa
+            .iter()
+            .map(|p| format!("{}", p / 100.0))
+            .collect();
+        out.push_str(&format!(
+            "\nFields of every step: temperature, geopotential height and relative humidity at {} hPa; 2 m temperature and humidity; precipitation for the step. Terrain: one field.\n",
+            levels.join(", ")
+        ));
+    }
+    out.push_str("\nCase requirements:\n");
+    match failed {
+        None => out.push_str(&format!(
+            "  met     every one of the {} steps has the levels, 2 m fields and precipitation\n  met     terrain\n",
+            src.step_count()
+        )),
+        Some((k, e)) => out.push_str(&format!("  MISSING step {}: {e}\n", k + 1)),
+    }
+    out
+}

@@ -408,6 +408,31 @@ mod with_gdal {
             .all(|p| p.extension().is_some_and(|e| e == "nc")));
     }
 
+    /// `inspect` on NetCDF files: grid, valid times, levels and requirements, through GDAL.
+    #[test]
+    fn inspect_lists_what_netcdf_files_hold() {
+        let d = tempfile::tempdir().unwrap();
+        trackswing::demo::files::write_case(d.path(), &spec()).unwrap();
+        let nc = write_netcdf_case(d.path(), "");
+        let o = bin()
+            .arg("inspect")
+            .arg(nc.parent().unwrap().join("nc"))
+            .output()
+            .unwrap();
+        let text = String::from_utf8_lossy(&o.stdout);
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+        let s = spec();
+        for want in [
+            "read through the general reader".to_string(),
+            format!("{}×{} cells on lat/lon", s.nx, s.ny),
+            format!("Valid times ({})", s.steps),
+            "1000, 925, 850, 700, 500 hPa".to_string(),
+            "met     every one of the".to_string(),
+        ] {
+            assert!(text.contains(&want), "'{want}' not in:\n{text}");
+        }
+    }
+
     #[test]
     fn a_run_on_the_netcdf_case_gives_the_geotiff_case_snowfall() {
         let d = tempfile::tempdir().unwrap();

@@ -515,6 +515,49 @@ mod tests {
         dry_air: false,
     };
 
+    proptest::proptest! {
+        #![proptest_config(proptest::prelude::ProptestConfig::with_cases(1000))]
+
+        /// A drier sub-cloud layer never lets more precipitation reach the ground: the same
+        /// column with lower humidity at any points (2 m and isobaric) gives at most the same
+        /// amount at the ground in one step, through the whole kernel (profile, cloud base,
+        /// deficit, evaporation). Winter columns from −20 to +8 °C at the ground.
+        #[test]
+        fn a_drier_column_never_gives_more_at_the_ground(
+            t2 in 253.0..281.0_f64,
+            lapse in 3.0..9.0_f64,
+            rh in proptest::collection::vec(20.0..100.0_f64, 6),
+            drying in proptest::collection::vec(0.0..40.0_f64, 6),
+            falling in 0.0..6.0_f64,
+        ) {
+            let temps: Vec<f64> = [0.0, 0.7, 1.5, 3.0, 5.6]
+                .iter()
+                .map(|km| t2 - 0.5 - lapse * km)
+                .collect();
+            let (l, mut moist) = column(&LEVELS, &temps, t2, 100.0);
+            moist[l.rh2()] = rh[0] as f32;
+            for k in 0..LEVELS.len() {
+                moist[l.rh(k)] = rh[k + 1] as f32;
+            }
+            let mut dry = moist.clone();
+            dry[l.rh2()] = (rh[0] - drying[0]).max(0.0) as f32;
+            for k in 0..LEVELS.len() {
+                dry[l.rh(k)] = (rh[k + 1] - drying[k + 1]).max(0.0) as f32;
+            }
+            let methods = Methods { dry_air: true, ..FIXED };
+            let mut pr = Profile::empty();
+            let a = step_column(&moist, &l, 0.0, &methods, 0.0, falling, 0.0, &mut pr).unwrap();
+            let b = step_column(&dry, &l, 0.0, &methods, 0.0, falling, 0.0, &mut pr).unwrap();
+            proptest::prop_assert!(b.deficit >= a.deficit - 1e-9, "deficit {} < {}", b.deficit, a.deficit);
+            proptest::prop_assert!(
+                b.reaching_ground <= a.reaching_ground + 1e-9,
+                "drier {} > moister {}",
+                b.reaching_ground,
+                a.reaching_ground
+            );
+        }
+    }
+
     #[test]
     fn cold_column_is_snow_and_warm_column_rain() {
         let (l, c) = column(&LEVELS, &[268.0, 266.0, 264.0, 256.0, 240.0], 268.5, 100.0);

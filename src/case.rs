@@ -232,6 +232,34 @@ impl Units {
             Self::Us => "in",
         }
     }
+    /// A distance as the outputs write it: km in metric; in US units the miles follow in
+    /// brackets, since offsets are set in km (1 mi = 1.609344 km, the international mile).
+    ///
+    /// ```
+    /// use trackswing::case::Units;
+    /// assert_eq!(Units::Metric.distance(40.0), "40 km");
+    /// assert_eq!(Units::Us.distance(40.0), "40 km (25 mi)");
+    /// assert_eq!(Units::Us.distance(7.5), "7.5 km (4.7 mi)");
+    /// ```
+    pub fn distance(&self, km: f64) -> String {
+        let text = |v: f64, digits: usize| {
+            let s = format!("{v:.digits$}");
+            if s.contains('.') {
+                s.trim_end_matches('0').trim_end_matches('.').to_string()
+            } else {
+                s
+            }
+        };
+        let k = text(km, 3);
+        match self {
+            Self::Metric => format!("{k} km"),
+            Self::Us => {
+                let mi = km / 1.609_344;
+                let digits = if mi.abs() < 10.0 { 1 } else { 0 };
+                format!("{k} km ({} mi)", text(mi, digits))
+            }
+        }
+    }
     /// Converts a snow depth in the output unit to mm.
     pub fn snow_to_mm(&self, v: f64) -> f64 {
         match self {

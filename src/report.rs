@@ -120,8 +120,8 @@ pub fn summary(
                 u.snow(t.min),
                 u.snow(t.max),
                 u.snow(t.range()),
-                r.scenarios[t.argmin].in_words(),
-                r.scenarios[t.argmax].in_words()
+                r.scenarios[t.argmin].in_words_in(u),
+                r.scenarios[t.argmax].in_words_in(u)
             );
         }
     }

@@ -120,10 +120,16 @@ impl Scenario {
     /// Plain words, e.g. `40 km left, 50 km behind, 3 h later, 20 % wetter, 1 K warmer aloft`
     /// or `as modelled`.
     pub fn in_words(&self) -> String {
+        self.in_words_in(crate::case::Units::Metric)
+    }
+
+    /// [`Scenario::in_words`] with distances as `units` writes them (km, and in US units the
+    /// miles too: `40 km (25 mi) left`).
+    pub fn in_words_in(&self, units: crate::case::Units) -> String {
         let mut parts = Vec::new();
         if self.cross_km != 0.0 {
             let side = if self.cross_km > 0.0 { "left" } else { "right" };
-            parts.push(format!("{} km {side}", trim(self.cross_km.abs())));
+            parts.push(format!("{} {side}", units.distance(self.cross_km.abs())));
         }
         if self.along_km != 0.0 {
             let side = if self.along_km > 0.0 {
@@ -131,7 +137,7 @@ impl Scenario {
             } else {
                 "behind"
             };
-            parts.push(format!("{} km {side}", trim(self.along_km.abs())));
+            parts.push(format!("{} {side}", units.distance(self.along_km.abs())));
         }
         if self.timing_h != 0.0 {
             let when = if self.timing_h > 0.0 {
@@ -477,6 +483,10 @@ mod tests {
         assert_eq!(s.in_words(), "40 km left, 50 km behind");
         assert_eq!(s.label(), "cross +40 km, along -50 km");
         assert_eq!(Scenario::BASELINE.in_words(), "as modelled");
+        assert_eq!(
+            s.in_words_in(crate::case::Units::Us),
+            "40 km (25 mi) left, 50 km (31 mi) behind"
+        );
         let t = Scenario {
             timing_h: 3.0,
             intensity: 0.8,

@@ -330,7 +330,7 @@ pub fn sentence(t: &TownDecision, scenarios: &[Scenario], units: Units) -> Strin
             };
             parts.push(format!(
                 "{amount} if the low tracks {}",
-                scenarios[k].in_words()
+                scenarios[k].in_words_in(units)
             ));
         }
     }
@@ -339,13 +339,13 @@ pub fn sentence(t: &TownDecision, scenarios: &[Scenario], units: Units) -> Strin
             parts.push(format!(
                 "{} or more if it tracks {}",
                 snow_words(p90, units),
-                scenarios[k].in_words()
+                scenarios[k].in_words_in(units)
             ));
         }
     }
     match t.flip {
         FlipSearch::Flip(f) => {
-            let at = scenarios[f.scenario].in_words();
+            let at = scenarios[f.scenario].in_words_in(units);
             parts.push(match (f.kind, f.to) {
                 (FlipKind::Type, Some(to)) => {
                     format!("turns mostly to {} with the low {at}", to.words())
@@ -362,7 +362,8 @@ pub fn sentence(t: &TownDecision, scenarios: &[Scenario], units: Units) -> Strin
                 .map(|s| s.cross_km.hypot(s.along_km))
                 .fold(0.0, f64::max);
             parts.push(format!(
-                "no change of type, halving or doubling within the offsets run (up to {far:.0} km)"
+                "no change of type, halving or doubling within the offsets run (up to {})",
+                units.distance(far.round())
             ));
         }
         FlipSearch::Missing => {}
@@ -462,7 +463,7 @@ mod tests {
         let s = sentence(&t, &sc, Units::Us);
         assert_eq!(
             s,
-            "7.1 in as modelled; no change of type, halving or doubling within the offsets run (up to 40 km); 6.9–7.3 in over all offsets run."
+            "7.1 in as modelled; no change of type, halving or doubling within the offsets run (up to 40 km (25 mi)); 6.9–7.3 in over all offsets run."
         );
         // No snow anywhere: no range to give (it once read "0–no snow").
         let t = decision(0.0, vec![0.0; 5], FlipSearch::Never);

@@ -102,6 +102,15 @@ fn row(
             Cell::Num(flip.map_or(f64::NAN, |f| f.distance_km), 1),
         ),
         (
+            // US units: the same distance in international miles, next to the km.
+            if units == Units::Us {
+                "flip_mi".into()
+            } else {
+                String::new()
+            },
+            Cell::Num(flip.map_or(f64::NAN, |f| f.distance_km / 1.609_344), 1),
+        ),
+        (
             "flip_cross_km".into(),
             Cell::Num(flip.map_or(f64::NAN, |f| f.cross_km), 1),
         ),
@@ -111,7 +120,7 @@ fn row(
         ),
         (
             "flip_direction".into(),
-            Cell::Text(flip.map_or(String::new(), |f| scenarios[f.scenario].in_words())),
+            Cell::Text(flip.map_or(String::new(), |f| scenarios[f.scenario].in_words_in(units))),
         ),
         ("flip_what".into(), Cell::Text(flip_words(&t.flip).into())),
         (
@@ -145,7 +154,9 @@ fn row(
             Cell::Num(*p, 2),
         ));
     }
-    let ice = |mm: f64| Cell::Num(units.liquid(mm as f32) as f64, 1);
+    // Ice in inches needs hundredths: the thresholds start at 0.05 in.
+    let ice_digits = if units == Units::Us { 2 } else { 1 };
+    let ice = |mm: f64| Cell::Num(units.liquid(mm as f32) as f64, ice_digits);
     v.push((format!("ice_baseline_{lu}"), ice(t.ice_baseline as f64)));
     v.push((
         format!("ice_mean_{lu}"),
@@ -164,6 +175,8 @@ fn row(
         ));
     }
     v.push(("summary".into(), Cell::Text(sentence(t, scenarios, units))));
+    // Columns named only in some units (flip_mi).
+    v.retain(|(name, _)| !name.is_empty());
     v
 }
 

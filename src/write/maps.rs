@@ -228,7 +228,7 @@ fn amount_classes(thresholds: &[f64], max: f64, unit: &str, ramp: &Ramp) -> Clas
 }
 
 /// Flip-distance classes: steps of 25, 50 or 100 km up to the farthest offset.
-fn distance_classes(max_km: f64, ramp: &Ramp) -> Classes {
+fn distance_classes(max_km: f64, ramp: &Ramp, units: Units) -> Classes {
     let step = if max_km <= 150.0 {
         25.0
     } else if max_km <= 400.0 {
@@ -242,10 +242,14 @@ fn distance_classes(max_km: f64, ramp: &Ramp) -> Classes {
     let mut lo = 0.0;
     for k in 0..n {
         let hi = (k + 1) as f64 * step;
-        labels.push(if k == 0 {
-            format!("within {hi:.0} km")
-        } else {
-            format!("{lo:.0} – {hi:.0} km")
+        labels.push(match (k, units) {
+            (0, _) => format!("within {}", units.distance(hi)),
+            (_, Units::Metric) => format!("{lo:.0} – {hi:.0} km"),
+            (_, Units::Us) => format!(
+                "{lo:.0} – {hi:.0} km ({:.0} – {:.0} mi)",
+                lo / 1.609_344,
+                hi / 1.609_344
+            ),
         });
         lo = hi;
     }
@@ -700,9 +704,9 @@ pub fn write_maps(
                 (a.min(x), b.max(x))
             });
         if lo == hi {
-            format!("{lo} km")
+            u.distance(lo)
         } else {
-            format!("{lo} … {hi} km")
+            format!("{} … {}", u.distance(lo), u.distance(hi))
         }
     };
     let overlay = Overlay {
@@ -712,9 +716,13 @@ pub fn write_maps(
         centres,
         towns: ranked_towns,
         subtitle: format!(
-            "{} · {} track offsets · snowfall in {su}",
+            "{} · {} track offsets · snowfall in {}",
             ctx.title,
-            r.scenarios.len()
+            r.scenarios.len(),
+            match u {
+                Units::Metric => "cm",
+                Units::Us => "inches",
+            }
         ),
         notes: vec![
             format!(
@@ -781,9 +789,15 @@ pub fn write_maps(
         MapSpec {
             file: "map_flip_distance.png",
             title: "How far the track must shift before the forecast flips".into(),
-            legend_title: "Smallest track shift (km) that changes the main precipitation type or halves or doubles the snowfall".into(),
+            legend_title: format!(
+                "Smallest track shift ({}) that changes the main precipitation type or halves or doubles the snowfall",
+                match u {
+                    Units::Metric => "km",
+                    Units::Us => "km, with miles",
+                }
+            ),
             field: &inputs.flip.distance_km,
-            classes: distance_classes(far, &ramp::flip()),
+            classes: distance_classes(far, &ramp::flip(), u),
             nearest_only: true,
             never: Some(&inputs.flip.kind),
         },
@@ -828,11 +842,15 @@ mod tests {
         assert_eq!(c.of(0.0), 0);
         assert_eq!(c.of(2.5), 1);
         assert_eq!(c.of(99.0), 6);
-        let d = distance_classes(100.0, &ramp::flip());
+        let d = distance_classes(100.0, &ramp::flip(), Units::Metric);
         assert_eq!(
             d.labels,
             ["within 25 km", "25 – 50 km", "50 – 75 km", "75 – 100 km"]
         );
+        // US units: the miles follow (25 km = 15.5 mi, 50 km = 31 mi, 75 km = 47 mi).
+        let d = distance_classes(100.0, &ramp::flip(), Units::Us);
+        assert_eq!(d.labels[0], "within 25 km (16 mi)");
+        assert_eq!(d.labels[1], "25 – 50 km (16 – 31 mi)");
         assert_eq!(d.of(25.0), 0);
         assert_eq!(d.of(25.1), 1);
         assert_eq!(d.of(100.0), 3);

@@ -118,12 +118,12 @@ pub fn write_towns(
             if missing {
                 String::new()
             } else {
-                scenarios[t.argmin].in_words()
+                scenarios[t.argmin].in_words_in(units)
             },
             if missing {
                 String::new()
             } else {
-                scenarios[t.argmax].in_words()
+                scenarios[t.argmax].in_words_in(units)
             },
             num(t.snow_fraction[baseline], 2),
         ];

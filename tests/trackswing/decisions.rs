@@ -224,6 +224,7 @@ fn bust_table_is_ranked_spreadsheet_safe_and_points_agree() {
         .map(|r| r[col("bust_score")].parse().unwrap())
         .collect();
     assert!(scores.windows(2).all(|w| w[0] >= w[1]), "{scores:?}");
+    let mut flips = 0;
     for (i, r) in rows.iter().enumerate() {
         assert_eq!(r[col("rank")], (i + 1).to_string());
         let name = &r[col("name")];
@@ -235,7 +236,22 @@ fn bust_table_is_ranked_spreadsheet_safe_and_points_agree() {
         assert!(p10 <= p50 && p50 <= p90);
         let summary = &r[col("summary")];
         assert!(summary.contains(" in as modelled"), "{summary}");
+        // US units: the flip distance also in international miles (1 mi = 1.609344 km), and
+        // the distances in words carry their miles.
+        if let (Ok(km), Ok(mi)) = (
+            r[col("flip_km")].parse::<f64>(),
+            r[col("flip_mi")].parse::<f64>(),
+        ) {
+            assert!((mi - km / 1.609_344).abs() <= 0.051, "{km} km vs {mi} mi");
+            assert!(r[col("flip_direction")].contains(" mi) "), "{:?}", r);
+            flips += 1;
+        }
+        assert!(
+            !summary.contains(" km ") || summary.contains(" mi)"),
+            "{summary}"
+        );
     }
+    assert!(flips > 0, "no town flips within the offsets");
     let names: Vec<&str> = rows.iter().map(|r| &r[col("name")]).collect();
     assert!(names.contains(&"'=HYPERLINK(\"x\")") && names.contains(&"'-Minus Ford"));
     let gj: serde_json::Value =

@@ -159,11 +159,13 @@ pub fn spread() -> Ramp {
 /// Flip distance, near (dark plum) to far (pale green-grey) (lightness 0.30 → 0.90).
 pub fn flip() -> Ramp {
     Ramp::from_lch(&[
-        (0.30, 0.11, 350.0),
+        (0.27, 0.11, 350.0),
         (0.45, 0.15, 5.0),
         (0.60, 0.13, 45.0),
-        (0.75, 0.10, 95.0),
-        (0.90, 0.04, 140.0),
+        (0.74, 0.10, 95.0),
+        // The far end stays a clear green (not near-white), so the farthest class reads apart
+        // from the pale neutral of "no flip within the offsets run".
+        (0.84, 0.08, 145.0),
     ])
 }
 

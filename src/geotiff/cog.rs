@@ -6,6 +6,15 @@
 //! cannot put every IFD before the data, which is what lets a reader learn the whole file's
 //! structure from its first bytes. The `tiff` crate still reads our files back (tests).
 //!
+//! Why not a COG writer crate: `geotiff-writer` 0.4.0 (pure Rust, deflate, floating-point
+//! predictor, tiles, overviews) was tried on an 800×600×3 Float32 raster (EPSG:4326, nodata,
+//! overviews 2 and 4). GDAL 3.6 opens it and reports LAYOUT=COG, but libtiff warns that its
+//! directories' tags are not in ascending order (TIFF 6.0 §2 requires it), GDAL's
+//! `validate_cloud_optimized_geotiff.py --full-check=yes` fails it ("The offset of the main IFD
+//! should be 192. It is 191 instead"), and it has no way to write GDAL's metadata tag (42112),
+//! which carries the band descriptions, units, scenario offsets and the Int16 scale and offset
+//! the layers need. Checked 2026-12-02.
+//!
 //! File layout, in order:
 //! 1. TIFF header (classic: 8 bytes; BigTIFF: 16), native byte order.
 //! 2. GDAL's "ghost" structural metadata: `GDAL_STRUCTURAL_METADATA_SIZE=nnnnnn bytes\n` and

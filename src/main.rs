@@ -211,7 +211,7 @@ fn main() -> ExitCode {
             Some(PathBuf::from("demo-out")),
             true,
         ),
-        Command::Report(a) => trackswing::write::report::write_report(&a.out_dir)
+        Command::Report(a) => trackswing::write::report::write_report_and_list(&a.out_dir)
             .map(|p| println!("wrote {}", p.display()))
             .with_context(|| format!("writing the report for {}", a.out_dir.display()))
             .map_err(|e| {

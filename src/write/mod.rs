@@ -66,6 +66,8 @@ pub enum Kind {
     Table,
     /// PNG quicklook.
     Image,
+    /// The self-contained HTML report.
+    Report,
 }
 
 /// One written file, for the manifest.
@@ -274,6 +276,10 @@ fn write_set(
         },
     )?);
     files.extend(write_decision_products(dir, case, r)?);
+    if case.report {
+        // Listed now, written right after the manifest it is built from.
+        files.push(report::entry());
+    }
     manifest::write_manifest(dir, case, r, &files)?;
     let mut all = files;
     all.push(Written {
@@ -286,14 +292,6 @@ fn write_set(
     if case.report {
         // Part of the set (swapped in with it), built from the files just written.
         report::write_report(dir).map_err(|e| WriteError::Report(Box::new(e)))?;
-        all.push(Written {
-            file: report::REPORT.into(),
-            kind: Kind::Table,
-            units: String::new(),
-            description: "Self-contained report: maps, bust-prone towns, scenarios, settings"
-                .into(),
-            bands: Vec::new(),
-        });
     }
     Ok(all)
 }

@@ -223,6 +223,52 @@ document.querySelectorAll('table.sortable').forEach(function (table) {
 });
 ";
 
+/// The manifest's entry for the report.
+pub fn entry() -> super::Written {
+    super::Written {
+        file: REPORT.into(),
+        kind: super::Kind::Report,
+        units: String::new(),
+        description: "Self-contained report: maps, bust-prone towns, scenarios, settings".into(),
+        bands: Vec::new(),
+    }
+}
+
+/// Writes report.html for a finished run's folder and makes sure its manifest lists it (a run
+/// without `--report` did not), rewriting the manifest atomically with the entry added.
+pub fn write_report_and_list(dir: &Path) -> Result<PathBuf, ReportError> {
+    let path = write_report(dir)?;
+    let mpath = dir.join("manifest.json");
+    let mut m: Value = serde_json::from_slice(&read(&mpath)?).map_err(|e| ReportError::Read {
+        path: mpath.clone(),
+        what: e.to_string(),
+    })?;
+    let files = m
+        .get_mut("files")
+        .and_then(Value::as_array_mut)
+        .ok_or(ReportError::Manifest {
+            path: mpath.clone(),
+            field: "files".into(),
+        })?;
+    if !files.iter().any(|f| f["file"] == REPORT) {
+        let e = entry();
+        files.push(serde_json::json!({
+            "file": e.file,
+            "kind": e.kind,
+            "units": e.units,
+            "description": e.description,
+            "crs": {
+                "epsg": 4326,
+                "proj": crate::geotiff::Crs::Wgs84Geographic.proj_string(),
+            },
+        }));
+        let text = serde_json::to_string_pretty(&m).expect("manifest serialises");
+        super::write_text_atomic(dir, "manifest.json", &(text + "\n"))
+            .map_err(ReportError::Write)?;
+    }
+    Ok(path)
+}
+
 /// Writes `report.html` into the run's folder `dir`; returns its path.
 pub fn write_report(dir: &Path) -> Result<PathBuf, ReportError> {
     let mpath = dir.join("manifest.json");

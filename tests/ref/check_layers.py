@@ -347,13 +347,12 @@ def check_vectors(out, manifest, data):
 
 def check_manifest(out, manifest):
     listed = {f["file"] for f in manifest["files"]}
-    # report.html reads the manifest, so it is the one file the manifest does not list.
-    present = set(os.listdir(out)) - {"manifest.json", "report.html"}
+    present = set(os.listdir(out)) - {"manifest.json"}
     check(listed == present, f"manifest lists exactly the other files present: {sorted(listed ^ present)}")
     check(bool(manifest.get("trackswing_version")) and bool(manifest.get("case_file")), "manifest: version and case file")
     check(all(len(i["sha256"]) == 64 for i in manifest["inputs"]), "manifest: SHA-256 of every input")
     for f in manifest["files"]:
-        check(f["kind"] in ("raster", "vector", "table", "image"), f"manifest: {f['file']} kind")
+        check(f["kind"] in ("raster", "vector", "table", "image", "report"), f"manifest: {f['file']} kind")
         check("crs" in f and "proj" in f["crs"], f"manifest: {f['file']} CRS")
     print(f"manifest: {len(listed)} files")
 

@@ -65,6 +65,35 @@ fn report_command_rebuilds_the_same_page_without_a_rerun() {
     let o = bin().arg("report").arg(&out).output().unwrap();
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     assert_eq!(std::fs::read(out.join("report.html")).unwrap(), first);
+    // The manifest lists the report once, whether the run or the command wrote it; a run
+    // without --report gets the entry from the command.
+    let listed = |dir: &Path| {
+        let m: serde_json::Value =
+            serde_json::from_slice(&std::fs::read(dir.join("manifest.json")).unwrap()).unwrap();
+        m["files"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .filter(|f| f["file"] == "report.html")
+            .count()
+    };
+    assert_eq!(listed(&out), 1);
+    let m: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.join("manifest.json")).unwrap()).unwrap();
+    let mut without = m.clone();
+    without["files"]
+        .as_array_mut()
+        .unwrap()
+        .retain(|f| f["file"] != "report.html");
+    std::fs::write(
+        out.join("manifest.json"),
+        serde_json::to_string_pretty(&without).unwrap(),
+    )
+    .unwrap();
+    assert_eq!(listed(&out), 0);
+    let o = bin().arg("report").arg(&out).output().unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert_eq!(listed(&out), 1);
 
     let empty = tempfile::tempdir().unwrap();
     let o = bin().arg("report").arg(empty.path()).output().unwrap();

@@ -17,6 +17,11 @@
 use crate::grid::Grid;
 use chrono::{DateTime, Utc};
 use geo::{Distance, Geodesic, Point};
+use ndarray::ArrayView2;
+
+/// A sea-level pressure field as the finder reads it: rows north to south, columns west to east,
+/// indexed `[[row, col]]`.
+type Field<'a> = ArrayView2<'a, f32>;
 
 /// A low must be this much deeper than its ring to count as closed, Pa (one 1 hPa isobar).
 pub const CLOSED_PA: f32 = 100.0;
@@ -65,12 +70,12 @@ fn geodesic_km(a: (f64, f64), b: (f64, f64)) -> f64 {
 }
 
 /// Strict 3×3 local minima away from the edge, as (col, row).
-fn local_minima(grid: &Grid, p: &[f32]) -> Vec<(usize, usize)> {
-    let (nx, ny) = (grid.nx, grid.ny);
+fn local_minima(p: Field<'_>) -> Vec<(usize, usize)> {
+    let (ny, nx) = p.dim();
     let mut out = Vec::new();
     for r in 1..ny.saturating_sub(1) {
         for c in 1..nx.saturating_sub(1) {
-            let v = p[r * nx + c];
+            let v = p[[r, c]];
             if !v.is_finite() {
                 continue;
             }
@@ -80,7 +85,7 @@ fn local_minima(grid: &Grid, p: &[f32]) -> Vec<(usize, usize)> {
                     if dr == 0 && dc == 0 {
                         continue;
                     }
-                    let w = p[(r as i64 + dr) as usize * nx + (c as i64 + dc) as usize];
+                    let w = p[[(r as i64 + dr) as usize, (c as i64 + dc) as usize]];
                     // Ties go to the first cell in row-major order so a flat bottom yields one.
                     let before = dr < 0 || (dr == 0 && dc < 0);
                     if !w.is_finite() || w < v || (w == v && before) {
@@ -100,7 +105,7 @@ fn local_minima(grid: &Grid, p: &[f32]) -> Vec<(usize, usize)> {
 /// True when every cell on a square ring about `CLOSED_RING_KM` out lies at least `CLOSED_PA`
 /// above the centre. Near the grid edge the ring shrinks to fit (but not below
 /// [`MIN_RING_CELLS`]), since a regional grid often starts with the low near its edge.
-fn is_closed(grid: &Grid, p: &[f32], c: usize, r: usize) -> bool {
+fn is_closed(grid: &Grid, p: Field<'_>, c: usize, r: usize) -> bool {
     let m = grid.metric()[r * grid.nx + c];
     let want_e = (CLOSED_RING_KM * f64::from(m.col_per_km_east.abs().max(m.col_per_km_north.abs())))
         .ceil() as i64;
@@ -113,8 +118,8 @@ fn is_closed(grid: &Grid, p: &[f32], c: usize, r: usize) -> bool {
     if cells_e < MIN_RING_CELLS || cells_n < MIN_RING_CELLS {
         return false;
     }
-    let v = p[r as usize * grid.nx + c as usize];
-    let at = |cc: i64, rr: i64| p[rr as usize * grid.nx + cc as usize];
+    let v = p[[r as usize, c as usize]];
+    let at = |cc: i64, rr: i64| p[[rr as usize, cc as usize]];
     let ring = (-cells_e..=cells_e)
         .flat_map(|dc| [(c + dc, r - cells_n), (c + dc, r + cells_n)])
         .chain((-cells_n..=cells_n).flat_map(|dr| [(c - cells_e, r + dr), (c + cells_e, r + dr)]));
@@ -131,10 +136,8 @@ fn is_closed(grid: &Grid, p: &[f32], c: usize, r: usize) -> bool {
 
 /// The sub-grid minimum around grid minimum (`c`, `r`): fractional (col, row) and the fitted
 /// pressure.
-pub fn refine(grid: &Grid, p: &[f32], c: usize, r: usize) -> (f64, f64, f64) {
-    let nx = grid.nx;
-    let z =
-        |dc: i64, dr: i64| f64::from(p[(r as i64 + dr) as usize * nx + (c as i64 + dc) as usize]);
+pub fn refine(p: ArrayView2<'_, f32>, c: usize, r: usize) -> (f64, f64, f64) {
+    let z = |dc: i64, dr: i64| f64::from(p[[(r as i64 + dr) as usize, (c as i64 + dc) as usize]]);
     let (mut sx, mut sy, mut sxy, mut s_edge_x, mut s_mid_x, mut s_edge_y, mut s_mid_y, mut sum) =
         (0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0);
     for dr in -1i64..=1 {
@@ -177,8 +180,8 @@ pub fn refine(grid: &Grid, p: &[f32], c: usize, r: usize) -> (f64, f64, f64) {
     (c as f64 + x, r as f64 + y, value)
 }
 
-fn centre(grid: &Grid, p: &[f32], time: DateTime<Utc>, c: usize, r: usize) -> FoundCentre {
-    let (col, row, mslp_pa) = refine(grid, p, c, r);
+fn centre(grid: &Grid, p: Field<'_>, time: DateTime<Utc>, c: usize, r: usize) -> FoundCentre {
+    let (col, row, mslp_pa) = refine(p, c, r);
     let (lon, lat) = grid.lonlat_of(col, row);
     FoundCentre {
         time,
@@ -198,10 +201,26 @@ pub fn find_track(
     steps: &[(DateTime<Utc>, Vec<f32>)],
     start: Option<(f64, f64)>,
 ) -> Result<(Vec<FoundCentre>, Option<usize>), FinderError> {
-    let Some((t0, p0)) = steps.first() else {
+    let Some((t0, _)) = steps.first() else {
         return Err(FinderError::NoStart("no time steps".into()));
     };
-    let minima = local_minima(grid, p0);
+    let fields = steps
+        .iter()
+        .enumerate()
+        .map(|(k, (_, p))| {
+            ArrayView2::from_shape((grid.ny, grid.nx), p).map_err(|_| {
+                FinderError::NoStart(format!(
+                    "step {}: the pressure field has {} values for a grid of {}×{} cells",
+                    k + 1,
+                    p.len(),
+                    grid.nx,
+                    grid.ny
+                ))
+            })
+        })
+        .collect::<Result<Vec<_>, _>>()?;
+    let p0 = fields[0];
+    let minima = local_minima(p0);
     let first = match start {
         Some(s) => minima
             .iter()
@@ -222,7 +241,7 @@ pub fn find_track(
             .iter()
             .copied()
             .filter(|&(c, r)| is_closed(grid, p0, c, r))
-            .min_by(|a, b| p0[a.1 * grid.nx + a.0].total_cmp(&p0[b.1 * grid.nx + b.0]))
+            .min_by(|a, b| p0[[a.1, a.0]].total_cmp(&p0[[b.1, b.0]]))
             .ok_or_else(|| {
                 FinderError::NoStart(format!(
                     "no closed low at the first step (a minimum at least {} hPa below a ring {CLOSED_RING_KM} km out, inside the grid); start the finder near the low with `trackswing track FILES --start LAT,LON` and run with its track.csv as the track",
@@ -231,7 +250,7 @@ pub fn find_track(
             })?,
     };
     let mut found = vec![centre(grid, p0, *t0, first.0, first.1)];
-    for (k, (t, p)) in steps.iter().enumerate().skip(1) {
+    for (k, ((t, _), &p)) in steps.iter().zip(&fields).enumerate().skip(1) {
         let last = found[found.len() - 1];
         let expect = match found.len() {
             1 => (last.lon, last.lat),
@@ -240,7 +259,7 @@ pub fn find_track(
                 (2.0 * last.lon - prev.lon, 2.0 * last.lat - prev.lat)
             }
         };
-        let next = local_minima(grid, p)
+        let next = local_minima(p)
             .into_iter()
             .map(|(c, r)| {
                 let i = r * grid.nx + c;
@@ -391,6 +410,16 @@ mod tests {
             eprintln!("{}: worst error {worst:.4} cell", grid.describe());
             assert!(worst <= 0.25, "worst {worst} cell");
         }
+    }
+
+    #[test]
+    fn a_field_of_the_wrong_size_is_an_error() {
+        let grid = latlon();
+        let (lon, lat) = grid.lonlat_of(40.0, 35.0);
+        let p = low(&grid, (lon, lat));
+        let short = p[..p.len() - 1].to_vec();
+        let e = find_track(&grid, &[(t(0), p), (t(1), short)], None).unwrap_err();
+        assert!(e.to_string().contains("step 2"), "{e}");
     }
 
     #[test]

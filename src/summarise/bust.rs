@@ -177,25 +177,17 @@ pub fn town_decisions(
                     .collect();
                 prepare(&mut pairs).map(|_| pairs)
             };
+            let exceedances = |pairs: Option<&[(f64, f64)]>, thresholds: &[f64]| -> Vec<f64> {
+                thresholds
+                    .iter()
+                    .map(|th| pairs.map_or(f64::NAN, |p| exceedance(p, *th)))
+                    .collect()
+            };
             let snow_pairs = weighted(&snowfall);
             let snow = snow_pairs.as_deref().map(summary);
-            let snow_exceedance = snow_thresholds_mm
-                .iter()
-                .map(|th| {
-                    snow_pairs
-                        .as_deref()
-                        .map_or(f64::NAN, |p| exceedance(p, *th))
-                })
-                .collect();
+            let snow_exceedance = exceedances(snow_pairs.as_deref(), snow_thresholds_mm);
             let ice_pairs = weighted(&ice);
-            let ice_exceedance = ice_thresholds_mm
-                .iter()
-                .map(|th| {
-                    ice_pairs
-                        .as_deref()
-                        .map_or(f64::NAN, |p| exceedance(p, *th))
-                })
-                .collect();
+            let ice_exceedance = exceedances(ice_pairs.as_deref(), ice_thresholds_mm);
             let extremes = extremes(&snowfall);
             let base = per[r.baseline];
             let flip = flip_search(&r.scenarios, &order, &base, |k| per[k]);

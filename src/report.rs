@@ -1,6 +1,6 @@
 //! What the binary shows a person: a progress bar while it runs and a short summary after.
 
-use indicatif::{ProgressBar, ProgressStyle};
+use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use std::io::IsTerminal;
 use std::sync::Mutex;
 use trackswing::case::Case;
@@ -8,9 +8,10 @@ use trackswing::engine::RunResult;
 use trackswing::progress::Progress;
 use trackswing::write::Written;
 
-/// A progress bar on stderr when it is a terminal; warnings are kept for the summary.
+/// A progress bar on stderr when it is a terminal, shown once a run has lasted
+/// [`SHOW_AFTER`]; warnings are kept for the summary.
 pub struct Bar {
-    bar: Mutex<Option<ProgressBar>>,
+    bar: Mutex<Option<(ProgressBar, std::time::Instant)>>,
     show: bool,
     warnings: Mutex<Vec<String>>,
 }
@@ -25,29 +26,35 @@ impl Bar {
     }
 }
 
+/// Runs shorter than this finish without a bar.
+const SHOW_AFTER: std::time::Duration = std::time::Duration::from_millis(1500);
+
 impl Progress for Bar {
     fn start(&self, what: &str, total: u64) {
         if !self.show {
             return;
         }
-        let b = ProgressBar::new(total);
+        // Drawn nowhere until the run has lasted SHOW_AFTER (see `advance`).
+        let b = ProgressBar::with_draw_target(Some(total), ProgressDrawTarget::hidden());
         b.set_style(
             ProgressStyle::with_template("{msg:>12} [{bar:30}] {pos}/{len} ({elapsed})")
                 .expect("static template")
                 .progress_chars("=> "),
         );
         b.set_message(what.to_string());
-        // Only runs lasting more than a moment show the bar.
-        b.enable_steady_tick(std::time::Duration::from_millis(250));
-        *self.bar.lock().expect("bar lock") = Some(b);
+        *self.bar.lock().expect("bar lock") = Some((b, std::time::Instant::now()));
     }
     fn advance(&self, n: u64) {
-        if let Some(b) = self.bar.lock().expect("bar lock").as_ref() {
+        if let Some((b, started)) = self.bar.lock().expect("bar lock").as_ref() {
             b.inc(n);
+            if b.is_hidden() && started.elapsed() >= SHOW_AFTER {
+                b.set_draw_target(ProgressDrawTarget::stderr());
+                b.enable_steady_tick(std::time::Duration::from_millis(250));
+            }
         }
     }
     fn finish(&self) {
-        if let Some(b) = self.bar.lock().expect("bar lock").take() {
+        if let Some((b, _)) = self.bar.lock().expect("bar lock").take() {
             b.finish_and_clear();
         }
     }

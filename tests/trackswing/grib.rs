@@ -802,6 +802,20 @@ mod cases {
         err
     }
 
+    /// The small case with message 3 of step_001 (850 hPa temperature, simple packing) given
+    /// data representation template 5.`template` (Section 5 octets 10–11) over the same bytes.
+    fn relabelled_packing(template: u16) -> (tempfile::TempDir, PathBuf) {
+        bad_case(|d| {
+            edit(&d.join("fields/step_001.grib2"), |i, m| {
+                if i == 3 {
+                    let s5 = section(m, 5);
+                    m[s5 + 9..s5 + 11].copy_from_slice(&template.to_be_bytes());
+                }
+                true
+            });
+        })
+    }
+
     // Messages of a step file: temperature at 1000…500 hPa (1–5), heights (6–10), relative
     // humidity (11–15), 2 m temperature (16), 2 m humidity (17), sea-level pressure (18),
     // precipitation (19), terrain (20).
@@ -826,15 +840,7 @@ mod cases {
 
     #[test]
     fn needed_field_with_unsupported_template() {
-        let (_d, c) = bad_case(|d| {
-            edit(&d.join("fields/step_001.grib2"), |i, m| {
-                if i == 3 {
-                    let s5 = section(m, 5);
-                    m[s5 + 9..s5 + 11].copy_from_slice(&1u16.to_be_bytes());
-                }
-                true
-            });
-        });
+        let (_d, c) = relabelled_packing(1);
         fails_cleanly(
             &c,
             &[
@@ -850,15 +856,7 @@ mod cases {
     /// octet of the reference value R) is no precision of code table 5.7, so it is refused.
     #[test]
     fn simple_packing_labelled_as_ieee_floating_point() {
-        let (_d, c) = bad_case(|d| {
-            edit(&d.join("fields/step_001.grib2"), |i, m| {
-                if i == 3 {
-                    let s5 = section(m, 5);
-                    m[s5 + 9..s5 + 11].copy_from_slice(&4u16.to_be_bytes());
-                }
-                true
-            });
-        });
+        let (_d, c) = relabelled_packing(4);
         fails_cleanly(
             &c,
             &[
@@ -873,15 +871,7 @@ mod cases {
     /// decoder it would go to expands a damaged message without bound.
     #[test]
     fn needed_field_with_run_length_packing() {
-        let (_d, c) = bad_case(|d| {
-            edit(&d.join("fields/step_001.grib2"), |i, m| {
-                if i == 3 {
-                    let s5 = section(m, 5);
-                    m[s5 + 9..s5 + 11].copy_from_slice(&200u16.to_be_bytes());
-                }
-                true
-            });
-        });
+        let (_d, c) = relabelled_packing(200);
         fails_cleanly(
             &c,
             &[

@@ -6,6 +6,7 @@
 use criterion::{criterion_group, criterion_main, Criterion};
 use std::hint::black_box;
 use trackswing::diagnose::ptype::bourgouin;
+use trackswing::diagnose::subcloud::SubCloud;
 use trackswing::diagnose::{
     diagnose_column, step_column, Methods, Profile, PtypeMethod, SlrMethod,
 };
@@ -68,6 +69,7 @@ fn kernels(c: &mut Criterion) {
         ..methods
     };
     let mut profile = Profile::empty();
+    let mut sub = SubCloud::empty();
     c.bench_function("step_column with dry air below the cloud, 6 levels", |b| {
         b.iter(|| {
             step_column(
@@ -79,6 +81,8 @@ fn kernels(c: &mut Criterion) {
                 1.2,
                 black_box(0.4),
                 &mut profile,
+                &mut sub,
+                |_| None,
             )
         })
     });

@@ -33,6 +33,10 @@ use rayon::prelude::*;
 use std::collections::VecDeque;
 use std::path::{Path, PathBuf};
 
+pub mod moisture;
+use crate::diagnose::subcloud::SubCloud;
+use moisture::{LevelMoisture, Weights};
+
 /// Why a run failed. Nothing is written when a run fails.
 #[derive(Debug, thiserror::Error)]
 pub enum EngineError {
@@ -252,6 +256,20 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
         timings.read_s += clock.elapsed().as_secs_f64();
         let clock = std::time::Instant::now();
         let path = window.fields(k).path.clone();
+        if case.methods.dry_air {
+            for s in &scenarios {
+                let ti = timing_offsets
+                    .iter()
+                    .position(|h| *h == s.timing_h)
+                    .expect("every timing is listed");
+                if let Some(sample) = samples[ti] {
+                    window.prepare_moisture(sample.index, s.warm_bias_k);
+                    if sample.next > 0.0 {
+                        window.prepare_moisture(sample.index + 1, s.warm_bias_k);
+                    }
+                }
+            }
+        }
         let mut inputs = Vec::with_capacity(scenarios.len());
         for (si, s) in scenarios.iter().enumerate() {
             let ti = timing_offsets
@@ -505,6 +523,15 @@ fn distinct(values: impl Iterator<Item = f64>) -> Vec<f64> {
     out
 }
 
+/// One held step.
+struct Held {
+    index: usize,
+    fields: StepFields,
+    wet: WetRows,
+    /// Sub-cloud moisture memos, one per warm bias asked for.
+    moisture: Vec<LevelMoisture>,
+}
+
 /// The model steps currently held: read in order (each step once), checked for the same levels
 /// and increasing valid times, and forgotten once no later output step can sample them.
 pub struct StepWindow<'a> {
@@ -513,7 +540,7 @@ pub struct StepWindow<'a> {
     /// Valid time of every step read so far.
     pub times: Vec<DateTime<Utc>>,
     /// Held steps, with their indices and where they have precipitation.
-    held: VecDeque<(usize, StepFields, WetRows)>,
+    held: VecDeque<Held>,
     layout: Option<StepLayout>,
 }
 
@@ -554,7 +581,12 @@ impl<'a> StepWindow<'a> {
             step.layout.precip(),
             self.nx,
         );
-        self.held.push_back((k, step, wet));
+        self.held.push_back(Held {
+            index: k,
+            fields: step,
+            wet,
+            moisture: Vec::new(),
+        });
         Ok(true)
     }
 
@@ -586,19 +618,30 @@ impl<'a> StepWindow<'a> {
 
     /// Drops every step before `k`.
     pub fn forget_before(&mut self, k: usize) {
-        while self.held.front().is_some_and(|(i, _, _)| *i < k) {
+        while self.held.front().is_some_and(|h| h.index < k) {
             self.held.pop_front();
         }
     }
 
     /// The fields of held step `k`.
     pub fn fields(&self, k: usize) -> &StepFields {
-        &self.held_step(k).1
+        &self.held_step(k).fields
     }
 
-    fn held_step(&self, k: usize) -> &(usize, StepFields, WetRows) {
-        let first = self.held.front().expect("a held step").0;
+    fn held_step(&self, k: usize) -> &Held {
+        let first = self.held.front().expect("a held step").index;
         &self.held[k - first]
+    }
+
+    /// Makes sure held step `k` has a sub-cloud moisture memo for `warm_bias_k`.
+    pub fn prepare_moisture(&mut self, k: usize, warm_bias_k: f64) {
+        let first = self.held.front().expect("a held step").index;
+        let h = &mut self.held[k - first];
+        if !h.moisture.iter().any(|m| m.warm_bias_k == warm_bias_k) {
+            let cells = h.fields.columns.len() / h.fields.layout.nvar();
+            h.moisture
+                .push(LevelMoisture::new(cells, &h.fields.layout, warm_bias_k));
+        }
     }
 
     /// Length of step `k` (from the previous valid time; the first step is taken to be as long
@@ -636,17 +679,20 @@ impl<'a> StepWindow<'a> {
                 s.intensity * ratio(j + 1),
             )
         });
-        let (_, now, wet_now) = self.held_step(j);
+        let held = self.held_step(j);
+        let bias = s.warm_bias_k;
+        fn memo(h: &Held, bias: f64) -> Option<&LevelMoisture> {
+            h.moisture.iter().find(|m| m.warm_bias_k == bias)
+        }
+        let later = (sample.next > 0.0).then(|| self.held_step(j + 1));
         ScenarioStep {
             shift,
-            now: &now.columns,
+            now: &held.fields.columns,
             now_scale: s.intensity * ratio(j),
             next,
             warm_bias_k: s.warm_bias_k,
-            wet: [
-                Some(wet_now),
-                (sample.next > 0.0).then(|| &self.held_step(j + 1).2),
-            ],
+            wet: [Some(&held.wet), later.map(|h| &h.wet)],
+            moisture: [memo(held, bias), later.and_then(|h| memo(h, bias))],
         }
     }
 }
@@ -700,6 +746,9 @@ pub struct ScenarioStep<'a> {
     pub warm_bias_k: f64,
     /// Where `now` (and `next`, when sampled) have precipitation.
     pub wet: [Option<&'a WetRows>; 2],
+    /// Memos of the isobaric levels' sub-cloud moisture for `now` and `next` at this
+    /// scenario's warm bias, when the window holds them ([`moisture`]).
+    pub moisture: [Option<&'a LevelMoisture>; 2],
 }
 
 /// The columns, per row of a step's grid, between which precipitation is not zero (or is
@@ -895,12 +944,7 @@ pub struct BlockCounts {
 
 /// Where a cell's source point lies, as bilinear weights (exactly on the cell when unshifted).
 #[inline]
-fn source_weights(
-    grid: &Grid,
-    c: usize,
-    shift: &StepShift,
-    taper: &Taper,
-) -> Option<(usize, usize, f32, f32)> {
+fn source_weights(grid: &Grid, c: usize, shift: &StepShift, taper: &Taper) -> Option<Weights> {
     if shift.is_none() {
         return Some((c % grid.nx, c / grid.nx, 0.0, 0.0));
     }
@@ -925,8 +969,9 @@ pub enum Sampled {
     /// Nothing leaves the cloud this step (the column was not sampled: a dry step changes
     /// nothing, not even the dry-air state).
     Dry,
-    /// The column was sampled; this much precipitation leaves the cloud, kg m⁻².
-    Falling(f64),
+    /// The column was sampled at these weights; this much precipitation leaves the cloud,
+    /// kg m⁻².
+    Falling(f64, Weights),
 }
 
 /// Cell `c`'s column for one scenario step, sampled into `col` (and `later` as scratch for the
@@ -958,7 +1003,7 @@ pub fn cell_column(
         return Sampled::Dry;
     }
     blend_at(input, nvar, nx, w, col, later);
-    Sampled::Falling(falling)
+    Sampled::Falling(falling, w)
 }
 
 /// Samples the whole column at weights `w`, between two steps when the scenario's time lies
@@ -968,7 +1013,7 @@ fn blend_at(
     input: &ScenarioStep<'_>,
     nvar: usize,
     nx: usize,
-    w: (usize, usize, f32, f32),
+    w: Weights,
     col: &mut [f32],
     later: &mut [f32],
 ) {
@@ -1022,6 +1067,7 @@ fn step_block(
     let mut buf = [0.0f32; 3 * crate::diagnose::ptype::MAX_LEVELS + 4];
     let mut later = [0.0f32; 3 * crate::diagnose::ptype::MAX_LEVELS + 4];
     let mut profile = Profile::empty();
+    let mut sub = SubCloud::empty();
     let ip = layout.precip();
     let mut counts = BlockCounts::default();
     let mut screen = DryScreen::new(grid, reach, input);
@@ -1045,16 +1091,22 @@ fn step_block(
                 continue;
             }
             Sampled::Dry => continue,
-            Sampled::Falling(f) => f,
+            Sampled::Falling(f, w) => (f, w),
         };
+        let (falling, at) = falling;
         let cell = CellStep {
             col,
             falling,
             ground_m: terrain[c],
             warm_bias_k: input.warm_bias_k,
             step,
+            source: Some(SourceAt {
+                input,
+                w: at,
+                nx: grid.nx,
+            }),
         };
-        if accumulate_cell(&cell, layout, methods, rows, i, &mut profile)
+        if accumulate_cell(&cell, layout, methods, rows, i, &mut profile, &mut sub)
             == Err(ColumnMissing::Method)
         {
             counts.undefined += 1;
@@ -1075,6 +1127,20 @@ pub struct CellStep<'a> {
     pub warm_bias_k: f64,
     /// 1-based output step.
     pub step: u32,
+    /// Where the column was sampled, for the isobaric levels' sub-cloud moisture
+    /// ([`moisture`]); `None` works it out from the column itself.
+    pub source: Option<SourceAt<'a>>,
+}
+
+/// A column's source point in one scenario step.
+#[derive(Clone, Copy)]
+pub struct SourceAt<'a> {
+    /// The scenario step.
+    pub input: &'a ScenarioStep<'a>,
+    /// Bilinear weights of the source point.
+    pub w: Weights,
+    /// Grid width.
+    pub nx: usize,
 }
 
 /// Adds one cell's step to row `i` of `rows`: dry air below the cloud, type, ratio, onset.
@@ -1088,6 +1154,7 @@ pub fn accumulate_cell(
     rows: &mut crate::accumulate::TotalsRows<'_>,
     i: usize,
     profile: &mut Profile,
+    sub: &mut SubCloud,
 ) -> Result<Option<ColumnStep>, ColumnMissing> {
     if cell.col.iter().any(|v| v.is_nan()) || cell.falling.is_nan() {
         rows.set_missing(i);
@@ -1107,6 +1174,11 @@ pub fn accumulate_cell(
         cell.falling,
         carried,
         profile,
+        sub,
+        |k| {
+            cell.source
+                .and_then(|a| moisture::at_source(a.input, layout, a.nx, a.w, k))
+        },
     ) {
         Ok(s) => {
             rows.carried[i] = s.carried as f32;
@@ -1193,6 +1265,7 @@ mod tests {
                 next: None,
                 warm_bias_k: 0.0,
                 wet: [Some(&wet), None],
+                moisture: [None, None],
             };
             let mut screen = DryScreen::new(&grid, &reach_of, &input);
             for c in 0..grid.len() {

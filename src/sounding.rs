@@ -15,7 +15,7 @@ use crate::diagnose::thermo::{dewpoint_from_rh, T_FREEZE};
 use crate::diagnose::{ColumnStep, Methods, Profile, PtypeMethod, SlrMethod};
 use crate::engine::{
     accumulate_cell, case_track, cell_column, hours, sample_column, scenario_shift, CellStep,
-    EngineError, Sampled, StepWindow,
+    EngineError, Sampled, SourceAt, StepWindow,
 };
 use crate::progress::Silent;
 use crate::read::source::open as open_source;
@@ -297,18 +297,30 @@ pub fn sounding(case: &Case, req: &SoundingRequest) -> Result<Sounding, Sounding
                     sample_column(&grid, &input, nvar, c, &case.taper, &mut buf, &mut later)
                         .then_some((0.0, None))
                 }
-                Sampled::Falling(falling) => {
+                Sampled::Falling(falling, w) => {
                     let cell = CellStep {
                         col: &buf,
                         falling,
                         ground_m: ground,
                         warm_bias_k: s.warm_bias_k,
                         step: (k + 1) as u32,
+                        source: Some(SourceAt {
+                            input: &input,
+                            w,
+                            nx: grid.nx,
+                        }),
                     };
-                    let done =
-                        accumulate_cell(&cell, &layout, &methods, &mut rows, 0, &mut profile)
-                            .ok()
-                            .flatten();
+                    let done = accumulate_cell(
+                        &cell,
+                        &layout,
+                        &methods,
+                        &mut rows,
+                        0,
+                        &mut profile,
+                        &mut SubCloud::empty(),
+                    )
+                    .ok()
+                    .flatten();
                     Some((falling, done))
                 }
             }

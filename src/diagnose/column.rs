@@ -424,7 +424,8 @@ pub enum ColumnMissing {
 /// takes the sub-cloud deficit from the falling precipitation (when `methods.dry_air`), cools
 /// the sub-cloud layer in proportion to the share of the deficit met, and diagnoses what
 /// reaches the ground. `carried` is the water given up to the sub-cloud layer in earlier steps
-/// (see [`evaporate`]).
+/// (see [`evaporate`]). `sub` is scratch for the sub-cloud layer, and `known` may give the
+/// isobaric levels' wet-bulb, moistening and humidity (see [`SubCloud::compute`]).
 #[allow(clippy::too_many_arguments)]
 pub fn step_column(
     col: &[f32],
@@ -435,6 +436,8 @@ pub fn step_column(
     falling: f64,
     carried: f64,
     profile: &mut Profile,
+    sub: &mut SubCloud,
+    known: impl FnMut(usize) -> Option<[f64; 3]>,
 ) -> Result<ColumnStep, ColumnMissing> {
     if !profile.build_into(
         col,
@@ -446,7 +449,7 @@ pub fn step_column(
         return Err(ColumnMissing::Profile);
     }
     let (reaching_ground, deficit, carried, met) = if methods.dry_air {
-        let sub = SubCloud::of(profile);
+        sub.compute(profile, known);
         if sub.deficit.is_nan() {
             return Err(ColumnMissing::Profile);
         }
@@ -546,8 +549,8 @@ mod tests {
             }
             let methods = Methods { dry_air: true, ..FIXED };
             let mut pr = Profile::empty();
-            let a = step_column(&moist, &l, 0.0, &methods, 0.0, falling, 0.0, &mut pr).unwrap();
-            let b = step_column(&dry, &l, 0.0, &methods, 0.0, falling, 0.0, &mut pr).unwrap();
+            let a = step_column(&moist, &l, 0.0, &methods, 0.0, falling, 0.0, &mut pr, &mut SubCloud::empty(), |_| None).unwrap();
+            let b = step_column(&dry, &l, 0.0, &methods, 0.0, falling, 0.0, &mut pr, &mut SubCloud::empty(), |_| None).unwrap();
             proptest::prop_assert!(b.deficit >= a.deficit - 1e-9, "deficit {} < {}", b.deficit, a.deficit);
             proptest::prop_assert!(
                 b.reaching_ground <= a.reaching_ground + 1e-9,
@@ -717,18 +720,54 @@ mod tests {
         };
         let mut pr = Profile::build(&c, &l, 0.0, 0.0065, 0.0).unwrap();
         // Saturated at the surface (RH 90 % counts as cloud): everything reaches the ground.
-        let s = step_column(&c, &l, 0.0, &dry, 0.0, 1.0, 0.0, &mut pr).unwrap();
+        let s = step_column(
+            &c,
+            &l,
+            0.0,
+            &dry,
+            0.0,
+            1.0,
+            0.0,
+            &mut pr,
+            &mut SubCloud::empty(),
+            |_| None,
+        )
+        .unwrap();
         assert_eq!((s.reaching_ground, s.deficit), (1.0, 0.0));
         // Dry below 850 hPa: the deficit is taken first, and the carried water reduces it.
         for k in 0..2 {
             c[l.rh(k)] = 50.0;
         }
         c[l.rh2()] = 50.0;
-        let s1 = step_column(&c, &l, 0.0, &dry, 0.0, 0.5, 0.0, &mut pr).unwrap();
+        let s1 = step_column(
+            &c,
+            &l,
+            0.0,
+            &dry,
+            0.0,
+            0.5,
+            0.0,
+            &mut pr,
+            &mut SubCloud::empty(),
+            |_| None,
+        )
+        .unwrap();
         assert!(s1.deficit > 0.5, "{s1:?}");
         assert_eq!(s1.reaching_ground, 0.0);
         assert!(s1.result.is_none());
-        let s2 = step_column(&c, &l, 0.0, &dry, 0.0, 10.0, s1.carried, &mut pr).unwrap();
+        let s2 = step_column(
+            &c,
+            &l,
+            0.0,
+            &dry,
+            0.0,
+            10.0,
+            s1.carried,
+            &mut pr,
+            &mut SubCloud::empty(),
+            |_| None,
+        )
+        .unwrap();
         assert!(
             (s2.reaching_ground - (10.5 - s1.deficit)).abs() < 1e-12,
             "{s2:?}"
@@ -738,7 +777,19 @@ mod tests {
         let cold = Profile::build(&c, &l, 0.0, 0.0065, 0.0).unwrap();
         assert!((pr.t[0] - cold.wet_bulb(0)).abs() < 1e-9);
         assert!((pr.rh[0] - 100.0).abs() < 0.5, "{}", pr.rh[0]);
-        let off = step_column(&c, &l, 0.0, &FIXED, 0.0, 0.5, 0.0, &mut pr).unwrap();
+        let off = step_column(
+            &c,
+            &l,
+            0.0,
+            &FIXED,
+            0.0,
+            0.5,
+            0.0,
+            &mut pr,
+            &mut SubCloud::empty(),
+            |_| None,
+        )
+        .unwrap();
         assert_eq!(off.reaching_ground, 0.5);
     }
 }

@@ -15,7 +15,7 @@
 //! (the cloud base) and 0 from it upward; the ramp keeps S continuous when a level's humidity
 //! crosses the threshold. A column with no cloud up to 500 hPa counts as sub-cloud throughout.
 
-use super::column::{Profile, PROFILE_TOP_PA};
+use super::column::{Profile, PROFILE_TOP_PA, SURFACE};
 use super::ptype::{smoothstep, MAX_LEVELS};
 use super::thermo::{isobaric_wet_bulb_deficit_humidity, saturation_vapor_pressure, EPSILON, G};
 
@@ -68,14 +68,33 @@ impl SubCloud {
     /// assert!((s.deficit - expected).abs() < 1e-4, "{} {expected}", s.deficit);
     /// ```
     pub fn of(profile: &Profile) -> SubCloud {
-        let mut s = SubCloud {
+        let mut s = SubCloud::empty();
+        s.compute(profile, |_| None);
+        s
+    }
+
+    /// A sub-cloud layer with no points (a buffer to compute into).
+    pub fn empty() -> SubCloud {
+        SubCloud {
             deficit: 0.0,
             points: 0,
             weight: [0.0; MAX_LEVELS],
             wet_bulb: [0.0; MAX_LEVELS],
             moistening: [0.0; MAX_LEVELS],
             humidity: [0.0; MAX_LEVELS],
-        };
+        }
+    }
+
+    /// [`SubCloud::of`] into `self`, without clearing the arrays (only points 0..`points` are
+    /// meaningful). `known(k)` may give the isobaric wet-bulb (K), moistening and specific
+    /// humidity (kg/kg) of the profile's isobaric level `k` (its index in the step layout)
+    /// already worked out, as the engine does from the model's grid points
+    /// ([`crate::engine::moisture`]); where it gives `None`, and at the surface point, they are
+    /// computed from the profile.
+    pub fn compute(&mut self, profile: &Profile, mut known: impl FnMut(usize) -> Option<[f64; 3]>) {
+        let s = self;
+        s.deficit = 0.0;
+        s.points = 0;
         let mut u = 1.0;
         // A point is computed while the weight of the layer below it is non-zero: the layer
         // whose top is the cloud base still needs the cloud base's deficit.
@@ -92,10 +111,14 @@ impl SubCloud {
                 // Cloud down to the ground: nothing to saturate.
                 break;
             }
-            let (tw, deficit, q) = isobaric_wet_bulb_deficit_humidity(p, t, rh);
+            let level = profile.level[k];
+            let (tw, deficit, q) = match (level != SURFACE).then(|| known(level)).flatten() {
+                Some([tw, deficit, q]) => (tw, deficit, q),
+                None => isobaric_wet_bulb_deficit_humidity(p, t, rh),
+            };
             if !(tw.is_finite() && deficit.is_finite()) {
                 s.deficit = f64::NAN;
-                return s;
+                return;
             }
             u = u_k;
             s.weight[k] = u;
@@ -111,7 +134,6 @@ impl SubCloud {
             let dp = profile.p[k] - profile.p[k + 1];
             s.deficit += s.weight[k] * 0.5 * (s.moistening[k] + s.moistening[k + 1]) * dp / G;
         }
-        s
     }
 
     /// Moves the sub-cloud layer toward its wet-bulb: each point with sub-cloud weight u is

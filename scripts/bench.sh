@@ -16,7 +16,7 @@ shift || true
 threads_args=("$@")
 
 cargo build --release --quiet
-bin=target/release/trackswing
+bin=${TRACKSWING_BIN:-target/release/trackswing}
 root=target/bench
 mkdir -p "$root"
 

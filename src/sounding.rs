@@ -425,12 +425,23 @@ fn describe(
     ) else {
         return;
     };
-    let profile = match &l.done {
+    let mut profile = match &l.done {
         Some(_) => *diagnosed,
         None => before,
     };
     out.falling_mm = l.falling;
     let sub = SubCloud::of(&before);
+    // The kernel leaves the humidity as it was when the methods never read it: the humidity
+    // shown is that of the cooled layer all the same.
+    if let Some(d) = l
+        .done
+        .as_ref()
+        .filter(|d| d.met > 0.0 && !methods.read_humidity())
+    {
+        let mut cooled = before;
+        sub.cool(&mut cooled, d.met);
+        profile.rh[..profile.n].copy_from_slice(&cooled.rh[..profile.n]);
+    }
     match &l.done {
         Some(d) => {
             out.reaching_ground_mm = d.reaching_ground;

@@ -112,6 +112,16 @@ pub struct Methods {
     pub dry_air: bool,
 }
 
+impl Methods {
+    /// True when the chosen methods read the humidity of the profile (the type from the
+    /// surface wet-bulb or the warmest wet-bulb aloft, the ratio from the growth zone's
+    /// saturation); energy areas with a fixed or maximum-temperature ratio read temperatures
+    /// only, so the sub-cloud cooling need not recompute humidity for them.
+    pub fn read_humidity(&self) -> bool {
+        self.ptype != PtypeMethod::EnergyArea || self.slr == SlrMethod::GrowthZone
+    }
+}
+
 /// What one column gives at the ground.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct ColumnResult {
@@ -455,7 +465,7 @@ pub fn step_column(
         }
         let e = evaporate(carried, sub.deficit, falling);
         if e.met > 0.0 {
-            sub.cool(profile, e.met);
+            sub.cool_with(profile, e.met, methods.read_humidity());
         }
         (e.reaching_ground, sub.deficit, e.carried, e.met)
     } else {

@@ -143,6 +143,13 @@ impl SubCloud {
     /// RH is recomputed (capped at 100 %) and the temperature change recorded in
     /// [`Profile::dt`], so thicknesses follow the cooling.
     pub fn cool(&self, profile: &mut Profile, met: f64) {
+        self.cool_with(profile, met, true);
+    }
+
+    /// [`SubCloud::cool`], recomputing the humidity only when `humidity` is set (it costs an
+    /// exponential per point, and some methods never read it); otherwise the profile keeps
+    /// the humidity it had before the cooling.
+    pub fn cool_with(&self, profile: &mut Profile, met: f64, humidity: bool) {
         let met = met.clamp(0.0, 1.0);
         for k in 0..self.points {
             let f = met * self.weight[k];
@@ -150,10 +157,12 @@ impl SubCloud {
                 continue;
             }
             let (p, t) = (profile.p[k], profile.t[k]);
-            let q = self.humidity[k] + f * self.moistening[k];
             let t_new = t - f * (t - self.wet_bulb[k]);
-            let e = q * p / (EPSILON + (1.0 - EPSILON) * q);
-            profile.rh[k] = (100.0 * e / saturation_vapor_pressure(t_new)).min(100.0);
+            if humidity {
+                let q = self.humidity[k] + f * self.moistening[k];
+                let e = q * p / (EPSILON + (1.0 - EPSILON) * q);
+                profile.rh[k] = (100.0 * e / saturation_vapor_pressure(t_new)).min(100.0);
+            }
             profile.dt[k] += t_new - t;
             profile.t[k] = t_new;
         }

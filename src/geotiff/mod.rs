@@ -48,8 +48,10 @@ pub use write::write_geotiff;
 /// independent units of work when compression is parallelised.
 pub const STRIP_ROWS: usize = 16;
 
-/// zlib level used for Deflate. Fixed so that output is reproducible across runs.
-pub const DEFLATE_LEVEL: u32 = 6;
+/// zlib level used for Deflate. Fixed so that output is reproducible across runs. Level 3: on
+/// the 400×300 benchmark's 63-band stack, writing every layer took 1.77 s against 2.18 s at
+/// level 6, for 1.4 % more bytes (level 1: 1.59 s, 10 % more).
+pub const DEFLATE_LEVEL: u32 = 3;
 
 /// Where a raster sits on the Earth.
 #[derive(Debug, Clone, Copy, PartialEq)]

@@ -25,9 +25,7 @@ fn warm_nose() -> (Vec<f64>, Vec<f64>) {
 }
 
 fn column() -> (StepLayout, Vec<f32>) {
-    let layout = StepLayout {
-        levels_pa: LEVELS_HPA.iter().map(|p| p * 100.0).collect(),
-    };
+    let layout = StepLayout::new(LEVELS_HPA.iter().map(|p| p * 100.0).collect());
     let mut col = vec![0.0f32; layout.nvar()];
     let temps = [271.0, 272.5, 275.0, 266.0, 258.0, 248.0];
     let heights = [120.0, 780.0, 1500.0, 3000.0, 4200.0, 5550.0];

@@ -216,9 +216,7 @@ fn main() -> anyhow::Result<()> {
         centres: vec![None],
         towns,
         track: None,
-        layout: StepLayout {
-            levels_pa: vec![85_000.0, 70_000.0],
-        },
+        layout: StepLayout::new(vec![85_000.0, 70_000.0]),
         timings: Timings {
             read_s: 0.0,
             compute_s: 0.0,

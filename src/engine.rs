@@ -257,18 +257,21 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
         let clock = std::time::Instant::now();
         let path = window.fields(k).path.clone();
         if case.methods.dry_air {
-            for s in &scenarios {
-                let ti = timing_offsets
-                    .iter()
-                    .position(|h| *h == s.timing_h)
-                    .expect("every timing is listed");
-                if let Some(sample) = samples[ti] {
-                    window.prepare_moisture(sample.index, s.warm_bias_k);
-                    if sample.next > 0.0 {
-                        window.prepare_moisture(sample.index + 1, s.warm_bias_k);
+            // Memos are filled in parallel: on the run's threads.
+            pool.install(|| {
+                for s in &scenarios {
+                    let ti = timing_offsets
+                        .iter()
+                        .position(|h| *h == s.timing_h)
+                        .expect("every timing is listed");
+                    if let Some(sample) = samples[ti] {
+                        window.prepare_moisture(sample.index, s.warm_bias_k);
+                        if sample.next > 0.0 {
+                            window.prepare_moisture(sample.index + 1, s.warm_bias_k);
+                        }
                     }
                 }
-            }
+            });
         }
         let mut inputs = Vec::with_capacity(scenarios.len());
         for (si, s) in scenarios.iter().enumerate() {
@@ -397,7 +400,7 @@ pub fn step_gap_warning(times: &[DateTime<Utc>]) -> Option<String> {
 
 /// Bytes a run holds at its peak: the per-scenario totals (five f32 sums, the carried dry-air
 /// water and the onset step per cell) plus one output band per scenario while the stack is
-/// written. The held steps' fields add a few bands' worth per level each, small beside the
+/// written. The held steps' fields and their sub-cloud memos add a few bands' worth per level each (three f32 per level, step and warm bias for the memo), small beside the
 /// totals once there are more than a handful of scenarios.
 pub fn memory_estimate(cells: usize, scenarios: usize) -> u64 {
     (cells as u64) * (scenarios as u64) * (7 + 1) * 4
@@ -542,6 +545,8 @@ pub struct StepWindow<'a> {
     /// Held steps, with their indices and where they have precipitation.
     held: VecDeque<Held>,
     layout: Option<StepLayout>,
+    /// Memos of forgotten steps, kept for reuse.
+    spare: Vec<LevelMoisture>,
 }
 
 impl<'a> StepWindow<'a> {
@@ -553,6 +558,7 @@ impl<'a> StepWindow<'a> {
             times: Vec::new(),
             held: VecDeque::new(),
             layout: None,
+            spare: Vec::new(),
         }
     }
 
@@ -619,8 +625,12 @@ impl<'a> StepWindow<'a> {
     /// Drops every step before `k`.
     pub fn forget_before(&mut self, k: usize) {
         while self.held.front().is_some_and(|h| h.index < k) {
-            self.held.pop_front();
+            if let Some(h) = self.held.pop_front() {
+                self.spare.extend(h.moisture);
+            }
         }
+        // Two per warm bias are enough for the next steps; more would only hold memory.
+        self.spare.truncate(4);
     }
 
     /// The fields of held step `k`.
@@ -639,8 +649,19 @@ impl<'a> StepWindow<'a> {
         let h = &mut self.held[k - first];
         if !h.moisture.iter().any(|m| m.warm_bias_k == warm_bias_k) {
             let cells = h.fields.columns.len() / h.fields.layout.nvar();
-            h.moisture
-                .push(LevelMoisture::new(cells, &h.fields.layout, warm_bias_k));
+            let memo = match self
+                .spare
+                .iter()
+                .position(|m| m.fits(cells, &h.fields.layout))
+            {
+                Some(i) => {
+                    let mut m = self.spare.swap_remove(i);
+                    m.reuse(warm_bias_k);
+                    m
+                }
+                None => LevelMoisture::new(cells, &h.fields.layout, warm_bias_k),
+            };
+            h.moisture.push(memo);
         }
     }
 
@@ -1233,9 +1254,7 @@ mod tests {
             },
         )
         .unwrap();
-        let layout = StepLayout {
-            levels_pa: vec![100_000.0, 85_000.0, 70_000.0, 50_000.0],
-        };
+        let layout = StepLayout::new(vec![100_000.0, 85_000.0, 70_000.0, 50_000.0]);
         let nvar = layout.nvar();
         let mut columns = vec![1.0f32; nx * ny * nvar];
         for c in 0..nx * ny {

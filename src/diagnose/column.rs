@@ -7,7 +7,7 @@
 //! [`step_column`] is one step of one cell, dry air below the cloud included; the engine and the
 //! sounding view both call it, so what a forecaster inspects is what the layers hold.
 
-use super::ptype::{bourgouin, partial_thickness, surface_logistic, PtypeFractions, MAX_LEVELS};
+use super::ptype::{bourgouin_ln, partial_thickness, surface_logistic, PtypeFractions, MAX_LEVELS};
 use super::slr::{fixed_ratio, growth_zone_ratio, kuchera_ratio};
 use super::subcloud::{evaporate, SubCloud};
 use super::thermo::{isobaric_wet_bulb, G, RD};
@@ -147,6 +147,9 @@ pub struct Profile {
     pub n: usize,
     /// Pressure, Pa (strictly decreasing).
     pub p: [f64; MAX_LEVELS],
+    /// ln of the pressure (ln Pa), as [`Profile::build`] sets it with `p`; the energy areas
+    /// read it.
+    pub ln_p: [f64; MAX_LEVELS],
     /// Geopotential height, m, as in the model (the surface point: the target ground).
     pub z: [f64; MAX_LEVELS],
     /// Temperature, K, after the warm-layer bias and any sub-cloud cooling.
@@ -172,6 +175,7 @@ impl Profile {
         Profile {
             n: 0,
             p: [0.0; MAX_LEVELS],
+            ln_p: [0.0; MAX_LEVELS],
             z: [0.0; MAX_LEVELS],
             t: [0.0; MAX_LEVELS],
             rh: [0.0; MAX_LEVELS],
@@ -232,16 +236,18 @@ impl Profile {
         let Some(first_above) = (0..nlev).find(|&k| z(k) > zg) else {
             return false;
         };
-        let p_sfc = if first_above == 0 {
+        // p_sfc = p_k·exp(x), so ln p_sfc = ln p_k + x.
+        let (k, x) = if first_above == 0 {
             let tm = 0.5 * (t2 + t(0));
-            layout.levels_pa[0] * (G * (z(0) - zg) / (RD * tm)).exp()
+            (0, G * (z(0) - zg) / (RD * tm))
         } else {
             let k = first_above - 1;
             let f = (zg - z(k)) / (z(k + 1) - z(k));
             let tg = t(k) + f * (t(k + 1) - t(k));
             let tm = 0.5 * (t(k) + tg);
-            layout.levels_pa[k] * (-G * (zg - z(k)) / (RD * tm)).exp()
+            (k, -G * (zg - z(k)) / (RD * tm))
         };
+        let p_sfc = layout.levels_pa[k] * x.exp();
         if !p_sfc.is_finite() {
             return false;
         }
@@ -250,6 +256,7 @@ impl Profile {
         pr.dt[0] = 0.0;
         pr.level[0] = SURFACE;
         pr.p[0] = p_sfc;
+        pr.ln_p[0] = layout.ln_level(k) + x;
         pr.z[0] = zg;
         pr.t[0] = t2;
         pr.rh[0] = rh2;
@@ -263,6 +270,7 @@ impl Profile {
             }
             let i = pr.n;
             pr.p[i] = pk;
+            pr.ln_p[i] = layout.ln_level(k);
             pr.z[i] = z(k);
             pr.t[i] = t(k);
             pr.rh[i] = col[layout.rh(k)] as f64;
@@ -348,7 +356,9 @@ impl Profile {
     /// Precipitation-type fractions by one method.
     pub fn ptype(&self, method: PtypeMethod) -> PtypeFractions {
         match method {
-            PtypeMethod::EnergyArea => bourgouin(self.pressures(), self.temperatures()),
+            PtypeMethod::EnergyArea => {
+                bourgouin_ln(self.pressures(), &self.ln_p[..self.n], self.temperatures())
+            }
             PtypeMethod::PartialThickness => {
                 let [low, mid, deep] = self.partial_thicknesses();
                 partial_thickness(low, mid, deep, self.wet_bulb(0))
@@ -499,9 +509,7 @@ mod tests {
         t2: f64,
         z0: f64,
     ) -> (StepLayout, Vec<f32>) {
-        let layout = StepLayout {
-            levels_pa: levels_hpa.iter().map(|p| p * 100.0).collect(),
-        };
+        let layout = StepLayout::new(levels_hpa.iter().map(|p| p * 100.0).collect());
         let mut col = vec![0.0f32; layout.nvar()];
         let mut z = z0;
         for k in 0..levels_hpa.len() {
@@ -785,6 +793,30 @@ mod tests {
         assert_eq!(s2.met, 1.0);
         // Fully met: the sub-cloud layer sits at its wet-bulb and is saturated.
         let cold = Profile::build(&c, &l, 0.0, 0.0065, 0.0).unwrap();
+        assert!((pr.t[0] - cold.wet_bulb(0)).abs() < 1e-9);
+        // Energy areas with a fixed ratio never read humidity: the kernel leaves it as it was.
+        assert!(!dry.read_humidity());
+        assert_eq!(pr.rh[0], cold.rh[0]);
+        // A method that reads it sees the cooled layer saturated.
+        let reads = Methods {
+            slr: SlrMethod::GrowthZone,
+            ..dry
+        };
+        assert!(reads.read_humidity());
+        let again = step_column(
+            &c,
+            &l,
+            0.0,
+            &reads,
+            0.0,
+            10.0,
+            s1.carried,
+            &mut pr,
+            &mut SubCloud::empty(),
+            |_| None,
+        )
+        .unwrap();
+        assert_eq!(again.met, 1.0);
         assert!((pr.t[0] - cold.wet_bulb(0)).abs() < 1e-9);
         assert!((pr.rh[0] - 100.0).abs() < 0.5, "{}", pr.rh[0]);
         let off = step_column(

@@ -201,6 +201,27 @@ pub fn energy_areas(
     if !(valid_profile(p_pa, t_k) && p_floor_pa > 0.0 && p_floor_pa.is_finite()) {
         return 0;
     }
+    let mut ln_p = [0.0; MAX_LEVELS];
+    for (l, p) in ln_p.iter_mut().zip(p_pa) {
+        *l = p.ln();
+    }
+    energy_areas_ln(p_pa, &ln_p[..p_pa.len()], t_k, p_floor_pa, out)
+}
+
+/// [`energy_areas`] with the logarithms of the pressures given (`ln_p_pa[i]` = ln `p_pa[i]`), as
+/// a built [`crate::diagnose::column::Profile`] holds them: no logarithm per segment.
+pub fn energy_areas_ln(
+    p_pa: &[f64],
+    ln_p_pa: &[f64],
+    t_k: &[f64],
+    p_floor_pa: f64,
+    out: &mut [Layer; MAX_LEVELS],
+) -> usize {
+    if !(valid_profile(p_pa, t_k) && p_floor_pa > 0.0 && p_floor_pa.is_finite())
+        || ln_p_pa.len() != p_pa.len()
+    {
+        return 0;
+    }
     let mut n = 0;
     for i in 0..p_pa.len() - 1 {
         let (p_b, t_b) = (p_pa[i], t_k[i]);
@@ -209,10 +230,10 @@ pub fn energy_areas(
         }
         let (mut p_t, mut t_t) = (p_pa[i + 1], t_k[i + 1]);
         // ln(p_b/p_t), once per segment: the pieces of a split segment take their shares of it.
-        let mut span = (p_b / p_t).ln();
+        let mut span = ln_p_pa[i] - ln_p_pa[i + 1];
         let at_floor = p_t <= p_floor_pa;
         if at_floor && p_t < p_floor_pa {
-            let to_floor = (p_b / p_floor_pa).ln();
+            let to_floor = ln_p_pa[i] - p_floor_pa.ln();
             t_t = t_b + to_floor / span * (t_t - t_b);
             p_t = p_floor_pa;
             span = to_floor;
@@ -282,8 +303,20 @@ pub fn energy_areas(
 /// assert!((f.rain - 1.0).abs() < 1e-12);
 /// ```
 pub fn bourgouin(p_pa: &[f64], t_k: &[f64]) -> PtypeFractions {
+    if !(2..=MAX_LEVELS).contains(&p_pa.len()) {
+        return PtypeFractions::nan();
+    }
+    let mut ln_p = [0.0; MAX_LEVELS];
+    for (l, p) in ln_p.iter_mut().zip(p_pa) {
+        *l = p.ln();
+    }
+    bourgouin_ln(p_pa, &ln_p[..p_pa.len()], t_k)
+}
+
+/// [`bourgouin`] with the logarithms of the pressures given (see [`energy_areas_ln`]).
+pub fn bourgouin_ln(p_pa: &[f64], ln_p_pa: &[f64], t_k: &[f64]) -> PtypeFractions {
     // The layer buffer is kept per thread: zeroing 1.5 kB per call was 3 % of a run.
-    LAYERS.with_borrow_mut(|buf| bourgouin_in(p_pa, t_k, buf))
+    LAYERS.with_borrow_mut(|buf| bourgouin_in(p_pa, ln_p_pa, t_k, buf))
 }
 
 const NO_LAYER: Layer = Layer {
@@ -298,8 +331,13 @@ thread_local! {
 }
 
 /// [`bourgouin`] with `buf` as the layer buffer.
-fn bourgouin_in(p_pa: &[f64], t_k: &[f64], buf: &mut [Layer; MAX_LEVELS]) -> PtypeFractions {
-    let n = energy_areas(p_pa, t_k, BOURGOUIN_FLOOR_PA, buf);
+fn bourgouin_in(
+    p_pa: &[f64],
+    ln_p_pa: &[f64],
+    t_k: &[f64],
+    buf: &mut [Layer; MAX_LEVELS],
+) -> PtypeFractions {
+    let n = energy_areas_ln(p_pa, ln_p_pa, t_k, BOURGOUIN_FLOOR_PA, buf);
     if n == 0 {
         return PtypeFractions::nan();
     }

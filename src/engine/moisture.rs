@@ -24,6 +24,7 @@ use super::ScenarioStep;
 use crate::diagnose::column::PROFILE_TOP_PA;
 use crate::diagnose::thermo::isobaric_wet_bulb_deficit_humidity;
 use crate::read::StepLayout;
+use rayon::prelude::*;
 use std::sync::atomic::{AtomicU32, Ordering};
 
 /// Bilinear weights of a source point: lower-left grid point (column, row) and fractions.
@@ -54,16 +55,33 @@ pub struct LevelMoisture {
 }
 
 impl LevelMoisture {
-    /// An empty memo for a grid of `cells` points.
+    /// An empty memo for a grid of `cells` points (filled in parallel on the current rayon
+    /// pool: a continental grid's memo is about 100 MB).
     pub fn new(cells: usize, layout: &StepLayout, warm_bias_k: f64) -> Self {
         let levels = sub_cloud_levels(layout);
         Self {
             warm_bias_k,
             levels,
             memo: (0..cells * levels * PER_LEVEL)
+                .into_par_iter()
                 .map(|_| AtomicU32::new(NOT_YET))
                 .collect(),
         }
+    }
+
+    /// Empties the memo for another step and bias of the same grid and levels (reusing the
+    /// memory saves a continental grid's page faults every step).
+    pub fn reuse(&mut self, warm_bias_k: f64) {
+        self.warm_bias_k = warm_bias_k;
+        self.memo
+            .par_iter_mut()
+            .with_min_len(1 << 16)
+            .for_each(|a| *a.get_mut() = NOT_YET);
+    }
+
+    /// True when this memo's memory fits a grid of `cells` points with `layout`'s levels.
+    pub fn fits(&self, cells: usize, layout: &StepLayout) -> bool {
+        self.memo.len() == cells * sub_cloud_levels(layout) * PER_LEVEL
     }
 
     /// Bytes held.
@@ -219,9 +237,7 @@ mod tests {
     use crate::diagnose::thermo::isobaric_wet_bulb_deficit_humidity;
 
     fn layout() -> StepLayout {
-        StepLayout {
-            levels_pa: vec![100_000.0, 85_000.0, 70_000.0, 50_000.0, 30_000.0],
-        }
+        StepLayout::new(vec![100_000.0, 85_000.0, 70_000.0, 50_000.0, 30_000.0])
     }
 
     /// A 3×2 grid of columns with temperatures and humidities varying by grid point.

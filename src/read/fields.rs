@@ -82,9 +82,25 @@ pub enum FieldError {
 pub struct StepLayout {
     /// Isobaric levels, Pa, from the highest pressure (lowest level) upward.
     pub levels_pa: Vec<f64>,
+    /// Natural logarithms of `levels_pa` (ln Pa), once per run: the per-cell kernel integrates
+    /// in ln p.
+    ln_levels_pa: Vec<f64>,
 }
 
 impl StepLayout {
+    /// The layout of columns with these isobaric levels (Pa, highest pressure first).
+    pub fn new(levels_pa: Vec<f64>) -> Self {
+        let ln_levels_pa = levels_pa.iter().map(|p| p.ln()).collect();
+        Self {
+            levels_pa,
+            ln_levels_pa,
+        }
+    }
+    /// ln of the pressure of level `k` (ln Pa).
+    #[inline]
+    pub fn ln_level(&self, k: usize) -> f64 {
+        self.ln_levels_pa[k]
+    }
     /// Index of the temperature (K) at level `k`.
     pub fn t(&self, k: usize) -> usize {
         3 * k
@@ -379,9 +395,7 @@ pub fn assemble(
             ),
         });
     }
-    let layout = StepLayout {
-        levels_pa: v.levels_pa,
-    };
+    let layout = StepLayout::new(v.levels_pa);
     let n = terrain.len();
     let nvar = layout.nvar();
     let length = |f: &Labelled<'_>| -> Result<(), FieldError> {

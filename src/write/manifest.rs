@@ -7,6 +7,7 @@
 use super::{write_text_atomic, WriteError, Written};
 use crate::case::Case;
 use crate::engine::RunResult;
+use rayon::prelude::*;
 use serde::Serialize;
 use sha2::{Digest, Sha256};
 use std::path::Path;
@@ -111,29 +112,26 @@ pub fn write_manifest(
     r: &RunResult,
     files: &[Written],
 ) -> Result<(), WriteError> {
-    let mut inputs = vec![Input {
-        role: "case".into(),
-        path: case.path.display().to_string(),
-        sha256: sha256_of(&case.path)?,
-    }];
-    let mut add = |role: &str, p: &Path| -> Result<(), WriteError> {
-        inputs.push(Input {
-            role: role.into(),
-            path: p.display().to_string(),
-            sha256: sha256_of(p)?,
-        });
-        Ok(())
-    };
-    add("terrain", &case.member.terrain)?;
-    for s in &case.member.steps {
-        add("step", s)?;
-    }
+    let mut listed: Vec<(&str, &Path)> =
+        vec![("case", &case.path), ("terrain", &case.member.terrain)];
+    listed.extend(case.member.steps.iter().map(|s| ("step", s.as_path())));
     if let Some(t) = &case.member.track {
-        add("track", t)?;
+        listed.push(("track", t));
     }
     if let Some(t) = &case.towns {
-        add("towns", t)?;
+        listed.push(("towns", t));
     }
+    // Step files of a continental case run to gigabytes: hashed in parallel.
+    let inputs = listed
+        .par_iter()
+        .map(|&(role, p)| {
+            Ok(Input {
+                role: role.into(),
+                path: p.display().to_string(),
+                sha256: sha256_of(p)?,
+            })
+        })
+        .collect::<Result<Vec<Input>, WriteError>>()?;
     let weights = crate::summarise::weights::scenario_weights(&case.prior, &r.scenarios)?;
     let decisions = serde_json::json!({
         "track_error_prior": &case.prior,

@@ -1186,6 +1186,9 @@ pub fn accumulate_cell(
         return Ok(None);
     }
     let carried = rows.carried[i] as f64;
+    let mut source = cell
+        .source
+        .map(|a| moisture::AtSource::new(a.input, layout, a.nx, a.w));
     match step_column(
         cell.col,
         layout,
@@ -1196,10 +1199,7 @@ pub fn accumulate_cell(
         carried,
         profile,
         sub,
-        |k| {
-            cell.source
-                .and_then(|a| moisture::at_source(a.input, layout, a.nx, a.w, k))
-        },
+        |k| source.as_mut().and_then(|a| a.level(k)),
     ) {
         Ok(s) => {
             rows.carried[i] = s.carried as f32;

@@ -7,6 +7,7 @@ use criterion::{criterion_group, criterion_main, Criterion};
 use std::hint::black_box;
 use trackswing::diagnose::ptype::bourgouin;
 use trackswing::diagnose::subcloud::SubCloud;
+use trackswing::diagnose::thermo::isobaric_wet_bulb_deficit_humidity;
 use trackswing::diagnose::{
     diagnose_column, step_column, Methods, Profile, PtypeMethod, SlrMethod,
 };
@@ -84,6 +85,37 @@ fn kernels(c: &mut Criterion) {
             )
         })
     });
+    // The engine's path: the isobaric levels' wet-bulb, moistening and humidity come from the
+    // grid-point memo (here worked out beforehand), only the surface point is solved.
+    let known: Vec<[f64; 3]> = (0..LEVELS_HPA.len())
+        .map(|k| {
+            let (tw, d, q) = isobaric_wet_bulb_deficit_humidity(
+                LEVELS_HPA[k] * 100.0,
+                dry[layout.t(k)] as f64,
+                dry[layout.rh(k)] as f64,
+            );
+            [tw, d, q]
+        })
+        .collect();
+    c.bench_function(
+        "step_column with dry air, isobaric levels from the memo, 6 levels",
+        |b| {
+            b.iter(|| {
+                step_column(
+                    black_box(&dry),
+                    &layout,
+                    black_box(80.0),
+                    &with_dry_air,
+                    0.0,
+                    1.2,
+                    black_box(0.4),
+                    &mut profile,
+                    &mut sub,
+                    |k| Some(known[k]),
+                )
+            })
+        },
+    );
     let grid = Grid::new(
         64,
         64,

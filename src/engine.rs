@@ -926,7 +926,7 @@ pub fn step_all_scenarios(
     step: u32,
     totals: &mut [Totals],
 ) -> Vec<BlockCounts> {
-    let tasks: Vec<(usize, usize, crate::accumulate::TotalsRows<'_>)> = totals
+    let mut tasks: Vec<(usize, usize, crate::accumulate::TotalsRows<'_>)> = totals
         .iter_mut()
         .enumerate()
         .filter(|(s, _)| inputs[*s].is_some())
@@ -936,6 +936,9 @@ pub fn step_all_scenarios(
                 .map(move |(start, rows)| (s, start, rows))
         })
         .collect();
+    // Block by block, every scenario of a block together: the step's columns and sub-cloud memo
+    // around a block stay in cache while all the scenarios read them.
+    tasks.sort_by_key(|&(s, start, _)| (start, s));
     let counts: Vec<(usize, BlockCounts)> = tasks
         .into_par_iter()
         .map(|(s, start, mut rows)| {

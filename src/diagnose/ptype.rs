@@ -131,8 +131,16 @@ fn valid_profile(p_pa: &[f64], t_k: &[f64]) -> bool {
     if n != t_k.len() || !(2..=MAX_LEVELS).contains(&n) {
         return false;
     }
-    let finite = p_pa.iter().chain(t_k).all(|v| v.is_finite() && *v > 0.0);
-    finite && p_pa.windows(2).all(|w| w[1] < w[0])
+    // Without short-circuits, so the checks vectorise: finite and positive is 0 < v < ∞
+    // (NaN fails both comparisons).
+    let mut ok = true;
+    for (p, t) in p_pa.iter().zip(t_k) {
+        ok &= (*p > 0.0) & (*p < f64::INFINITY) & (*t > 0.0) & (*t < f64::INFINITY);
+    }
+    for w in p_pa.windows(2) {
+        ok &= w[1] < w[0];
+    }
+    ok
 }
 
 /// Energy area of a piece with temperature linear in ln p between (p_b, t_b) and (p_t, t_t):
@@ -332,6 +340,28 @@ thread_local! {
 
 /// [`bourgouin`] with `buf` as the layer buffer.
 fn bourgouin_in(
+    p_pa: &[f64],
+    ln_p_pa: &[f64],
+    t_k: &[f64],
+    buf: &mut [Layer; MAX_LEVELS],
+) -> PtypeFractions {
+    // A column at or below 0 °C from the ground to the floor (the floor's temperature is
+    // interpolated between the points either side) has cold layers only: all snow, the result
+    // the layers below would give bit for bit, without them. Most snowing columns are so.
+    if valid_profile(p_pa, t_k) && p_pa[0] > BOURGOUIN_FLOOR_PA {
+        let top = p_pa
+            .iter()
+            .position(|p| *p <= BOURGOUIN_FLOOR_PA)
+            .unwrap_or(p_pa.len() - 1);
+        if t_k[..=top].iter().all(|t| *t <= T_FREEZE) {
+            return PtypeFractions::with_liquid(1.0, 0.0, 0.0, t_k[0]);
+        }
+    }
+    bourgouin_layers(p_pa, ln_p_pa, t_k, buf)
+}
+
+/// [`bourgouin`] through the energy areas, whatever the column.
+fn bourgouin_layers(
     p_pa: &[f64],
     ln_p_pa: &[f64],
     t_k: &[f64],
@@ -830,6 +860,44 @@ mod tests {
 
     proptest! {
         #![proptest_config(ProptestConfig::with_cases(2000))]
+
+        /// The all-cold shortcut gives what the energy areas give, bit for bit: columns at or
+        /// below 0 °C up to 500 hPa (some exactly at 0 °C), with warm air above the floor that
+        /// the method ignores.
+        #[test]
+        fn cold_columns_skip_the_layers_with_the_same_result(
+            t in proptest::collection::vec(240.0..=273.15_f64, 6),
+            at_zero in 0usize..6,
+            above in 240.0..290.0_f64,
+            surface in 95_000.0..104_000.0_f64,
+        ) {
+            let mut t = t;
+            t[at_zero] = T_FREEZE;
+            let p = [surface, 92_500.0, 85_000.0, 70_000.0, 60_000.0, 50_000.0, 40_000.0];
+            let mut tt = t.clone();
+            tt.push(above);
+            let ln_p: Vec<f64> = p.iter().map(|x| x.ln()).collect();
+            let mut buf = [Layer::default(); MAX_LEVELS];
+            let quick = bourgouin_in(&p, &ln_p, &tt, &mut buf);
+            let full = bourgouin_layers(&p, &ln_p, &tt, &mut buf);
+            prop_assert_eq!(quick, full);
+            prop_assert_eq!(quick.snow, 1.0);
+        }
+
+        /// Any column, warm or cold below the floor: the same result with or without the
+        /// shortcut (so it never takes a column with a warm layer).
+        #[test]
+        fn the_shortcut_never_changes_a_result(
+            t in proptest::collection::vec(263.0..283.0_f64, 7),
+            surface in 95_000.0..104_000.0_f64,
+        ) {
+            let p = [surface, 92_500.0, 85_000.0, 70_000.0, 60_000.0, 50_000.0, 40_000.0];
+            let ln_p: Vec<f64> = p.iter().map(|x| x.ln()).collect();
+            let mut buf = [Layer::default(); MAX_LEVELS];
+            let quick = bourgouin_in(&p, &ln_p, &t, &mut buf);
+            let full = bourgouin_layers(&p, &ln_p, &t, &mut buf);
+            prop_assert_eq!(quick, full);
+        }
 
         #[test]
         fn colder_column_never_has_less_snow(

@@ -99,20 +99,20 @@ pub fn value_at(grid: &Grid, field: &[f32], lon: f64, lat: f64) -> f32 {
 
 /// Totals of every scenario at every town.
 pub fn towns(result: &RunResult) -> Vec<TownSummary> {
-    let at = |t: &crate::read::Town, f: &dyn Fn(&Totals) -> Vec<f32>| -> Vec<f32> {
+    let at = |t: &crate::read::Town, f: &dyn Fn(&Totals) -> &[f32]| -> Vec<f32> {
         result
             .totals
             .iter()
-            .map(|tot| value_at(&result.grid, &f(tot), t.lon, t.lat))
+            .map(|tot| value_at(&result.grid, f(tot), t.lon, t.lat))
             .collect()
     };
     result
         .towns
         .iter()
         .map(|t| {
-            let snowfall = at(t, &|x| x.snowfall.clone());
-            let liquid = at(t, &|x| x.liquid.clone());
-            let snow_liquid = at(t, &|x| x.snow_liquid.clone());
+            let snowfall = at(t, &|x| &x.snowfall);
+            let liquid = at(t, &|x| &x.liquid);
+            let snow_liquid = at(t, &|x| &x.snow_liquid);
             let snow_fraction = snow_liquid
                 .iter()
                 .zip(&liquid)

@@ -16,6 +16,7 @@
 //! distribution over the scenarios that happen to be present would be biased.
 
 use crate::accumulate::Totals;
+use rayon::prelude::*;
 
 /// Quantiles every summary reports.
 pub const QUANTILES: [f64; 3] = [0.1, 0.5, 0.9];
@@ -104,37 +105,48 @@ pub struct DistributionLayers {
 pub fn distribution(
     totals: &[Totals],
     weights: &[f64],
-    value: impl Fn(&Totals, usize) -> f32,
+    value: impl Fn(&Totals, usize) -> f32 + Sync,
     thresholds: &[f64],
 ) -> DistributionLayers {
     let n = totals.first().map_or(0, Totals::len);
-    let mut out = DistributionLayers {
-        mean: vec![f32::NAN; n],
-        quantiles: [vec![f32::NAN; n], vec![f32::NAN; n], vec![f32::NAN; n]],
-        exceedance: thresholds.iter().map(|_| vec![f32::NAN; n]).collect(),
-    };
-    let mut pairs = Vec::with_capacity(totals.len());
-    for i in 0..n {
-        pairs.clear();
-        pairs.extend(
-            totals
-                .iter()
-                .zip(weights)
-                .map(|(t, w)| (value(t, i) as f64, *w)),
-        );
-        if prepare(&mut pairs).is_none() {
-            continue;
-        }
-        let s = summary(&pairs);
-        out.mean[i] = s.mean as f32;
-        for (layer, q) in out.quantiles.iter_mut().zip(s.quantiles) {
-            layer[i] = q as f32;
-        }
-        for (layer, t) in out.exceedance.iter_mut().zip(thresholds) {
-            layer[i] = exceedance(&pairs, *t) as f32;
-        }
+    // Per cell: mean, the three quantiles, then one exceedance per threshold; cells in
+    // parallel blocks (each cell's values depend on that cell only, so any thread count gives
+    // the same bits), then spread into the layers.
+    let width = 4 + thresholds.len();
+    const BLOCK: usize = 4096;
+    let mut flat = vec![f32::NAN; n * width];
+    flat.par_chunks_mut(BLOCK * width)
+        .enumerate()
+        .for_each(|(b, chunk)| {
+            let mut pairs = Vec::with_capacity(totals.len());
+            for (j, cell) in chunk.chunks_exact_mut(width).enumerate() {
+                let i = b * BLOCK + j;
+                pairs.clear();
+                pairs.extend(
+                    totals
+                        .iter()
+                        .zip(weights)
+                        .map(|(t, w)| (value(t, i) as f64, *w)),
+                );
+                if prepare(&mut pairs).is_none() {
+                    continue;
+                }
+                let s = summary(&pairs);
+                cell[0] = s.mean as f32;
+                for (v, q) in cell[1..4].iter_mut().zip(s.quantiles) {
+                    *v = q as f32;
+                }
+                for (v, t) in cell[4..].iter_mut().zip(thresholds) {
+                    *v = exceedance(&pairs, *t) as f32;
+                }
+            }
+        });
+    let layer = |k: usize| -> Vec<f32> { flat.iter().skip(k).step_by(width).copied().collect() };
+    DistributionLayers {
+        mean: layer(0),
+        quantiles: [layer(1), layer(2), layer(3)],
+        exceedance: (0..thresholds.len()).map(|t| layer(4 + t)).collect(),
     }
-    out
 }
 
 #[cfg(test)]

@@ -2,7 +2,7 @@
 //!
 //! The dry-air kernel ([`SubCloud`](crate::diagnose::subcloud::SubCloud)) needs, at every
 //! sub-cloud point of a column, the isobaric wet-bulb, the water that saturates the air at it
-//! and the air's specific humidity: a Newton solve with two to four exponentials. At an isobaric
+//! and the air's specific humidity: a Halley solve with two or three exponentials. At an isobaric
 //! level these depend only on the level's temperature (plus the scenario's warm bias) and
 //! humidity at the model's grid points, not on the offset. So the engine works them out per
 //! grid point, per step and per warm bias, and a shifted column takes them by bilinear
@@ -12,7 +12,7 @@
 //!
 //! Interpolating the derived values rather than deriving from interpolated temperature and
 //! humidity differs at second order in the grid-point differences; an unshifted column takes
-//! one grid point's values and is unchanged. docs/SCIENCE.md §5 gives the measured effect.
+//! one grid point's values and is unchanged. docs/SCIENCE.md §3 gives the measured effect.
 //!
 //! The values are kept in a memo filled on first use ([`LevelMoisture`]): a grid point's levels
 //! are solved together, at most once per step and bias, and never where no scenario's

@@ -400,8 +400,9 @@ pub fn step_gap_warning(times: &[DateTime<Utc>]) -> Option<String> {
 
 /// Bytes a run holds at its peak: the per-scenario totals (five f32 sums, the carried dry-air
 /// water and the onset step per cell) plus one output band per scenario while the stack is
-/// written. The held steps' fields and their sub-cloud memos add a few bands' worth per level each (three f32 per level, step and warm bias for the memo), small beside the
-/// totals once there are more than a handful of scenarios.
+/// written. The held steps' fields and their sub-cloud memos (three f32 per level below
+/// 500 hPa, step and warm bias) add a few bands' worth per level each, small beside the totals
+/// once there are more than a handful of scenarios.
 pub fn memory_estimate(cells: usize, scenarios: usize) -> u64 {
     (cells as u64) * (scenarios as u64) * (7 + 1) * 4
 }
@@ -629,7 +630,8 @@ impl<'a> StepWindow<'a> {
                 self.spare.extend(h.moisture);
             }
         }
-        // Two per warm bias are enough for the next steps; more would only hold memory.
+        // The next steps need at most as many memos as were just freed; a few spares cover that
+        // for one or two warm biases, and more would only hold memory.
         self.spare.truncate(4);
     }
 
@@ -1108,16 +1110,16 @@ fn step_block(
             continue;
         }
         let col = &mut buf[..nvar];
-        let falling = match cell_column(grid, input, nvar, ip, c, taper, col, &mut later[..nvar]) {
-            Sampled::Outside => {
-                counts.outside += 1;
-                rows.set_missing(i);
-                continue;
-            }
-            Sampled::Dry => continue,
-            Sampled::Falling(f, w) => (f, w),
-        };
-        let (falling, at) = falling;
+        let (falling, at) =
+            match cell_column(grid, input, nvar, ip, c, taper, col, &mut later[..nvar]) {
+                Sampled::Outside => {
+                    counts.outside += 1;
+                    rows.set_missing(i);
+                    continue;
+                }
+                Sampled::Dry => continue,
+                Sampled::Falling(f, w) => (f, w),
+            };
         let cell = CellStep {
             col,
             falling,

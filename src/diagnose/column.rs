@@ -536,6 +536,31 @@ mod tests {
         dry_air: false,
     };
 
+    /// One step of column `c` at sea level with no warm bias, the levels solved from the
+    /// profile itself.
+    fn step(
+        c: &[f32],
+        l: &StepLayout,
+        methods: &Methods,
+        falling: f64,
+        carried: f64,
+        pr: &mut Profile,
+    ) -> ColumnStep {
+        step_column(
+            c,
+            l,
+            0.0,
+            methods,
+            0.0,
+            falling,
+            carried,
+            pr,
+            &mut SubCloud::empty(),
+            |_| None,
+        )
+        .unwrap()
+    }
+
     proptest::proptest! {
         #![proptest_config(proptest::prelude::ProptestConfig::with_cases(1000))]
 
@@ -567,8 +592,8 @@ mod tests {
             }
             let methods = Methods { dry_air: true, ..FIXED };
             let mut pr = Profile::empty();
-            let a = step_column(&moist, &l, 0.0, &methods, 0.0, falling, 0.0, &mut pr, &mut SubCloud::empty(), |_| None).unwrap();
-            let b = step_column(&dry, &l, 0.0, &methods, 0.0, falling, 0.0, &mut pr, &mut SubCloud::empty(), |_| None).unwrap();
+            let a = step(&moist, &l, &methods, falling, 0.0, &mut pr);
+            let b = step(&dry, &l, &methods, falling, 0.0, &mut pr);
             proptest::prop_assert!(b.deficit >= a.deficit - 1e-9, "deficit {} < {}", b.deficit, a.deficit);
             proptest::prop_assert!(
                 b.reaching_ground <= a.reaching_ground + 1e-9,
@@ -738,54 +763,18 @@ mod tests {
         };
         let mut pr = Profile::build(&c, &l, 0.0, 0.0065, 0.0).unwrap();
         // Saturated at the surface (RH 90 % counts as cloud): everything reaches the ground.
-        let s = step_column(
-            &c,
-            &l,
-            0.0,
-            &dry,
-            0.0,
-            1.0,
-            0.0,
-            &mut pr,
-            &mut SubCloud::empty(),
-            |_| None,
-        )
-        .unwrap();
+        let s = step(&c, &l, &dry, 1.0, 0.0, &mut pr);
         assert_eq!((s.reaching_ground, s.deficit), (1.0, 0.0));
         // Dry below 850 hPa: the deficit is taken first, and the carried water reduces it.
         for k in 0..2 {
             c[l.rh(k)] = 50.0;
         }
         c[l.rh2()] = 50.0;
-        let s1 = step_column(
-            &c,
-            &l,
-            0.0,
-            &dry,
-            0.0,
-            0.5,
-            0.0,
-            &mut pr,
-            &mut SubCloud::empty(),
-            |_| None,
-        )
-        .unwrap();
+        let s1 = step(&c, &l, &dry, 0.5, 0.0, &mut pr);
         assert!(s1.deficit > 0.5, "{s1:?}");
         assert_eq!(s1.reaching_ground, 0.0);
         assert!(s1.result.is_none());
-        let s2 = step_column(
-            &c,
-            &l,
-            0.0,
-            &dry,
-            0.0,
-            10.0,
-            s1.carried,
-            &mut pr,
-            &mut SubCloud::empty(),
-            |_| None,
-        )
-        .unwrap();
+        let s2 = step(&c, &l, &dry, 10.0, s1.carried, &mut pr);
         assert!(
             (s2.reaching_ground - (10.5 - s1.deficit)).abs() < 1e-12,
             "{s2:?}"
@@ -803,35 +792,11 @@ mod tests {
             ..dry
         };
         assert!(reads.read_humidity());
-        let again = step_column(
-            &c,
-            &l,
-            0.0,
-            &reads,
-            0.0,
-            10.0,
-            s1.carried,
-            &mut pr,
-            &mut SubCloud::empty(),
-            |_| None,
-        )
-        .unwrap();
+        let again = step(&c, &l, &reads, 10.0, s1.carried, &mut pr);
         assert_eq!(again.met, 1.0);
         assert!((pr.t[0] - cold.wet_bulb(0)).abs() < 1e-9);
         assert!((pr.rh[0] - 100.0).abs() < 0.5, "{}", pr.rh[0]);
-        let off = step_column(
-            &c,
-            &l,
-            0.0,
-            &FIXED,
-            0.0,
-            0.5,
-            0.0,
-            &mut pr,
-            &mut SubCloud::empty(),
-            |_| None,
-        )
-        .unwrap();
+        let off = step(&c, &l, &FIXED, 0.5, 0.0, &mut pr);
         assert_eq!(off.reaching_ground, 0.5);
     }
 }

@@ -230,6 +230,17 @@ pub fn energy_areas_ln(
     {
         return 0;
     }
+    areas_of_valid(p_pa, ln_p_pa, t_k, p_floor_pa, out)
+}
+
+/// [`energy_areas_ln`] for a profile already checked.
+fn areas_of_valid(
+    p_pa: &[f64],
+    ln_p_pa: &[f64],
+    t_k: &[f64],
+    p_floor_pa: f64,
+    out: &mut [Layer; MAX_LEVELS],
+) -> usize {
     let mut n = 0;
     for i in 0..p_pa.len() - 1 {
         let (p_b, t_b) = (p_pa[i], t_k[i]);
@@ -345,10 +356,13 @@ fn bourgouin_in(
     t_k: &[f64],
     buf: &mut [Layer; MAX_LEVELS],
 ) -> PtypeFractions {
+    if !(valid_profile(p_pa, t_k) && ln_p_pa.len() == p_pa.len()) {
+        return PtypeFractions::nan();
+    }
     // A column at or below 0 °C from the ground to the floor (the floor's temperature is
     // interpolated between the points either side) has cold layers only: all snow, the result
     // the layers below would give bit for bit, without them. Most snowing columns are so.
-    if valid_profile(p_pa, t_k) && p_pa[0] > BOURGOUIN_FLOOR_PA {
+    if p_pa[0] > BOURGOUIN_FLOOR_PA {
         let top = p_pa
             .iter()
             .position(|p| *p <= BOURGOUIN_FLOOR_PA)
@@ -357,17 +371,31 @@ fn bourgouin_in(
             return PtypeFractions::with_liquid(1.0, 0.0, 0.0, t_k[0]);
         }
     }
-    bourgouin_layers(p_pa, ln_p_pa, t_k, buf)
+    fractions_of_valid(p_pa, ln_p_pa, t_k, buf)
 }
 
 /// [`bourgouin`] through the energy areas, whatever the column.
+#[cfg(test)]
 fn bourgouin_layers(
     p_pa: &[f64],
     ln_p_pa: &[f64],
     t_k: &[f64],
     buf: &mut [Layer; MAX_LEVELS],
 ) -> PtypeFractions {
-    let n = energy_areas_ln(p_pa, ln_p_pa, t_k, BOURGOUIN_FLOOR_PA, buf);
+    if !valid_profile(p_pa, t_k) {
+        return PtypeFractions::nan();
+    }
+    fractions_of_valid(p_pa, ln_p_pa, t_k, buf)
+}
+
+/// Bourgouin's rules over the energy areas of a profile already checked.
+fn fractions_of_valid(
+    p_pa: &[f64],
+    ln_p_pa: &[f64],
+    t_k: &[f64],
+    buf: &mut [Layer; MAX_LEVELS],
+) -> PtypeFractions {
+    let n = areas_of_valid(p_pa, ln_p_pa, t_k, BOURGOUIN_FLOOR_PA, buf);
     if n == 0 {
         return PtypeFractions::nan();
     }

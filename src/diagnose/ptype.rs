@@ -213,27 +213,12 @@ pub fn energy_areas(
     for (l, p) in ln_p.iter_mut().zip(p_pa) {
         *l = p.ln();
     }
-    energy_areas_ln(p_pa, &ln_p[..p_pa.len()], t_k, p_floor_pa, out)
+    areas_of_valid(p_pa, &ln_p[..p_pa.len()], t_k, p_floor_pa, out)
 }
 
-/// [`energy_areas`] with the logarithms of the pressures given (`ln_p_pa[i]` = ln `p_pa[i]`), as
-/// a built [`crate::diagnose::column::Profile`] holds them: no logarithm per segment.
-pub fn energy_areas_ln(
-    p_pa: &[f64],
-    ln_p_pa: &[f64],
-    t_k: &[f64],
-    p_floor_pa: f64,
-    out: &mut [Layer; MAX_LEVELS],
-) -> usize {
-    if !(valid_profile(p_pa, t_k) && p_floor_pa > 0.0 && p_floor_pa.is_finite())
-        || ln_p_pa.len() != p_pa.len()
-    {
-        return 0;
-    }
-    areas_of_valid(p_pa, ln_p_pa, t_k, p_floor_pa, out)
-}
-
-/// [`energy_areas_ln`] for a profile already checked.
+/// [`energy_areas`] of a profile already checked, with the logarithms of the pressures given
+/// (`ln_p_pa[i]` = ln `p_pa[i]`, as a built [`crate::diagnose::column::Profile`] holds them): no
+/// logarithm per segment.
 fn areas_of_valid(
     p_pa: &[f64],
     ln_p_pa: &[f64],
@@ -332,7 +317,8 @@ pub fn bourgouin(p_pa: &[f64], t_k: &[f64]) -> PtypeFractions {
     bourgouin_ln(p_pa, &ln_p[..p_pa.len()], t_k)
 }
 
-/// [`bourgouin`] with the logarithms of the pressures given (see [`energy_areas_ln`]).
+/// [`bourgouin`] with the logarithms of the pressures given (`ln_p_pa[i]` = ln `p_pa[i]`), as a
+/// built [`crate::diagnose::column::Profile`] holds them: no logarithm per segment.
 pub fn bourgouin_ln(p_pa: &[f64], ln_p_pa: &[f64], t_k: &[f64]) -> PtypeFractions {
     // The layer buffer is kept per thread: zeroing 1.5 kB per call was 3 % of a run.
     LAYERS.with_borrow_mut(|buf| bourgouin_in(p_pa, ln_p_pa, t_k, buf))

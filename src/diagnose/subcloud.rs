@@ -57,8 +57,8 @@ impl SubCloud {
     /// // 1000 and 900 hPa at 0 °C and 50 %, saturated cloud from 800 hPa: the trapezoid of
     /// // the point deficits (900 hPa: 1.2486 g/kg by bisection, see saturation_deficit) over
     /// // 1000–900 and 900–800 hPa, divided by g — about 2 mm of water.
-    /// let mut p = Profile { n: 3, p: [0.0; 64], ln_p: [0.0; 64], z: [0.0; 64], t: [0.0; 64], rh: [0.0; 64],
-    ///                       dt: [0.0; 64], level: [0; 64] };
+    /// let mut p = Profile { n: 3, p: [0.0; 64], ln_p: [0.0; 64], z: [0.0; 64], t: [0.0; 64],
+    ///                       rh: [0.0; 64], dt: [0.0; 64], level: [0; 64] };
     /// p.p[..3].copy_from_slice(&[100_000.0, 90_000.0, 80_000.0]);
     /// p.t[..3].copy_from_slice(&[273.15, 273.15, 268.0]);
     /// p.rh[..3].copy_from_slice(&[50.0, 50.0, 100.0]);

@@ -269,8 +269,13 @@ pub fn level_tag(p_pa: f64) -> String {
 
 /// Reads one step file, checks it against the case grid and returns its interleaved columns.
 /// `terrain` is the ground height of the case, copied into the columns (see
-/// [`StepLayout::terrain`]).
-pub fn read_step(path: &Path, statics: &StaticFields) -> Result<StepFields, FieldError> {
+/// [`StepLayout::terrain`]). The columns are written into `reuse` (see
+/// [`super::source::Source::step_reusing`]); pass an empty vector when there is none.
+pub fn read_step(
+    path: &Path,
+    statics: &StaticFields,
+    reuse: Vec<f32>,
+) -> Result<StepFields, FieldError> {
     let r = read_geotiff(path)?;
     let grid = Grid::new(r.width, r.height, r.georef).map_err(|source| FieldError::Grid {
         path: path.to_path_buf(),
@@ -349,7 +354,7 @@ pub fn read_step(path: &Path, statics: &StaticFields) -> Result<StepFields, Fiel
         rh2: get("relative_humidity@2m")?,
         precip: get("precipitation_amount")?,
     };
-    assemble(path, valid, values, &statics.terrain)
+    assemble(path, valid, values, &statics.terrain, reuse)
 }
 
 /// One field's values with the words that name it in messages (a band, or a GRIB message).
@@ -383,6 +388,7 @@ pub fn assemble(
     valid: DateTime<Utc>,
     v: StepValues<'_>,
     terrain: &[f32],
+    reuse: Vec<f32>,
 ) -> Result<StepFields, FieldError> {
     // The surface point takes one place of a profile (diagnose::ptype::MAX_LEVELS).
     let most = crate::diagnose::ptype::MAX_LEVELS - 1;
@@ -459,7 +465,13 @@ pub fn assemble(
     // number of threads.
     const CELLS_PER_BLOCK: usize = 16_384;
     let nlev = layout.levels_pa.len();
-    let mut columns = vec![0f32; n * nvar];
+    // Every value of every column is written below, so a buffer of the right size is used as
+    // it is.
+    let mut columns = reuse;
+    if columns.len() != n * nvar {
+        columns.clear();
+        columns.resize(n * nvar, 0.0);
+    }
     let not_rising = columns
         .par_chunks_mut(CELLS_PER_BLOCK * nvar)
         .enumerate()

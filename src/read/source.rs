@@ -47,7 +47,13 @@ pub trait Source: Sync {
     /// Valid time of step `k` when known before reading it.
     fn valid_time(&self, k: usize) -> Option<DateTime<Utc>>;
     /// The storm-attached fields of step `k` (0-based).
-    fn step(&self, k: usize) -> Result<StepFields, SourceError>;
+    fn step(&self, k: usize) -> Result<StepFields, SourceError> {
+        self.step_reusing(k, Vec::new())
+    }
+    /// [`Source::step`], interleaving the columns into `reuse` (the columns of a step no longer
+    /// held): a continental step's columns take hundreds of MB, and a fresh allocation of that
+    /// size costs the kernel a page fault and a cleared page every 4 KiB, every step.
+    fn step_reusing(&self, k: usize, reuse: Vec<f32>) -> Result<StepFields, SourceError>;
     /// Sea-level pressure (Pa, row-major, row 0 north) at step `k`, when the source has it.
     fn mslp(&self, k: usize) -> Result<Option<Vec<f32>>, SourceError>;
     /// Every file read, for the manifest.
@@ -80,8 +86,8 @@ impl Source for GeoTiffSource {
     fn valid_time(&self, _k: usize) -> Option<DateTime<Utc>> {
         None
     }
-    fn step(&self, k: usize) -> Result<StepFields, SourceError> {
-        Ok(read_step(&self.steps[k], &self.statics)?)
+    fn step_reusing(&self, k: usize, reuse: Vec<f32>) -> Result<StepFields, SourceError> {
+        Ok(read_step(&self.steps[k], &self.statics, reuse)?)
     }
     fn mslp(&self, k: usize) -> Result<Option<Vec<f32>>, SourceError> {
         let r = read_geotiff(&self.steps[k]).map_err(FieldError::from)?;

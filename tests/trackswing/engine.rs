@@ -40,7 +40,7 @@ fn zero_offset_reproduces_the_unshifted_model_exactly() {
     let mut liquid = vec![0.0f32; st.grid.len()];
     let mut snow = vec![0.0f32; st.grid.len()];
     for p in &c.member.steps {
-        let step = read_step(p, &st).unwrap();
+        let step = read_step(p, &st, Vec::new()).unwrap();
         let nv = step.layout.nvar();
         for i in 0..st.grid.len() {
             let col = &step.columns[i * nv..(i + 1) * nv];

@@ -804,7 +804,7 @@ impl Source for GdalSource {
         self.plan.get(k).map(|s| s.valid)
     }
 
-    fn step(&self, k: usize) -> Result<StepFields, SourceError> {
+    fn step_reusing(&self, k: usize, reuse: Vec<f32>) -> Result<StepFields, SourceError> {
         let s = &self.plan[k];
         let mut ids = Vec::new();
         for (_, t, z, h) in &s.levels {
@@ -875,7 +875,13 @@ impl Source for GdalSource {
             },
         };
         let path = self.datasets[self.entries[s.levels[0].1].ds].file.clone();
-        Ok(assemble(&path, s.valid, values, &self.statics.terrain)?)
+        Ok(assemble(
+            &path,
+            s.valid,
+            values,
+            &self.statics.terrain,
+            reuse,
+        )?)
     }
 
     fn mslp(&self, k: usize) -> Result<Option<Vec<f32>>, SourceError> {

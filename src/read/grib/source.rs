@@ -787,7 +787,7 @@ impl Source for GribSource {
         self.plan.get(k).map(|s| s.valid)
     }
 
-    fn step(&self, k: usize) -> Result<StepFields, SourceError> {
+    fn step_reusing(&self, k: usize, reuse: Vec<f32>) -> Result<StepFields, SourceError> {
         let s = &self.plan[k];
         let mut need: Vec<usize> = s
             .levels
@@ -919,7 +919,7 @@ impl Source for GribSource {
             },
         };
         let path = self.cat.files[self.cat.entries[s.t_first].file].clone();
-        Ok(assemble(&path, s.valid, values, terrain)?)
+        Ok(assemble(&path, s.valid, values, terrain, reuse)?)
     }
 
     fn mslp(&self, k: usize) -> Result<Option<Vec<f32>>, SourceError> {

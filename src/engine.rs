@@ -154,7 +154,9 @@ pub struct RunResult {
 /// Wall time of the engine's stages, seconds.
 #[derive(Clone, Copy, Debug, Default, PartialEq)]
 pub struct Timings {
-    /// Reading and checking the inputs.
+    /// Waiting for the inputs to be read and checked: the first step, any step read ahead of
+    /// time for a timing offset, and whatever part of the next step's read the previous step's
+    /// scenarios did not cover (steps are read beside the engine).
     pub read_s: f64,
     /// Shifting, diagnosing and accumulating every scenario.
     pub compute_s: f64,
@@ -232,84 +234,108 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
     let mut window = StepWindow::new(source.as_ref());
     let reach = GridReach::of(&grid);
     let timing_offsets = distinct(scenarios.iter().map(|s| s.timing_h));
+    // Steps are read beside the engine, on threads of their own: a step's read (decoding,
+    // checks) overlaps the previous step's scenarios and fills the cores the engine leaves idle.
+    let read_pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(threads.max(1))
+        .build()
+        .map_err(|_| EngineError::Threads(threads))?;
     progress.start("time steps", source.step_count() as u64);
-    for k in 0..source.step_count() {
-        let clock = std::time::Instant::now();
-        // Sources decode a step's fields in parallel: on the run's threads too.
-        let samples: Vec<Option<TimeSample>> = pool.install(|| {
-            window.load_through(k)?;
+    std::thread::scope(|scope| -> Result<(), EngineError> {
+        for k in 0..source.step_count() {
+            let clock = std::time::Instant::now();
+            // Sources decode a step's fields in parallel: on the run's threads too.
+            let samples: Vec<Option<TimeSample>> = pool.install(|| {
+                window.load_through(k)?;
+                let t_k = window.times[k];
+                timing_offsets
+                    .iter()
+                    .map(|&h| window.sample(t_k - hours(h)))
+                    .collect::<Result<_, EngineError>>()
+            })?;
             let t_k = window.times[k];
-            timing_offsets
+            let first_needed = samples
                 .iter()
-                .map(|&h| window.sample(t_k - hours(h)))
-                .collect::<Result<_, EngineError>>()
-        })?;
-        let t_k = window.times[k];
-        let first_needed = samples
-            .iter()
-            .flatten()
-            .map(|x| x.index)
-            .min()
-            .unwrap_or(k)
-            .min(k);
-        window.forget_before(first_needed);
-        timings.read_s += clock.elapsed().as_secs_f64();
-        let clock = std::time::Instant::now();
-        let path = window.fields(k).path.clone();
-        if case.methods.dry_air {
-            // Memos are filled in parallel: on the run's threads.
-            pool.install(|| {
-                for s in &scenarios {
-                    let ti = timing_offsets
-                        .iter()
-                        .position(|h| *h == s.timing_h)
-                        .expect("every timing is listed");
-                    if let Some(sample) = samples[ti] {
-                        window.prepare_moisture(sample.index, s.warm_bias_k);
-                        if sample.next > 0.0 {
-                            window.prepare_moisture(sample.index + 1, s.warm_bias_k);
+                .flatten()
+                .map(|x| x.index)
+                .min()
+                .unwrap_or(k)
+                .min(k);
+            window.forget_before(first_needed);
+            let ahead = window.next_to_read().map(|(m, buf)| {
+                let (src, read_pool) = (source.as_ref(), &read_pool);
+                (
+                    m,
+                    scope.spawn(move || read_pool.install(|| fetch(src, m, buf))),
+                )
+            });
+            timings.read_s += clock.elapsed().as_secs_f64();
+            let clock = std::time::Instant::now();
+            let path = window.fields(k).path.clone();
+            if case.methods.dry_air {
+                // Memos are filled in parallel: on the run's threads.
+                pool.install(|| {
+                    for s in &scenarios {
+                        let ti = timing_offsets
+                            .iter()
+                            .position(|h| *h == s.timing_h)
+                            .expect("every timing is listed");
+                        if let Some(sample) = samples[ti] {
+                            window.prepare_moisture(sample.index, s.warm_bias_k);
+                            if sample.next > 0.0 {
+                                window.prepare_moisture(sample.index + 1, s.warm_bias_k);
+                            }
                         }
                     }
-                }
+                });
+            }
+            let mut inputs = Vec::with_capacity(scenarios.len());
+            for (si, s) in scenarios.iter().enumerate() {
+                let ti = timing_offsets
+                    .iter()
+                    .position(|h| *h == s.timing_h)
+                    .expect("every timing is listed");
+                let Some(sample) = samples[ti] else {
+                    totals[si].uncovered_steps += 1;
+                    inputs.push(None);
+                    continue;
+                };
+                let at = t_k - hours(s.timing_h);
+                let shift = scenario_shift(track.as_ref(), s, at, k, &path)?;
+                inputs.push(Some(window.scenario_step(k, sample, shift, s)));
+            }
+            centres.push(track.as_ref().and_then(|t| t.position_at(t_k)));
+            let layout = window.layout().clone();
+            let counts = pool.install(|| {
+                step_all_scenarios(
+                    &grid,
+                    &reach,
+                    &statics.terrain,
+                    &layout,
+                    &inputs,
+                    &case.taper,
+                    &case.methods,
+                    (k + 1) as u32,
+                    &mut totals,
+                )
             });
+            for (t, o) in totals.iter_mut().zip(counts) {
+                t.outside += o.outside;
+                t.undefined += o.undefined;
+            }
+            timings.compute_s += clock.elapsed().as_secs_f64();
+            if let Some((m, reading)) = ahead {
+                let clock = std::time::Instant::now();
+                let read = reading
+                    .join()
+                    .unwrap_or_else(|panic| std::panic::resume_unwind(panic));
+                window.push(m, read)?;
+                timings.read_s += clock.elapsed().as_secs_f64();
+            }
+            progress.advance(1);
         }
-        let mut inputs = Vec::with_capacity(scenarios.len());
-        for (si, s) in scenarios.iter().enumerate() {
-            let ti = timing_offsets
-                .iter()
-                .position(|h| *h == s.timing_h)
-                .expect("every timing is listed");
-            let Some(sample) = samples[ti] else {
-                totals[si].uncovered_steps += 1;
-                inputs.push(None);
-                continue;
-            };
-            let at = t_k - hours(s.timing_h);
-            let shift = scenario_shift(track.as_ref(), s, at, k, &path)?;
-            inputs.push(Some(window.scenario_step(k, sample, shift, s)));
-        }
-        centres.push(track.as_ref().and_then(|t| t.position_at(t_k)));
-        let layout = window.layout().clone();
-        let counts = pool.install(|| {
-            step_all_scenarios(
-                &grid,
-                &reach,
-                &statics.terrain,
-                &layout,
-                &inputs,
-                &case.taper,
-                &case.methods,
-                (k + 1) as u32,
-                &mut totals,
-            )
-        });
-        for (t, o) in totals.iter_mut().zip(counts) {
-            t.outside += o.outside;
-            t.undefined += o.undefined;
-        }
-        timings.compute_s += clock.elapsed().as_secs_f64();
-        progress.advance(1);
-    }
+        Ok(())
+    })?;
     progress.finish();
     let valid_times = std::mem::take(&mut window.times);
     let layout = window.layout.take().expect("a case has at least one step");
@@ -540,7 +566,6 @@ struct Held {
 /// and increasing valid times, and forgotten once no later output step can sample them.
 pub struct StepWindow<'a> {
     source: &'a dyn Source,
-    nx: usize,
     /// Valid time of every step read so far.
     pub times: Vec<DateTime<Utc>>,
     /// Held steps, with their indices and where they have precipitation.
@@ -556,7 +581,6 @@ impl<'a> StepWindow<'a> {
     /// A window over the steps of `source`.
     pub fn new(source: &'a dyn Source) -> Self {
         Self {
-            nx: source.statics().grid.nx,
             source,
             times: Vec::new(),
             held: VecDeque::new(),
@@ -579,29 +603,37 @@ impl<'a> StepWindow<'a> {
             return Ok(false);
         }
         let reuse = std::mem::take(&mut self.spare_columns);
-        let step = self
-            .source
-            .step_reusing(k, reuse)
-            .map_err(|e| EngineError::StepField {
-                step: k + 1,
-                source: Box::new(e),
-            })?;
+        let read = fetch(self.source, k, reuse);
+        self.push(k, read)?;
+        Ok(true)
+    }
+
+    /// The next step to read and a buffer for its columns, when there is one: for a read run
+    /// beside the engine ([`fetch`], then [`StepWindow::push`]).
+    pub fn next_to_read(&mut self) -> Option<(usize, Vec<f32>)> {
+        let k = self.times.len();
+        (k < self.source.step_count()).then(|| (k, std::mem::take(&mut self.spare_columns)))
+    }
+
+    /// Takes step `k`, read by [`fetch`], as the next step: checked against the steps before
+    /// it and held.
+    pub fn push(
+        &mut self,
+        k: usize,
+        read: Result<(StepFields, WetRows), EngineError>,
+    ) -> Result<(), EngineError> {
+        debug_assert_eq!(k, self.times.len(), "steps are taken in order");
+        let (step, wet) = read?;
         check_step(&step.path, &step, self.layout.as_ref(), self.times.last())?;
         self.times.push(step.valid);
         self.layout.get_or_insert_with(|| step.layout.clone());
-        let wet = WetRows::of(
-            &step.columns,
-            step.layout.nvar(),
-            step.layout.precip(),
-            self.nx,
-        );
         self.held.push_back(Held {
             index: k,
             fields: step,
             wet,
             moisture: Vec::new(),
         });
-        Ok(true)
+        Ok(())
     }
 
     /// Reads up to and including step `k`.
@@ -726,6 +758,24 @@ impl<'a> StepWindow<'a> {
             moisture: [memo(held, bias), later.and_then(|h| memo(h, bias))],
         }
     }
+}
+
+/// Reads step `k` of `source` (its columns into `reuse`) and finds its wet cells: the part of
+/// taking a step that can run beside the engine.
+pub fn fetch(
+    source: &dyn Source,
+    k: usize,
+    reuse: Vec<f32>,
+) -> Result<(StepFields, WetRows), EngineError> {
+    let step = source
+        .step_reusing(k, reuse)
+        .map_err(|e| EngineError::StepField {
+            step: k + 1,
+            source: Box::new(e),
+        })?;
+    let nx = source.statics().grid.nx;
+    let wet = WetRows::of(&step.columns, step.layout.nvar(), step.layout.precip(), nx);
+    Ok((step, wet))
 }
 
 fn check_step(
@@ -1235,14 +1285,15 @@ fn step_block(
     let mut screen = DryScreen::new(grid, reach, input);
     for i in 0..rows.liquid.len() {
         let c = start + i;
-        if rows.liquid[i].is_nan() {
-            continue;
-        }
         if terrain[c].is_nan() {
-            rows.set_missing(i);
+            if !rows.liquid[i].is_nan() {
+                rows.set_missing(i);
+            }
             continue;
         }
-        if screen.is_dry(c % grid.nx, c / grid.nx) {
+        // The screen before the totals: a dry cell-step reads nothing of the scenario's
+        // totals, which on a continental grid are gigabytes streamed from memory every step.
+        if screen.is_dry(c % grid.nx, c / grid.nx) || rows.liquid[i].is_nan() {
             continue;
         }
         let col = &mut buf[..nvar];

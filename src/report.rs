@@ -83,7 +83,7 @@ pub fn summary(
     let evals = (r.scenarios.len() * r.valid_times.len() * r.grid.len()) as f64;
     let _ = writeln!(
         out,
-        "{} scenarios × {} steps × {}×{} cells in {:.2} s (read {:.2} s, shift+diagnose {:.2} s, write {:.2} s; {:.3e} cell·step·scenario/s)",
+        "{} scenarios × {} steps × {}×{} cells in {:.2} s (waiting for input {:.2} s, shift+diagnose {:.2} s, write {:.2} s; {:.3e} cell·step·scenario/s)",
         r.scenarios.len(),
         r.valid_times.len(),
         r.grid.nx,

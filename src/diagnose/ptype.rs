@@ -213,13 +213,16 @@ pub fn energy_areas(
     for (l, p) in ln_p.iter_mut().zip(p_pa) {
         *l = p.ln();
     }
-    areas_of_valid(p_pa, &ln_p[..p_pa.len()], t_k, p_floor_pa, out)
+    areas_of_valid::<true>(p_pa, &ln_p[..p_pa.len()], t_k, p_floor_pa, out)
 }
 
 /// [`energy_areas`] of a profile already checked, with the logarithms of the pressures given
 /// (`ln_p_pa[i]` = ln `p_pa[i]`, as a built [`crate::diagnose::column::Profile`] holds them): no
-/// logarithm per segment.
-fn areas_of_valid(
+/// logarithm per segment. Without `PRESSURES`, a layer that starts or ends where a segment
+/// crosses 0 °C takes the segment's end pressure there instead of the crossing's: the areas,
+/// all that Bourgouin's rules read, are the same bit for bit, and no `exp` is taken per
+/// crossing.
+fn areas_of_valid<const PRESSURES: bool>(
     p_pa: &[f64],
     ln_p_pa: &[f64],
     t_k: &[f64],
@@ -247,7 +250,11 @@ fn areas_of_valid(
             // 0 °C at the share `frac` of the segment's ln p: each piece's area is its mean
             // temperature excess times its share of ln(p_b/p_t).
             let frac = d_b / (d_b - d_t);
-            let p_x = p_b * (-frac * span).exp();
+            let p_x = if PRESSURES {
+                p_b * (-frac * span).exp()
+            } else {
+                p_b
+            };
             let lower = RD * 0.5 * d_b * (frac * span);
             let upper = RD * 0.5 * d_t * ((1.0 - frac) * span);
             push_piece(out, n, p_b, p_x, lower).and_then(|m| push_piece(out, m, p_x, p_t, upper))
@@ -381,7 +388,7 @@ fn fractions_of_valid(
     t_k: &[f64],
     buf: &mut [Layer; MAX_LEVELS],
 ) -> PtypeFractions {
-    let n = areas_of_valid(p_pa, ln_p_pa, t_k, BOURGOUIN_FLOOR_PA, buf);
+    let n = areas_of_valid::<false>(p_pa, ln_p_pa, t_k, BOURGOUIN_FLOOR_PA, buf);
     if n == 0 {
         return PtypeFractions::nan();
     }

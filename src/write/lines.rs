@@ -18,6 +18,16 @@ pub const RAIN_SNOW_FRACTION: f64 = 0.5;
 
 use super::polygons::DECIMALS;
 
+/// The rain–snow line of every scenario, in scenario order (the scenarios in parallel): the
+/// lines file and the maps both draw them.
+pub fn rain_snow_lines(r: &RunResult) -> Result<Vec<Vec<Vec<[f64; 2]>>>, WriteError> {
+    use rayon::prelude::*;
+    r.totals
+        .par_iter()
+        .map(|t| isolines(&r.grid, &t.snow_fraction(), RAIN_SNOW_FRACTION))
+        .collect()
+}
+
 /// Lines where `field` crosses `level`, as lon/lat line strings, cut where `field` is undefined.
 pub fn isolines(grid: &Grid, field: &[f32], level: f64) -> Result<Vec<Vec<[f64; 2]>>, WriteError> {
     let (nx, ny) = (grid.nx, grid.ny);
@@ -106,10 +116,14 @@ fn finish(mut piece: Vec<[f64; 2]>) -> Vec<Vec<[f64; 2]>> {
 }
 
 /// Writes `rain_snow_lines.geojson`: one MultiLineString feature per scenario.
-pub fn write_rain_snow_lines(dir: &Path, r: &RunResult) -> Result<Written, WriteError> {
+pub fn write_rain_snow_lines(
+    dir: &Path,
+    r: &RunResult,
+    lines: &[Vec<Vec<[f64; 2]>>],
+) -> Result<Written, WriteError> {
     let mut features = Vec::new();
-    for (i, (s, t)) in r.scenarios.iter().zip(&r.totals).enumerate() {
-        let lines = isolines(&r.grid, &t.snow_fraction(), RAIN_SNOW_FRACTION)?;
+    for (i, (s, lines)) in r.scenarios.iter().zip(lines).enumerate() {
+        let lines = lines.clone();
         let mut props = JsonObject::new();
         props.insert("scenario".into(), i.into());
         props.insert("cross_km".into(), s.cross_km.into());

@@ -659,31 +659,19 @@ pub fn write_maps(
     ctx: &MapContext,
     inputs: &MapInputs,
     ranked_towns: &[TownDecision],
+    rain_snow: &[Vec<Vec<[f64; 2]>>],
 ) -> Result<Vec<Written>, WriteError> {
     let u = ctx.units;
     let su = u.snow_unit();
     let frame = Frame::of(&r.grid);
-    let mut lines = Vec::new();
-    for (i, t) in r.totals.iter().enumerate() {
-        if i != r.baseline {
-            lines.push((
-                false,
-                super::lines::isolines(
-                    &r.grid,
-                    &t.snow_fraction(),
-                    super::lines::RAIN_SNOW_FRACTION,
-                )?,
-            ));
-        }
-    }
-    lines.push((
-        true,
-        super::lines::isolines(
-            &r.grid,
-            &r.totals[r.baseline].snow_fraction(),
-            super::lines::RAIN_SNOW_FRACTION,
-        )?,
-    ));
+    // Every scenario's rain–snow line, the baseline's last (drawn on top).
+    let mut lines: Vec<(bool, Vec<Vec<[f64; 2]>>)> = rain_snow
+        .iter()
+        .enumerate()
+        .filter(|(i, _)| *i != r.baseline)
+        .map(|(_, l)| (false, l.clone()))
+        .collect();
+    lines.push((true, rain_snow[r.baseline].clone()));
     let track = r
         .track
         .as_ref()

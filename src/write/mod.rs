@@ -150,6 +150,7 @@ fn write_decision_products(
     dir: &Path,
     case: &crate::case::Case,
     r: &crate::engine::RunResult,
+    rain_snow: &[Vec<Vec<[f64; 2]>>],
 ) -> Result<Vec<Written>, WriteError> {
     let weights = crate::summarise::weights::scenario_weights(&case.prior, &r.scenarios)?;
     let meta = vec![
@@ -194,7 +195,14 @@ fn write_decision_products(
         snow_thresholds: &case.snow_thresholds,
         prior_words: prior_words(&case.prior),
     };
-    files.extend(maps::write_maps(dir, r, &ctx, &map_inputs, &ranked)?);
+    files.extend(maps::write_maps(
+        dir,
+        r,
+        &ctx,
+        &map_inputs,
+        &ranked,
+        rain_snow,
+    )?);
     Ok(files)
 }
 
@@ -235,7 +243,8 @@ fn write_set(
         raster_type: case.raster_type,
     };
     let mut files = rasters::write_rasters(dir, r, &settings, &meta)?;
-    files.push(lines::write_rain_snow_lines(dir, r)?);
+    let rain_snow = lines::rain_snow_lines(r)?;
+    files.push(lines::write_rain_snow_lines(dir, r, &rain_snow)?);
     files.push(zones::write_transition_zones(dir, r)?);
     files.push(zones::write_flip_zone(dir, r)?);
     let snowfall: Vec<&[f32]> = r.totals.iter().map(|t| t.snowfall.as_slice()).collect();
@@ -275,7 +284,7 @@ fn write_set(
             valid_times: &r.valid_times,
         },
     )?);
-    files.extend(write_decision_products(dir, case, r)?);
+    files.extend(write_decision_products(dir, case, r, &rain_snow)?);
     if case.report {
         // Listed now, written right after the manifest it is built from.
         files.push(report::entry());

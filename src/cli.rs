@@ -63,7 +63,8 @@ pub struct Common {
     /// Along-track offsets in km, positive ahead of the storm: a value, a list or a range.
     #[arg(long, value_name = "RANGE", allow_hyphen_values = true)]
     pub along: Option<String>,
-    /// Worker threads (default: all cores). Results are identical for any number.
+    /// Worker threads (default: all cores); the next step is read beside them on as many
+    /// again. Results are identical for any number.
     #[arg(long, value_name = "N")]
     pub threads: Option<usize>,
     /// Units of the outputs: metric (cm of snow, mm of liquid) or us (inches).

@@ -229,6 +229,18 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
         .map_err(|_| EngineError::Threads(threads))?;
 
     let mut totals: Vec<Totals> = scenarios.iter().map(|_| Totals::new(n)).collect();
+    // A cell without terrain is missing in every scenario from the start: the engine passes
+    // over a screened cell without looking at it (see step_all_scenarios).
+    for (c, _) in statics
+        .terrain
+        .iter()
+        .enumerate()
+        .filter(|(_, z)| z.is_nan())
+    {
+        for t in &mut totals {
+            t.rows_mut(c, c + 1).set_missing(0);
+        }
+    }
     let mut centres = Vec::new();
     let mut timings = Timings::default();
     let mut window = StepWindow::new(source.as_ref());
@@ -1039,9 +1051,19 @@ impl<'a> DryScreen<'a> {
 
     /// True when cell (`col`, `row`) is certainly dry in this scenario step: every source
     /// point the shift can give it lies inside the grid and away from all precipitation.
-    #[inline]
+    #[cfg(test)]
     fn is_dry(&mut self, col: usize, row: usize) -> bool {
+        let (spans, n) = self.open_spans(row);
+        !spans[..n].iter().any(|&(a, b)| (a..b).contains(&col)) || self.boxed_dry(col, row)
+    }
+
+    /// The columns of `row` that the first stage (the rows' wet hull widened by the reach)
+    /// cannot pass over, as up to three sorted, disjoint ranges `[a, b)`: the west margin, the
+    /// hull, the east margin. Every other cell of the row is certainly dry.
+    #[inline]
+    fn open_spans(&mut self, row: usize) -> ([(usize, usize); 3], usize) {
         let (rc, rr) = self.reach;
+        let nx = self.nx;
         if row != self.row {
             self.row = row;
             self.hull = (row >= rr && row + rr < self.ny).then(|| {
@@ -1053,26 +1075,46 @@ impl<'a> DryScreen<'a> {
                     .reduce(|(a, b), (c, d)| (a.min(c), b.max(d)))
             });
         }
-        let beside_hull = match self.hull {
+        let mut parts = match self.hull {
             // Rows within reach of the north or south edge: always sampled.
-            None => return false,
-            Some(hull) => {
-                col >= rc && col + rc < self.nx && hull.is_none_or(|(lo, hi)| col < lo || col > hi)
-            }
+            None => [(0, nx), (nx, nx), (nx, nx)],
+            Some(hull) => [
+                (0, rc.min(nx)),
+                hull.map_or((nx, nx), |(lo, hi)| (lo.min(nx), (hi + 1).min(nx))),
+                (nx.saturating_sub(rc), nx),
+            ],
         };
-        // Within the hull: no wet cell in the box the source point can reach.
-        beside_hull || {
-            let (left, right, up, down) = self.boxed;
-            col >= left
-                && col + right < self.nx
-                && row >= up
-                && row + down < self.ny
-                && self
-                    .wet
-                    .iter()
-                    .flatten()
-                    .all(|w| w.count(row - up, row + down, col - left, col + right) == 0)
+        parts.sort_unstable();
+        let mut out = [(0, 0); 3];
+        let mut n = 0;
+        for (a, b) in parts {
+            if a >= b {
+                continue;
+            }
+            if n > 0 && a <= out[n - 1].1 {
+                out[n - 1].1 = out[n - 1].1.max(b);
+            } else {
+                out[n] = (a, b);
+                n += 1;
+            }
         }
+        (out, n)
+    }
+
+    /// The second stage, for a cell the first could not pass over: true when no wet cell lies
+    /// in the box its source point can reach, and that box lies inside the grid.
+    #[inline]
+    fn boxed_dry(&self, col: usize, row: usize) -> bool {
+        let (left, right, up, down) = self.boxed;
+        col >= left
+            && col + right < self.nx
+            && row >= up
+            && row + down < self.ny
+            && self
+                .wet
+                .iter()
+                .flatten()
+                .all(|w| w.count(row - up, row + down, col - left, col + right) == 0)
     }
 }
 
@@ -1086,7 +1128,8 @@ fn levels_text(l: &StepLayout) -> String {
 }
 
 /// One step for every scenario: the parallel seam. `inputs[s]` is `None` for a scenario that
-/// skips this step. `step` is the 1-based output step, recorded as the onset of snow. Returns,
+/// skips this step. A cell whose `terrain` is missing must already be missing in `totals`
+/// ([`run`] marks them): a cell the dry screen passes over is not looked at. `step` is the 1-based output step, recorded as the onset of snow. Returns,
 /// per scenario, how many cells took their values from outside the grid and how many the
 /// methods could not diagnose.
 #[allow(clippy::too_many_arguments)]
@@ -1283,47 +1326,57 @@ fn step_block(
     let ip = layout.precip();
     let mut counts = BlockCounts::default();
     let mut screen = DryScreen::new(grid, reach, input);
-    for i in 0..rows.liquid.len() {
-        let c = start + i;
-        if terrain[c].is_nan() {
-            if !rows.liquid[i].is_nan() {
-                rows.set_missing(i);
-            }
-            continue;
-        }
-        // The screen before the totals: a dry cell-step reads nothing of the scenario's
-        // totals, which on a continental grid are gigabytes streamed from memory every step.
-        if screen.is_dry(c % grid.nx, c / grid.nx) || rows.liquid[i].is_nan() {
-            continue;
-        }
-        let col = &mut buf[..nvar];
-        let (falling, at) =
-            match cell_column(grid, input, nvar, ip, c, taper, col, &mut later[..nvar]) {
-                Sampled::Outside => {
-                    counts.outside += 1;
+    let nx = grid.nx;
+    let end = start + rows.liquid.len();
+    // Row by row, only the columns the screen's first stage cannot pass over: a dry cell-step
+    // costs nothing, and reads nothing of the scenario's totals.
+    let mut row_start = start;
+    while row_start < end {
+        let row = row_start / nx;
+        let row_end = ((row + 1) * nx).min(end);
+        let (spans, n) = screen.open_spans(row);
+        for &(a, b) in &spans[..n] {
+            let (from, to) = ((row * nx + a).max(row_start), (row * nx + b).min(row_end));
+            for (c, &ground_m) in terrain.iter().enumerate().take(to).skip(from) {
+                let i = c - start;
+                if rows.liquid[i].is_nan() || screen.boxed_dry(c - row * nx, row) {
+                    continue;
+                }
+                if ground_m.is_nan() {
                     rows.set_missing(i);
                     continue;
                 }
-                Sampled::Dry => continue,
-                Sampled::Falling(f, w) => (f, w),
-            };
-        let cell = CellStep {
-            col,
-            falling,
-            ground_m: terrain[c],
-            warm_bias_k: input.warm_bias_k,
-            step,
-            source: Some(SourceAt {
-                input,
-                w: at,
-                nx: grid.nx,
-            }),
-        };
-        if accumulate_cell(&cell, layout, methods, rows, i, &mut profile, &mut sub)
-            == Err(ColumnMissing::Method)
-        {
-            counts.undefined += 1;
+                let col = &mut buf[..nvar];
+                let (falling, at) =
+                    match cell_column(grid, input, nvar, ip, c, taper, col, &mut later[..nvar]) {
+                        Sampled::Outside => {
+                            counts.outside += 1;
+                            rows.set_missing(i);
+                            continue;
+                        }
+                        Sampled::Dry => continue,
+                        Sampled::Falling(f, w) => (f, w),
+                    };
+                let cell = CellStep {
+                    col,
+                    falling,
+                    ground_m,
+                    warm_bias_k: input.warm_bias_k,
+                    step,
+                    source: Some(SourceAt {
+                        input,
+                        w: at,
+                        nx: grid.nx,
+                    }),
+                };
+                if accumulate_cell(&cell, layout, methods, rows, i, &mut profile, &mut sub)
+                    == Err(ColumnMissing::Method)
+                {
+                    counts.undefined += 1;
+                }
+            }
         }
+        row_start = row_end;
     }
     counts
 }

@@ -173,3 +173,74 @@ fn one_and_two_threads_give_identical_results() {
         assert_eq!(x.outside, y.outside);
     }
 }
+
+/// Rewrites a GeoTIFF of the synthetic case with `edit` applied to the band described `band`.
+fn edit_band(path: &std::path::Path, band: &str, edit: impl Fn(usize, &mut f32)) {
+    use trackswing::geotiff::{
+        read_geotiff, write_geotiff, BandSpec, SampleEncoding, WriteOptions,
+    };
+    let mut r = read_geotiff(path).unwrap();
+    let b = r.descriptions.iter().position(|d| d == band).unwrap();
+    r.bands[b]
+        .iter_mut()
+        .enumerate()
+        .for_each(|(i, v)| edit(i, v));
+    let specs: Vec<BandSpec> = r
+        .bands
+        .iter()
+        .zip(&r.descriptions)
+        .map(|(data, d)| BandSpec {
+            data,
+            description: d.clone(),
+            metadata: vec![],
+        })
+        .collect();
+    let opts = WriteOptions {
+        encoding: SampleEncoding::Float32,
+        nodata: -9999.0,
+        dataset_metadata: r.dataset_metadata.clone(),
+        band_scaling: vec![],
+    };
+    write_geotiff(path, r.width, r.height, &r.georef, &specs, &opts).unwrap();
+}
+
+/// A cell without terrain is missing (NaN) in every scenario, wherever it lies: inside the
+/// storm, and far from any precipitation, where the dry screen passes the cell over without
+/// looking at it.
+#[test]
+fn cells_without_terrain_are_missing_in_every_scenario() {
+    let d = tempfile::tempdir().unwrap();
+    let s = Synthetic::default();
+    let case = write_case(d.path(), &s, "");
+    // Nothing falls east of column 30 at any step, so cells there far from the storm are
+    // screened dry for every offset.
+    for k in 0..s.steps {
+        let step = std::fs::read_dir(d.path().join("f"))
+            .unwrap()
+            .map(|e| e.unwrap().path())
+            .filter(|p| p.extension().is_some_and(|e| e == "tif"))
+            .nth(k)
+            .unwrap();
+        edit_band(&step, "precipitation_amount", |i, v| {
+            if i % s.nx >= 30 {
+                *v = 0.0;
+            }
+        });
+    }
+    let (wet_cell, dry_cell) = (15 * s.nx + 12, 15 * s.nx + 35);
+    edit_band(&d.path().join("terrain.tif"), "surface_altitude", |i, v| {
+        if i == wet_cell || i == dry_cell {
+            *v = f32::NAN;
+        }
+    });
+    let r = run(&load(&case, "-20:20:20", "0"), 2, &Silent).unwrap();
+    assert_eq!(r.totals.len(), 3);
+    for t in &r.totals {
+        for c in [wet_cell, dry_cell] {
+            assert!(t.liquid[c].is_nan() && t.snowfall[c].is_nan(), "cell {c}");
+        }
+        // The neighbours of the dry cell are computed: dry, not missing.
+        assert_eq!(t.liquid[dry_cell - 1], 0.0);
+        assert!(t.liquid[wet_cell - 1] > 0.0);
+    }
+}

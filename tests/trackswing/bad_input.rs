@@ -1,7 +1,7 @@
 //! Bad input through the real binary: exit code 3, one message naming the file and what is
 //! wrong, and no output written.
 
-use super::support::{bin, write_case, Synthetic};
+use super::support::{bin, rewrite, write_case, Synthetic};
 use std::path::Path;
 
 fn fails_cleanly(case: &Path, args: &[&str], expect: &[&str]) {
@@ -36,35 +36,6 @@ fn missing_file() {
     let (d, c) = case("");
     std::fs::remove_file(d.path().join("track.csv")).unwrap();
     fails_cleanly(&c, &[], &["case.toml", "member[0].track", "does not exist"]);
-}
-
-/// Rewrites a GeoTIFF band by band: `f` returns the new values, or `None` to drop the band.
-fn rewrite(p: &Path, f: impl Fn(&str, &[f32]) -> Option<Vec<f32>>) {
-    use trackswing::geotiff::{
-        read_geotiff, write_geotiff, BandSpec, SampleEncoding, WriteOptions,
-    };
-    let r = read_geotiff(p).unwrap();
-    let kept: Vec<(String, Vec<f32>)> = r
-        .bands
-        .iter()
-        .zip(&r.descriptions)
-        .filter_map(|(b, desc)| f(desc, b).map(|v| (desc.clone(), v)))
-        .collect();
-    let specs: Vec<BandSpec> = kept
-        .iter()
-        .map(|(desc, b)| BandSpec {
-            data: b,
-            description: desc.clone(),
-            metadata: vec![],
-        })
-        .collect();
-    let opts = WriteOptions {
-        encoding: SampleEncoding::Float32,
-        nodata: -9999.0,
-        dataset_metadata: r.dataset_metadata.clone(),
-        band_scaling: vec![],
-    };
-    write_geotiff(p, r.width, r.height, &r.georef, &specs, &opts).unwrap();
 }
 
 #[test]

@@ -1,7 +1,7 @@
 //! The engine on synthetic cases: exactness of the baseline, translation, monotonicity,
 //! determinism across thread counts.
 
-use super::support::{write_case, Synthetic};
+use super::support::{rewrite, write_case, Synthetic};
 use trackswing::case::{Case, Overrides};
 use trackswing::engine::run;
 use trackswing::progress::Silent;
@@ -174,34 +174,15 @@ fn one_and_two_threads_give_identical_results() {
     }
 }
 
-/// Rewrites a GeoTIFF of the synthetic case with `edit` applied to the band described `band`.
+/// Rewrites a GeoTIFF with `edit` applied to the band described `band`.
 fn edit_band(path: &std::path::Path, band: &str, edit: impl Fn(usize, &mut f32)) {
-    use trackswing::geotiff::{
-        read_geotiff, write_geotiff, BandSpec, SampleEncoding, WriteOptions,
-    };
-    let mut r = read_geotiff(path).unwrap();
-    let b = r.descriptions.iter().position(|d| d == band).unwrap();
-    r.bands[b]
-        .iter_mut()
-        .enumerate()
-        .for_each(|(i, v)| edit(i, v));
-    let specs: Vec<BandSpec> = r
-        .bands
-        .iter()
-        .zip(&r.descriptions)
-        .map(|(data, d)| BandSpec {
-            data,
-            description: d.clone(),
-            metadata: vec![],
-        })
-        .collect();
-    let opts = WriteOptions {
-        encoding: SampleEncoding::Float32,
-        nodata: -9999.0,
-        dataset_metadata: r.dataset_metadata.clone(),
-        band_scaling: vec![],
-    };
-    write_geotiff(path, r.width, r.height, &r.georef, &specs, &opts).unwrap();
+    rewrite(path, |desc, values| {
+        let mut v = values.to_vec();
+        if desc == band {
+            v.iter_mut().enumerate().for_each(|(i, x)| edit(i, x));
+        }
+        Some(v)
+    });
 }
 
 /// A cell without terrain is missing (NaN) in every scenario, wherever it lies: inside the

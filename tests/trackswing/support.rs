@@ -291,3 +291,32 @@ pub fn decode_png(path: &Path) -> (u32, u32, Vec<u8>, usize) {
     let ch = info.color_type.samples();
     (info.width, info.height, buf, ch)
 }
+
+/// Rewrites a GeoTIFF band by band: `f` returns the new values, or `None` to drop the band.
+pub fn rewrite(p: &Path, f: impl Fn(&str, &[f32]) -> Option<Vec<f32>>) {
+    use trackswing::geotiff::{
+        read_geotiff, write_geotiff, BandSpec, SampleEncoding, WriteOptions,
+    };
+    let r = read_geotiff(p).unwrap();
+    let kept: Vec<(String, Vec<f32>)> = r
+        .bands
+        .iter()
+        .zip(&r.descriptions)
+        .filter_map(|(b, desc)| f(desc, b).map(|v| (desc.clone(), v)))
+        .collect();
+    let specs: Vec<BandSpec> = kept
+        .iter()
+        .map(|(desc, b)| BandSpec {
+            data: b,
+            description: desc.clone(),
+            metadata: vec![],
+        })
+        .collect();
+    let opts = WriteOptions {
+        encoding: SampleEncoding::Float32,
+        nodata: -9999.0,
+        dataset_metadata: r.dataset_metadata.clone(),
+        band_scaling: vec![],
+    };
+    write_geotiff(p, r.width, r.height, &r.georef, &specs, &opts).unwrap();
+}

@@ -219,7 +219,7 @@ pub fn energy_areas(
 /// [`energy_areas`] of a profile already checked, with the logarithms of the pressures given
 /// (`ln_p_pa[i]` = ln `p_pa[i]`, as a built [`crate::diagnose::column::Profile`] holds them): no
 /// logarithm per segment. Without `PRESSURES`, a layer that starts or ends where a segment
-/// crosses 0 °C takes the segment's end pressure there instead of the crossing's: the areas,
+/// crosses 0 °C takes the segment's bottom pressure there instead of the crossing's: the areas,
 /// all that Bourgouin's rules read, are the same bit for bit, and no `exp` is taken per
 /// crossing.
 fn areas_of_valid<const PRESSURES: bool>(

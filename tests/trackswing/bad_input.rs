@@ -1,7 +1,7 @@
 //! Bad input through the real binary: exit code 3, one message naming the file and what is
 //! wrong, and no output written.
 
-use super::support::{bin, rewrite, write_case, Synthetic};
+use super::support::{bin, rewrite, rewrite_bands, write_case, Synthetic};
 use std::path::Path;
 
 fn fails_cleanly(case: &Path, args: &[&str], expect: &[&str]) {
@@ -216,35 +216,14 @@ fn a_file_of_the_wrong_kind() {
 fn a_duplicated_level() {
     let (d, c) = case("");
     // Append a second band claiming to be the 850 hPa temperature.
-    use trackswing::geotiff::{
-        read_geotiff, write_geotiff, BandSpec, SampleEncoding, WriteOptions,
-    };
-    let p = d.path().join("f/s_00.tif");
-    let r = read_geotiff(&p).unwrap();
-    let mut descs = r.descriptions.clone();
-    let mut bands = r.bands.clone();
-    let i = descs
-        .iter()
-        .position(|x| x == "air_temperature@850hPa")
-        .unwrap();
-    descs.push(descs[i].clone());
-    bands.push(bands[i].clone());
-    let specs: Vec<BandSpec> = bands
-        .iter()
-        .zip(&descs)
-        .map(|(b, d)| BandSpec {
-            data: b,
-            description: d.clone(),
-            metadata: vec![],
-        })
-        .collect();
-    let opts = WriteOptions {
-        encoding: SampleEncoding::Float32,
-        nodata: -9999.0,
-        dataset_metadata: r.dataset_metadata.clone(),
-        band_scaling: vec![],
-    };
-    write_geotiff(&p, r.width, r.height, &r.georef, &specs, &opts).unwrap();
+    rewrite_bands(&d.path().join("f/s_00.tif"), |mut bands| {
+        let i = bands
+            .iter()
+            .position(|(x, _)| x == "air_temperature@850hPa")
+            .unwrap();
+        bands.push(bands[i].clone());
+        bands
+    });
     fails_cleanly(
         &c,
         &[],

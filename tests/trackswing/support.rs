@@ -48,6 +48,18 @@ pub fn georef(s: &Synthetic) -> Georef {
 }
 
 fn write(path: &Path, s: &Synthetic, bands: Vec<(String, Vec<f32>)>, meta: Vec<(String, String)>) {
+    write_float32(path, s.nx, s.ny, &georef(s), &bands, meta);
+}
+
+/// Writes Float32 bands (description, values) with nodata −9999 and the dataset metadata.
+pub fn write_float32(
+    path: &Path,
+    width: usize,
+    height: usize,
+    georef: &Georef,
+    bands: &[(String, Vec<f32>)],
+    meta: Vec<(String, String)>,
+) {
     let specs: Vec<BandSpec> = bands
         .iter()
         .map(|(d, v)| BandSpec {
@@ -62,7 +74,7 @@ fn write(path: &Path, s: &Synthetic, bands: Vec<(String, Vec<f32>)>, meta: Vec<(
         dataset_metadata: meta,
         band_scaling: vec![],
     };
-    write_geotiff(path, s.nx, s.ny, &georef(s), &specs, &opts).unwrap();
+    write_geotiff(path, width, height, georef, &specs, &opts).unwrap();
 }
 
 /// Temperature offset (K) of the synthetic air mass: warm to the south, a gradient across the
@@ -294,29 +306,18 @@ pub fn decode_png(path: &Path) -> (u32, u32, Vec<u8>, usize) {
 
 /// Rewrites a GeoTIFF band by band: `f` returns the new values, or `None` to drop the band.
 pub fn rewrite(p: &Path, f: impl Fn(&str, &[f32]) -> Option<Vec<f32>>) {
-    use trackswing::geotiff::{
-        read_geotiff, write_geotiff, BandSpec, SampleEncoding, WriteOptions,
-    };
-    let r = read_geotiff(p).unwrap();
-    let kept: Vec<(String, Vec<f32>)> = r
-        .bands
-        .iter()
-        .zip(&r.descriptions)
-        .filter_map(|(b, desc)| f(desc, b).map(|v| (desc.clone(), v)))
-        .collect();
-    let specs: Vec<BandSpec> = kept
-        .iter()
-        .map(|(desc, b)| BandSpec {
-            data: b,
-            description: desc.clone(),
-            metadata: vec![],
-        })
-        .collect();
-    let opts = WriteOptions {
-        encoding: SampleEncoding::Float32,
-        nodata: -9999.0,
-        dataset_metadata: r.dataset_metadata.clone(),
-        band_scaling: vec![],
-    };
-    write_geotiff(p, r.width, r.height, &r.georef, &specs, &opts).unwrap();
+    rewrite_bands(p, |bands| {
+        bands
+            .into_iter()
+            .filter_map(|(desc, b)| f(&desc, &b).map(|v| (desc, v)))
+            .collect()
+    });
+}
+
+/// Rewrites a GeoTIFF's bands (description, values) as a whole: `f` returns the new list. The
+/// grid and the dataset metadata stay.
+pub fn rewrite_bands(p: &Path, f: impl FnOnce(Vec<(String, Vec<f32>)>) -> Vec<(String, Vec<f32>)>) {
+    let r = trackswing::geotiff::read_geotiff(p).unwrap();
+    let bands = f(r.descriptions.into_iter().zip(r.bands).collect());
+    write_float32(p, r.width, r.height, &r.georef, &bands, r.dataset_metadata);
 }

@@ -221,6 +221,7 @@ fn main() -> anyhow::Result<()> {
             read_s: 0.0,
             compute_s: 0.0,
         },
+        shards: Vec::new(),
     };
     let started = Instant::now();
     let files = trackswing::write::write_all(&case, &result)?;

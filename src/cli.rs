@@ -29,6 +29,9 @@ pub enum Command {
     /// Run a case file, or model files (GRIB2) with the default methods: shift the track by
     /// every offset and write the layers.
     Run(RunArgs),
+    /// Write the layers of a run computed in shards (`run --shard K/N`), from the shards'
+    /// files: the same layers one run gives.
+    Merge(MergeArgs),
     /// List what model files hold (fields, levels, valid times, grid, projection, extent) and
     /// which case requirements they meet.
     Inspect(InspectArgs),
@@ -132,7 +135,34 @@ pub struct RunArgs {
     /// With model files: towns CSV (name,lat,lon).
     #[arg(long, value_name = "FILE")]
     pub towns: Option<PathBuf>,
+    /// Compute only shard K of N of the scenarios (every N-th, from the K-th) and write their
+    /// totals to OUT.shards/shard-K-of-N.bin instead of layers; `merge` makes the layers once
+    /// every shard is done. For batch schedulers: one job per K.
+    #[arg(long, value_name = "K/N")]
+    pub shard: Option<String>,
     /// Shared settings.
+    #[command(flatten)]
+    pub common: Common,
+}
+
+/// `trackswing merge`.
+#[derive(Args, Debug)]
+pub struct MergeArgs {
+    /// The case file (TOML), or model files, as given to `run --shard`.
+    #[arg(value_name = "CASE.toml|FILES", required = true, num_args = 1..)]
+    pub inputs: Vec<PathBuf>,
+    /// With model files: the storm track, as given to `run --shard`.
+    #[arg(long, value_name = "FILE|find")]
+    pub track: Option<String>,
+    /// With model files: towns CSV (name,lat,lon).
+    #[arg(long, value_name = "FILE")]
+    pub towns: Option<PathBuf>,
+    /// The shard files (default: every OUT.shards/shard-*-of-*.bin).
+    #[arg(long, value_name = "FILE", num_args = 1..)]
+    pub shards: Vec<PathBuf>,
+    /// Shared settings: the offsets, methods and other settings that change the totals must be
+    /// those the shards ran with (the merge checks); units, raster type, σ and the report may
+    /// differ.
     #[command(flatten)]
     pub common: Common,
 }

@@ -149,6 +149,19 @@ pub struct RunResult {
     pub layout: StepLayout,
     /// Where the time went.
     pub timings: Timings,
+    /// The shard files the totals were merged from (none for a run in one piece).
+    pub shards: Vec<ShardUsed>,
+}
+
+/// A shard file a run's totals came from, for the manifest.
+#[derive(Clone, Debug, PartialEq, serde::Serialize)]
+pub struct ShardUsed {
+    /// The file as given.
+    pub file: String,
+    /// Which shard, `K/N`.
+    pub shard: String,
+    /// SHA-256 of the file's totals.
+    pub body_sha256: String,
 }
 
 /// Wall time of the engine's stages, seconds.
@@ -172,11 +185,68 @@ fn extent(g: &Grid) -> String {
 /// cores when only one scenario runs.
 const CELLS_PER_TASK: usize = 4096;
 
-/// Runs a case on `threads` worker threads.
-pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunResult, EngineError> {
+/// Which scenarios a run computes: shard `index` (0-based) of `count` takes the scenarios whose
+/// position in [`scenario_product`]'s order leaves remainder `index` when divided by `count`.
+/// Interleaved rather than in blocks, so shards get offsets from across the whole range and take
+/// about the same time. Scenarios share nothing, so the shards' totals put side by side are the
+/// totals of one run, bit for bit ([`crate::shard`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Shard {
+    /// 0-based.
+    pub index: usize,
+    /// Number of shards, at least 1.
+    pub count: usize,
+}
+
+impl Shard {
+    /// Parses `K/N` (1 ≤ K ≤ N, as a batch scheduler's array index counts).
+    ///
+    /// ```
+    /// use trackswing::engine::Shard;
+    /// assert_eq!(Shard::parse("2/3"), Some(Shard { index: 1, count: 3 }));
+    /// assert_eq!(Shard::parse("0/3"), None);
+    /// assert_eq!(Shard::parse("4/3"), None);
+    /// ```
+    pub fn parse(text: &str) -> Option<Shard> {
+        let (k, n) = text.trim().split_once('/')?;
+        let (k, n): (usize, usize) = (k.trim().parse().ok()?, n.trim().parse().ok()?);
+        (1..=n).contains(&k).then_some(Shard {
+            index: k - 1,
+            count: n,
+        })
+    }
+
+    /// True when scenario `i` belongs to this shard.
+    pub fn holds(&self, i: usize) -> bool {
+        i % self.count == self.index
+    }
+
+    /// `K/N`, 1-based.
+    pub fn label(&self) -> String {
+        format!("{}/{}", self.index + 1, self.count)
+    }
+}
+
+/// What a run needs before its first step: the model's source, the track, the towns and the
+/// scenarios, checked against the grid.
+pub struct Prepared {
+    /// The model's fields.
+    pub source: Box<dyn Source>,
+    /// The track, if the case has one.
+    pub track: Option<Track>,
+    /// Towns.
+    pub towns: Vec<Town>,
+    /// Every scenario of the case, in band order.
+    pub scenarios: Vec<Scenario>,
+    /// Index of the baseline (0, 0) in `scenarios`.
+    pub baseline: usize,
+}
+
+/// Opens the case's model fields, reads the track and towns, checks them against the grid and
+/// lists the scenarios.
+pub fn prepare(case: &Case, progress: &dyn Progress) -> Result<Prepared, EngineError> {
     let source = open_source(&case.member, &|m: &str| progress.warn(m))?;
-    let statics = source.statics();
-    let grid = statics.grid.clone();
+    let grid = source.statics().grid.clone();
     let track = case_track(case, source.as_ref(), progress)?;
     if let Some(t) = &track {
         if !t
@@ -211,9 +281,54 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
         .iter()
         .position(Scenario::is_baseline)
         .expect("scenario_product always includes the baseline");
+    Ok(Prepared {
+        source,
+        track,
+        towns,
+        scenarios,
+        baseline,
+    })
+}
+
+/// Runs a case on `threads` worker threads.
+pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunResult, EngineError> {
+    run_shard(case, threads, progress, None)
+}
+
+/// Runs the scenarios of one shard of a case (all of them for `None`) on `threads` worker
+/// threads. The scenarios outside the shard keep empty totals (no cells).
+pub fn run_shard(
+    case: &Case,
+    threads: usize,
+    progress: &dyn Progress,
+    shard: Option<Shard>,
+) -> Result<RunResult, EngineError> {
+    run_prepared(case, prepare(case, progress)?, threads, progress, shard)
+}
+
+/// [`run_shard`] on a case already prepared.
+pub fn run_prepared(
+    case: &Case,
+    prepared: Prepared,
+    threads: usize,
+    progress: &dyn Progress,
+    shard: Option<Shard>,
+) -> Result<RunResult, EngineError> {
+    let Prepared {
+        source,
+        track,
+        towns,
+        scenarios,
+        baseline,
+    } = prepared;
+    let statics = source.statics();
+    let grid = statics.grid.clone();
+    let computed: Vec<bool> = (0..scenarios.len())
+        .map(|i| shard.is_none_or(|s| s.holds(i)))
+        .collect();
     let n = grid.len();
     if let Some(avail) = available_memory() {
-        let need = memory_estimate(n, scenarios.len());
+        let need = memory_estimate(n, computed.iter().filter(|c| **c).count());
         if need > avail / 10 * 9 {
             return Err(EngineError::TooBig {
                 need_mib: need >> 20,
@@ -228,7 +343,10 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
         .build()
         .map_err(|_| EngineError::Threads(threads))?;
 
-    let mut totals: Vec<Totals> = scenarios.iter().map(|_| Totals::new(n)).collect();
+    let mut totals: Vec<Totals> = computed
+        .iter()
+        .map(|&c| Totals::new(if c { n } else { 0 }))
+        .collect();
     // A cell without terrain is missing in every scenario from the start: the engine passes
     // over a screened cell without looking at it (see step_all_scenarios).
     for (c, _) in statics
@@ -237,7 +355,7 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
         .enumerate()
         .filter(|(_, z)| z.is_nan())
     {
-        for t in &mut totals {
+        for t in totals.iter_mut().filter(|t| !t.is_empty()) {
             t.rows_mut(c, c + 1).set_missing(0);
         }
     }
@@ -287,7 +405,7 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
             if case.methods.dry_air {
                 // Memos are filled in parallel: on the run's threads.
                 pool.install(|| {
-                    for s in &scenarios {
+                    for (_, s) in scenarios.iter().enumerate().filter(|(i, _)| computed[*i]) {
                         let ti = timing_offsets
                             .iter()
                             .position(|h| *h == s.timing_h)
@@ -303,6 +421,10 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
             }
             let mut inputs = Vec::with_capacity(scenarios.len());
             for (si, s) in scenarios.iter().enumerate() {
+                if !computed[si] {
+                    inputs.push(None);
+                    continue;
+                }
                 let ti = timing_offsets
                     .iter()
                     .position(|h| *h == s.timing_h)
@@ -355,45 +477,7 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
     if let Some(w) = step_gap_warning(&valid_times) {
         progress.warn(&w);
     }
-    let cell_steps = (n * valid_times.len()) as f64;
-    let edge: Vec<(usize, f64)> = totals
-        .iter()
-        .enumerate()
-        .filter(|(_, t)| t.outside > 0)
-        .map(|(i, t)| (i, 100.0 * t.outside as f64 / cell_steps))
-        .collect();
-    if let Some(&(worst, share)) = edge.iter().max_by(|a, b| a.1.total_cmp(&b.1)) {
-        progress.warn(&format!(
-            "{} of {} scenarios took some values from beyond the grid edge (up to {share:.1} % of cell-steps, at {}); those cells are nodata in those scenarios and in the min/max/range layers",
-            edge.len(),
-            scenarios.len(),
-            scenarios[worst].label()
-        ));
-    }
-    let undefined: u64 = totals.iter().map(|t| t.undefined).sum();
-    if undefined > 0 {
-        progress.warn(&format!(
-            "the {} method is undefined at {undefined} cell-steps over all scenarios ({:.2} %; e.g. ground above 850 hPa for partial thickness, where no 850–700 or 1000–500 hPa thickness exists); those cells are nodata in those scenarios",
-            case.methods.ptype.name(),
-            100.0 * undefined as f64 / (cell_steps * scenarios.len() as f64)
-        ));
-    }
-    for &h in &timing_offsets {
-        if let Some(t) = scenarios
-            .iter()
-            .zip(&totals)
-            .find(|(s, _)| s.timing_h == h)
-            .map(|(_, t)| t)
-            .filter(|t| t.uncovered_steps > 0)
-        {
-            progress.warn(&format!(
-                "timing {h:+} h: {} of {} steps sample a time {} the model's steps; nothing is counted for them, so those scenarios' totals cover a shorter window",
-                t.uncovered_steps,
-                valid_times.len(),
-                if h > 0.0 { "before" } else { "after" }
-            ));
-        }
-    }
+    warn_about_totals(case, &scenarios, &totals, valid_times.len(), n, progress);
     Ok(RunResult {
         grid,
         terrain: statics.terrain.clone(),
@@ -406,7 +490,60 @@ pub fn run(case: &Case, threads: usize, progress: &dyn Progress) -> Result<RunRe
         track,
         layout,
         timings,
+        shards: Vec::new(),
     })
+}
+
+/// Warns about cells sampled beyond the grid edge, cells a method could not diagnose and steps
+/// a timing offset left uncovered (scenarios with empty totals, outside a shard, are left out).
+pub fn warn_about_totals(
+    case: &Case,
+    scenarios: &[Scenario],
+    totals: &[Totals],
+    steps: usize,
+    n: usize,
+    progress: &dyn Progress,
+) {
+    let run = totals.iter().filter(|t| !t.is_empty()).count();
+    let cell_steps = (n * steps) as f64;
+    let edge: Vec<(usize, f64)> = totals
+        .iter()
+        .enumerate()
+        .filter(|(_, t)| t.outside > 0)
+        .map(|(i, t)| (i, 100.0 * t.outside as f64 / cell_steps))
+        .collect();
+    if let Some(&(worst, share)) = edge.iter().max_by(|a, b| a.1.total_cmp(&b.1)) {
+        progress.warn(&format!(
+            "{} of {} scenarios took some values from beyond the grid edge (up to {share:.1} % of cell-steps, at {}); those cells are nodata in those scenarios and in the min/max/range layers",
+            edge.len(),
+            run,
+            scenarios[worst].label()
+        ));
+    }
+    let undefined: u64 = totals.iter().map(|t| t.undefined).sum();
+    if undefined > 0 {
+        progress.warn(&format!(
+            "the {} method is undefined at {undefined} cell-steps over all scenarios ({:.2} %; e.g. ground above 850 hPa for partial thickness, where no 850–700 or 1000–500 hPa thickness exists); those cells are nodata in those scenarios",
+            case.methods.ptype.name(),
+            100.0 * undefined as f64 / (cell_steps * run as f64)
+        ));
+    }
+    for h in distinct(scenarios.iter().map(|s| s.timing_h)) {
+        if let Some(t) = scenarios
+            .iter()
+            .zip(totals)
+            .find(|(s, t)| s.timing_h == h && !t.is_empty())
+            .map(|(_, t)| t)
+            .filter(|t| t.uncovered_steps > 0)
+        {
+            progress.warn(&format!(
+                "timing {h:+} h: {} of {} steps sample a time {} the model's steps; nothing is counted for them, so those scenarios' totals cover a shorter window",
+                t.uncovered_steps,
+                steps,
+                if h > 0.0 { "before" } else { "after" }
+            ));
+        }
+    }
 }
 
 /// A warning when a step is longer than the one before it: a step file left out of the case

@@ -6,7 +6,7 @@
 //! [`accumulate`] (per-scenario running totals) → [`summarise`] (min/max/range, towns) →
 //! [`write`] (GeoTIFF, GeoJSON, CSV, manifest, quicklook maps drawn with [`render`], and the
 //! HTML report). [`engine`] drives the stages over the time steps and is the one place where
-//! work runs in parallel. [`sounding`] shows one cell's profile and what every method makes of
+//! work runs in parallel; [`shard`] splits its scenarios over several runs and merges them. [`sounding`] shows one cell's profile and what every method makes of
 //! it.
 //!
 //! Decision support for trained forecasters: not an official forecast or warning. Defer to the
@@ -23,6 +23,7 @@ pub mod progress;
 pub mod read;
 pub mod render;
 pub mod scenario;
+pub mod shard;
 pub mod shift;
 pub mod sounding;
 pub mod summarise;

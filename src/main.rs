@@ -38,11 +38,19 @@ enum Plan<'a> {
     },
 }
 
+/// What a run writes: the layers, one shard's totals, or the layers from shards' totals.
+enum Mode<'a> {
+    Layers,
+    Shard(trackswing::engine::Shard),
+    Merge(&'a [PathBuf]),
+}
+
 fn run_case(
     plan: Plan<'_>,
     common: &Common,
     default_out: Option<PathBuf>,
     with_report: bool,
+    mode: Mode<'_>,
 ) -> Result<(), Failure> {
     let over = Overrides {
         cross: common.cross.clone(),
@@ -82,9 +90,31 @@ fn run_case(
     }
     let progress = report::Bar::new(common.quiet);
     let started = std::time::Instant::now();
-    let result = trackswing::engine::run(&case, threads, &progress).map_err(|e| {
-        Failure::Input(anyhow::Error::from(e).context("the run stopped; nothing was written"))
-    })?;
+    let mut merged = None;
+    let result = match mode {
+        Mode::Layers => trackswing::engine::run(&case, threads, &progress).map_err(|e| {
+            Failure::Input(anyhow::Error::from(e).context("the run stopped; nothing was written"))
+        })?,
+        Mode::Shard(shard) => return run_shard(&case, threads, &progress, shard, common.quiet),
+        Mode::Merge(given) => {
+            let paths = if given.is_empty() {
+                shard_files(&case.out_dir).map_err(Failure::Input)?
+            } else {
+                given.to_vec()
+            };
+            merged = Some(paths.len());
+            rayon::ThreadPoolBuilder::new()
+                .num_threads(threads)
+                .build()
+                .map_err(|e| Failure::Input(e.into()))?
+                .install(|| trackswing::shard::assemble(&case, &progress, &paths))
+                .map_err(|e| {
+                    Failure::Input(
+                        anyhow::Error::from(e).context("the merge stopped; nothing was written"),
+                    )
+                })?
+        }
+    };
     let clock = std::time::Instant::now();
     let files = trackswing::write::write_all(&case, &result)
         .with_context(|| format!("writing the layers into {}", case.out_dir.display()))
@@ -96,36 +126,106 @@ fn run_case(
             &result,
             &files,
             &progress,
-            started.elapsed(),
-            write_s,
+            (started.elapsed(), write_s),
+            merged,
         );
     }
     Ok(())
 }
 
-fn run_plan(a: &cli::RunArgs) -> Result<(), Failure> {
-    let is_case = a.inputs.len() == 1
-        && a.inputs[0]
+/// Runs one shard and writes its file.
+fn run_shard(
+    case: &Case,
+    threads: usize,
+    progress: &report::Bar,
+    shard: trackswing::engine::Shard,
+    quiet: bool,
+) -> Result<(), Failure> {
+    let started = std::time::Instant::now();
+    let folder = trackswing::shard::default_folder(&case.out_dir);
+    let (result, path) = trackswing::shard::run_and_write(case, threads, progress, shard, &folder)
+        .map_err(|e| {
+            let failed_write = matches!(
+                e,
+                trackswing::shard::ShardError::Io { .. }
+                    | trackswing::shard::ShardError::Format { .. }
+            );
+            let e = anyhow::Error::from(e);
+            if failed_write {
+                Failure::Output(e.context(format!("writing shard {}", shard.label())))
+            } else {
+                Failure::Input(e.context("the run stopped; nothing was written"))
+            }
+        })?;
+    if !quiet {
+        report::shard_summary(case, &result, shard, &path, progress, started.elapsed());
+    }
+    Ok(())
+}
+
+/// The shard files in the default folder of `out_dir`, or an error saying where none were found.
+fn shard_files(out_dir: &Path) -> anyhow::Result<Vec<PathBuf>> {
+    let folder = trackswing::shard::default_folder(out_dir);
+    let mut files: Vec<PathBuf> = std::fs::read_dir(&folder)
+        .with_context(|| format!("{}: looking for shard files", folder.display()))?
+        .filter_map(|e| e.ok().map(|e| e.path()))
+        .filter(|p| {
+            p.file_name()
+                .and_then(|n| n.to_str())
+                .is_some_and(|n| n.starts_with("shard-") && n.ends_with(".bin"))
+        })
+        .collect();
+    files.sort();
+    if files.is_empty() {
+        anyhow::bail!(
+            "{}: no shard files (shard-K-of-N.bin); run `trackswing run … --shard K/N` first, or name them with --shards",
+            folder.display()
+        );
+    }
+    Ok(files)
+}
+
+/// A case file, or model files with their track and towns.
+fn plan_of<'a>(
+    inputs: &'a [PathBuf],
+    track: Option<&'a str>,
+    towns: Option<&'a Path>,
+) -> Result<Plan<'a>, Failure> {
+    let is_case = inputs.len() == 1
+        && inputs[0]
             .extension()
             .is_some_and(|e| e.eq_ignore_ascii_case("toml"));
     if is_case {
-        if a.track.is_some() || a.towns.is_some() {
+        if track.is_some() || towns.is_some() {
             return Err(Failure::Input(anyhow::anyhow!(
                 "--track and --towns go with model files; a case file names its own track and towns"
             )));
         }
-        return run_case(Plan::CaseFile(&a.inputs[0]), &a.common, None, false);
+        return Ok(Plan::CaseFile(&inputs[0]));
     }
-    run_case(
-        Plan::ModelFiles {
-            files: &a.inputs,
-            track: a.track.as_deref(),
-            towns: a.towns.as_deref(),
-        },
-        &a.common,
-        None,
-        false,
-    )
+    Ok(Plan::ModelFiles {
+        files: inputs,
+        track,
+        towns,
+    })
+}
+
+fn run_plan(a: &cli::RunArgs) -> Result<(), Failure> {
+    let plan = plan_of(&a.inputs, a.track.as_deref(), a.towns.as_deref())?;
+    let mode = match &a.shard {
+        None => Mode::Layers,
+        Some(text) => Mode::Shard(trackswing::engine::Shard::parse(text).ok_or_else(|| {
+            Failure::Input(anyhow::anyhow!(
+                "--shard '{text}': expected K/N with 1 ≤ K ≤ N, e.g. 2/4 for the second of four shards"
+            ))
+        })?),
+    };
+    run_case(plan, &a.common, None, false, mode)
+}
+
+fn merge_plan(a: &cli::MergeArgs) -> Result<(), Failure> {
+    let plan = plan_of(&a.inputs, a.track.as_deref(), a.towns.as_deref())?;
+    run_case(plan, &a.common, None, false, Mode::Merge(&a.shards))
 }
 
 /// `trackswing sounding`: the library makes the sounding, this prints it.
@@ -203,6 +303,7 @@ fn main() -> ExitCode {
     let cli = Cli::parse();
     let outcome = match &cli.command {
         Command::Run(a) => run_plan(a),
+        Command::Merge(a) => merge_plan(a),
         Command::Inspect(a) => commands::inspect(&a.inputs).map_err(Failure::Input),
         Command::Track(a) => commands::track(a),
         Command::Demo(a) => run_case(
@@ -210,6 +311,7 @@ fn main() -> ExitCode {
             &a.common,
             Some(PathBuf::from("demo-out")),
             true,
+            Mode::Layers,
         ),
         Command::Report(a) => trackswing::write::report::write_report_and_list(&a.out_dir)
             .map(|p| println!("wrote {}", p.display()))

@@ -66,14 +66,55 @@ impl Progress for Bar {
     }
 }
 
+/// Prints what one shard computed and where its file went.
+pub fn shard_summary(
+    case: &Case,
+    r: &RunResult,
+    shard: trackswing::engine::Shard,
+    path: &std::path::Path,
+    bar: &Bar,
+    took: std::time::Duration,
+) {
+    use std::fmt::Write as _;
+    use std::io::Write as _;
+    let mut out = String::new();
+    let _ = writeln!(out, "trackswing: {}", case.title);
+    let held = r.totals.iter().filter(|t| !t.is_empty()).count();
+    let evals = (held * r.valid_times.len() * r.grid.len()) as f64;
+    let _ = writeln!(
+        out,
+        "shard {}: {held} of {} scenarios × {} steps × {}×{} cells in {:.2} s (waiting for input {:.2} s, shift+diagnose {:.2} s; {:.3e} cell·step·scenario/s)",
+        shard.label(),
+        r.scenarios.len(),
+        r.valid_times.len(),
+        r.grid.nx,
+        r.grid.ny,
+        took.as_secs_f64(),
+        r.timings.read_s,
+        r.timings.compute_s,
+        evals / r.timings.compute_s.max(1e-9)
+    );
+    for w in bar.warnings.lock().expect("warnings lock").iter() {
+        let _ = writeln!(out, "warning: {w}");
+    }
+    let _ = writeln!(
+        out,
+        "wrote {} (the totals of these scenarios; `trackswing merge` writes the layers once all {} shards are done)",
+        path.display(),
+        shard.count
+    );
+    let _ = writeln!(out, "{}", trackswing::CAUTION);
+    let _ = std::io::stdout().lock().write_all(out.as_bytes());
+}
+
 /// Prints what was written and the towns whose totals swing most.
 pub fn summary(
     case: &Case,
     r: &RunResult,
     files: &[Written],
     bar: &Bar,
-    took: std::time::Duration,
-    write_s: f64,
+    (took, write_s): (std::time::Duration, f64),
+    merged_from: Option<usize>,
 ) {
     use std::fmt::Write as _;
     use std::io::Write as _;
@@ -81,8 +122,21 @@ pub fn summary(
     let u = case.units;
     let _ = writeln!(out, "trackswing: {}", case.title);
     let evals = (r.scenarios.len() * r.valid_times.len() * r.grid.len()) as f64;
-    let _ = writeln!(
-        out,
+    if let Some(shards) = merged_from {
+        let _ = writeln!(
+            out,
+            "{} scenarios × {} steps × {}×{} cells merged from {shards} shard files in {:.2} s (write {:.2} s; the shards' engines took {:.2} s in all)",
+            r.scenarios.len(),
+            r.valid_times.len(),
+            r.grid.nx,
+            r.grid.ny,
+            took.as_secs_f64(),
+            write_s,
+            r.timings.read_s + r.timings.compute_s,
+        );
+    } else {
+        let _ = writeln!(
+            out,
         "{} scenarios × {} steps × {}×{} cells in {:.2} s (waiting for input {:.2} s, shift+diagnose {:.2} s, write {:.2} s; {:.3e} cell·step·scenario/s)",
         r.scenarios.len(),
         r.valid_times.len(),
@@ -91,9 +145,10 @@ pub fn summary(
         took.as_secs_f64(),
         r.timings.read_s,
         r.timings.compute_s,
-        write_s,
-        evals / r.timings.compute_s.max(1e-9)
-    );
+            write_s,
+            evals / r.timings.compute_s.max(1e-9)
+        );
+    }
     for w in bar.warnings.lock().expect("warnings lock").iter() {
         let _ = writeln!(out, "warning: {w}");
     }

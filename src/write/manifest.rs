@@ -9,7 +9,6 @@ use crate::case::Case;
 use crate::engine::RunResult;
 use rayon::prelude::*;
 use serde::Serialize;
-use sha2::{Digest, Sha256};
 use std::path::Path;
 
 #[derive(Serialize)]
@@ -94,15 +93,17 @@ struct Manifest<'a> {
     scenarios: Vec<ScenarioEntry>,
     files: Vec<FileEntry<'a>>,
     inputs: Vec<Input>,
+    /// The shard files the totals were merged from, when the run was computed in shards.
+    #[serde(skip_serializing_if = "<[_]>::is_empty")]
+    merged_from_shards: &'a [crate::engine::ShardUsed],
     decisions: serde_json::Value,
 }
 
 fn sha256_of(path: &Path) -> Result<String, WriteError> {
-    let bytes = std::fs::read(path).map_err(|source| WriteError::Io {
+    crate::shard::sha256_of(path).map_err(|source| WriteError::Io {
         path: path.to_path_buf(),
         source,
-    })?;
-    Ok(format!("{:x}", Sha256::digest(&bytes)))
+    })
 }
 
 /// Writes `manifest.json` describing `files` (which must already be in place).
@@ -254,6 +255,7 @@ pub fn write_manifest(
             .collect(),
         files: entries,
         inputs,
+        merged_from_shards: &r.shards,
         decisions,
     };
     let text = serde_json::to_string_pretty(&m).expect("manifest serialises");

@@ -643,3 +643,41 @@ pub fn assemble(
             .collect(),
     })
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn every_scenario_is_in_exactly_one_shard() {
+        for count in 1..9 {
+            for i in 0..100 {
+                let holders = (0..count)
+                    .filter(|&index| Shard { index, count }.holds(i))
+                    .count();
+                assert_eq!(holders, 1, "scenario {i}, {count} shards");
+            }
+            // Interleaved: each shard holds ⌊100/N⌋ or ⌈100/N⌉ scenarios.
+            for index in 0..count {
+                let held = (0..100)
+                    .filter(|&i| Shard { index, count }.holds(i))
+                    .count();
+                assert!(held == 100 / count || held == 100_usize.div_ceil(count));
+            }
+        }
+    }
+
+    #[test]
+    fn a_key_difference_names_the_part_and_the_first_item() {
+        let case = serde_json::json!({"scenarios": [[0.0], [10.0], [20.0]], "methods": {"dry_air": true, "precip_type": "energy-area"}});
+        let shard = serde_json::json!({"scenarios": [[0.0], [10.0], [20.0]], "methods": {"dry_air": false, "precip_type": "energy-area"}});
+        let (part, detail) = key_difference(&case, &shard).unwrap();
+        assert_eq!(part, "methods");
+        assert_eq!(detail, "dry_air: shard false, case true");
+        let shard = serde_json::json!({"scenarios": [[0.0], [15.0]], "methods": {"dry_air": true, "precip_type": "energy-area"}});
+        let (part, detail) = key_difference(&case, &shard).unwrap();
+        assert_eq!(part, "scenarios");
+        assert!(detail.starts_with("the shard lists 2 and the case 3; the first difference is item 2: shard [15.0], case [10.0]"), "{detail}");
+        assert_eq!(key_difference(&case, &case), None);
+    }
+}

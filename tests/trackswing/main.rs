@@ -12,4 +12,5 @@ mod grib;
 mod physics;
 mod reference;
 mod report;
+mod shards;
 mod support;

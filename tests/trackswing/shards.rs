@@ -1,0 +1,270 @@
+//! Shards: a run split with `run --shard K/N` and put together with `merge` gives the layers of
+//! the run in one piece, file for file; a merge refuses shards that do not belong together and
+//! writes nothing then.
+
+use super::support::bin;
+use std::path::{Path, PathBuf};
+
+fn demo_case() -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-grid/case.toml")
+}
+
+/// Offsets that exercise every axis the engine treats per scenario: the timing offsets sample
+/// between steps, the warm biases take their own sub-cloud memo.
+const AXES: [&str; 4] = [
+    "--cross=-60:60:30",
+    "--along=-40,0",
+    "--timing=-1,0,1",
+    "--warm-bias=0,1",
+];
+
+fn run_ok(args: &[String], extra: &[&Path]) -> String {
+    let mut c = bin();
+    c.args(args);
+    for p in extra {
+        c.arg(p);
+    }
+    let o = c.output().unwrap();
+    assert!(
+        o.status.success(),
+        "{args:?}: {}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    String::from_utf8(o.stdout).unwrap()
+}
+
+fn run_fails(args: &[String], paths: &[&Path], code: i32) -> String {
+    let mut c = bin();
+    c.args(args);
+    for p in paths {
+        c.arg(p);
+    }
+    let o = c.output().unwrap();
+    assert_eq!(
+        o.status.code(),
+        Some(code),
+        "{args:?}: {}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    String::from_utf8(o.stderr).unwrap()
+}
+
+/// `VERB CASE --out OUT` with the axes, then `more`.
+fn with_out(verb: &str, out: &Path, more: &[&str]) -> Vec<String> {
+    let mut v = vec![
+        verb.to_string(),
+        demo_case().display().to_string(),
+        "--out".into(),
+        out.display().to_string(),
+    ];
+    v.extend(AXES.iter().chain(more).map(|a| a.to_string()));
+    v
+}
+
+fn manifest_without_run_facts(p: &Path) -> serde_json::Value {
+    let mut m: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(p).unwrap()).unwrap();
+    let o = m.as_object_mut().unwrap();
+    o.remove("written_utc");
+    o.remove("merged_from_shards");
+    m
+}
+
+#[test]
+fn shards_merge_into_the_layers_of_one_run() {
+    let d = tempfile::tempdir().unwrap();
+    let whole = d.path().join("whole");
+    let split = d.path().join("split");
+    run_ok(&with_out("run", &whole, &["--quiet"]), &[]);
+    // 4 shards of 60 scenarios (5 cross × 2 along × 3 timing × 2 biases): 15 each; the shards' files go beside the output folder.
+    for k in 1..=4 {
+        let shard = format!("{k}/4");
+        run_ok(
+            &with_out("run", &split, &["--shard", &shard, "--quiet"]),
+            &[],
+        );
+    }
+    let folder = d.path().join("split.shards");
+    let mut names: Vec<String> = std::fs::read_dir(&folder)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().into_string().unwrap())
+        .collect();
+    names.sort();
+    assert_eq!(
+        names,
+        [
+            "shard-1-of-4.bin",
+            "shard-2-of-4.bin",
+            "shard-3-of-4.bin",
+            "shard-4-of-4.bin"
+        ]
+    );
+    assert!(!split.exists(), "a shard run writes no layers");
+    let said = run_ok(&with_out("merge", &split, &[]), &[]);
+    assert!(
+        said.contains("60 scenarios") && said.contains("merged from 4 shard files"),
+        "{said}"
+    );
+    let mut compared = 0;
+    for e in std::fs::read_dir(&whole).unwrap() {
+        let name = e.unwrap().file_name();
+        let (a, b) = (whole.join(&name), split.join(&name));
+        if name == "manifest.json" {
+            assert_eq!(
+                manifest_without_run_facts(&a),
+                manifest_without_run_facts(&b)
+            );
+            let m: serde_json::Value =
+                serde_json::from_str(&std::fs::read_to_string(&b).unwrap()).unwrap();
+            let listed = m["merged_from_shards"].as_array().unwrap();
+            assert_eq!(listed.len(), 4);
+            assert_eq!(listed[1]["shard"], "2/4");
+        } else {
+            assert!(
+                std::fs::read(&a).unwrap() == std::fs::read(&b).unwrap(),
+                "{} differs between the run in one piece and the merged shards",
+                name.to_string_lossy()
+            );
+        }
+        compared += 1;
+    }
+    assert!(compared > 20, "{compared} files");
+}
+
+#[test]
+fn merge_refuses_shards_that_do_not_belong_together() {
+    let d = tempfile::tempdir().unwrap();
+    let split = d.path().join("split");
+    for k in 1..=3 {
+        let shard = format!("{k}/3");
+        run_ok(
+            &with_out("run", &split, &["--shard", &shard, "--quiet"]),
+            &[],
+        );
+    }
+    let folder = d.path().join("split.shards");
+    let part = |k: usize| folder.join(format!("shard-{k}-of-3.bin"));
+    let out = d.path().join("merged");
+    let merge = with_out("merge", &out, &["--shards"]);
+
+    // One shard missing: the scenarios not held are named.
+    let e = run_fails(&merge, &[&part(1), &part(3)], 3);
+    assert!(
+        e.contains("hold 40 of 60 scenarios") && e.contains("missing: cross"),
+        "{e}"
+    );
+    // One shard twice.
+    let e = run_fails(&merge, &[&part(1), &part(2), &part(2), &part(3)], 3);
+    assert!(
+        e.contains("is in both") && e.contains("shard-2-of-3.bin"),
+        "{e}"
+    );
+    // Shards of other settings: the part of the key that differs is named.
+    let mut other = merge.clone();
+    other.insert(4, "--no-dry-air".into());
+    let e = run_fails(&other, &[&part(1), &part(2), &part(3)], 3);
+    assert!(
+        e.contains("shard-1-of-3.bin")
+            && e.contains("methods differ")
+            && e.contains("dry_air: shard true, case false"),
+        "{e}"
+    );
+    let mut fewer = merge.clone();
+    fewer[4] = "--cross=-60:60:60".into();
+    let e = run_fails(&fewer, &[&part(1), &part(2), &part(3)], 3);
+    assert!(
+        e.contains("scenarios differ") && e.contains("the shard lists 60 and the case 36"),
+        "{e}"
+    );
+    // Damaged: one byte of the body changed; cut short; not a shard file at all.
+    let bad = d.path().join("bad.bin");
+    let mut bytes = std::fs::read(part(2)).unwrap();
+    bytes[5000] ^= 1;
+    std::fs::write(&bad, &bytes).unwrap();
+    let e = run_fails(&merge, &[&part(1), &bad, &part(3)], 3);
+    assert!(e.contains("bad.bin") && e.contains("SHA-256"), "{e}");
+    let cut = d.path().join("cut.bin");
+    std::fs::write(&cut, &bytes[..bytes.len() / 2]).unwrap();
+    let e = run_fails(&merge, &[&part(1), &cut, &part(3)], 3);
+    assert!(e.contains("cut.bin") && e.contains("cut short"), "{e}");
+    let e = run_fails(&merge, &[&part(1), &demo_case(), &part(3)], 3);
+    assert!(
+        e.contains("case.toml") && e.contains("not a trackswing shard file"),
+        "{e}"
+    );
+    // A model input changed since the shards ran.
+    let copy = d.path().join("copy");
+    std::fs::create_dir(&copy).unwrap();
+    let grid = demo_case().parent().unwrap().to_path_buf();
+    copy_tree(&grid, &copy);
+    let steps = copy.join("fields");
+    let first = std::fs::read_dir(&steps)
+        .unwrap()
+        .next()
+        .unwrap()
+        .unwrap()
+        .path();
+    let mut b = std::fs::read(&first).unwrap();
+    let last = b.len() - 1;
+    b[last] ^= 0x55;
+    std::fs::write(&first, b).unwrap();
+    let case = copy.join("case.toml");
+    let mut c: Vec<String> = [
+        "merge",
+        case.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+    ]
+    .iter()
+    .chain(&AXES)
+    .map(|a| a.to_string())
+    .collect();
+    c.push("--shards".into());
+    let e = run_fails(&c, &[&part(1), &part(2), &part(3)], 3);
+    assert!(e.contains("model inputs differ"), "{e}");
+    assert!(!out.exists(), "a refused merge writes nothing");
+    // A bad shard argument.
+    let e = run_fails(&with_out("run", &split, &["--shard", "4/3"]), &[], 3);
+    assert!(
+        e.contains("--shard '4/3'") && e.contains("1 ≤ K ≤ N"),
+        "{e}"
+    );
+    // A merge with no shard files names the folder it looked in.
+    let e = run_fails(&with_out("merge", &d.path().join("none"), &[]), &[], 3);
+    assert!(e.contains("none.shards"), "{e}");
+}
+
+fn copy_tree(from: &Path, to: &Path) {
+    for e in std::fs::read_dir(from).unwrap() {
+        let p = e.unwrap().path();
+        let dest = to.join(p.file_name().unwrap());
+        if p.is_dir() {
+            std::fs::create_dir(&dest).unwrap();
+            copy_tree(&p, &dest);
+        } else {
+            std::fs::copy(&p, &dest).unwrap();
+        }
+    }
+}
+
+#[test]
+fn a_shard_never_replaces_a_file_it_did_not_write() {
+    let d = tempfile::tempdir().unwrap();
+    let folder = d.path().join("split.shards");
+    std::fs::create_dir(&folder).unwrap();
+    let mine = folder.join("shard-1-of-2.bin");
+    std::fs::write(&mine, "someone's notes\n").unwrap();
+    let split = d.path().join("split");
+    let e = run_fails(
+        &with_out("run", &split, &["--shard", "1/2", "--quiet"]),
+        &[],
+        4,
+    );
+    assert!(
+        e.contains("shard-1-of-2.bin") && e.contains("not a shard file"),
+        "{e}"
+    );
+    assert_eq!(std::fs::read_to_string(&mine).unwrap(), "someone's notes\n");
+    let left: Vec<_> = std::fs::read_dir(&folder).unwrap().collect();
+    assert_eq!(left.len(), 1, "no partial file left behind");
+}

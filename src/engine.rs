@@ -160,8 +160,8 @@ pub struct ShardUsed {
     pub file: String,
     /// Which shard, `K/N`.
     pub shard: String,
-    /// SHA-256 of the file's totals.
-    pub body_sha256: String,
+    /// CRC-32 of the file's totals, hex.
+    pub body_crc32: String,
 }
 
 /// Wall time of the engine's stages, seconds.

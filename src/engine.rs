@@ -834,23 +834,23 @@ impl<'a> StepWindow<'a> {
         &self.held[k - first]
     }
 
-    /// Makes sure held step `k` has a sub-cloud moisture memo for `warm_bias_k`.
+    /// Makes sure held step `k` has a sub-cloud moisture memo for `warm_bias_k` (filled in
+    /// parallel on the current rayon pool).
     pub fn prepare_moisture(&mut self, k: usize, warm_bias_k: f64) {
         let first = self.held.front().expect("a held step").index;
         let h = &mut self.held[k - first];
         if !h.moisture.iter().any(|m| m.warm_bias_k == warm_bias_k) {
-            let cells = h.fields.columns.len() / h.fields.layout.nvar();
-            let memo = match self
-                .spare
-                .iter()
-                .position(|m| m.fits(cells, &h.fields.layout))
-            {
+            let (columns, layout, nx) = (&h.fields.columns, &h.fields.layout, h.wet.nx);
+            let (nvar, ip) = (layout.nvar(), layout.precip());
+            let wet = |i: usize, j: usize| columns[(j * nx + i) * nvar + ip] != 0.0;
+            let cells = columns.len() / nvar;
+            let memo = match self.spare.iter().position(|m| m.fits(cells, layout)) {
                 Some(i) => {
                     let mut m = self.spare.swap_remove(i);
-                    m.reuse(warm_bias_k);
+                    m.fill(columns, layout, nx, warm_bias_k, wet);
                     m
                 }
-                None => LevelMoisture::new(cells, &h.fields.layout, warm_bias_k),
+                None => LevelMoisture::new(columns, layout, nx, warm_bias_k, wet),
             };
             h.moisture.push(memo);
         }

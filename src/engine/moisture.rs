@@ -14,28 +14,23 @@
 //! humidity differs at second order in the grid-point differences; an unshifted column takes
 //! one grid point's values and is unchanged. docs/SCIENCE.md §3 gives the measured effect.
 //!
-//! The values are kept in a memo filled on first use ([`LevelMoisture`]): a grid point's levels
-//! are solved together, at most once per step and bias, and never where no scenario's
-//! precipitation reaches. Filling races between threads are harmless: every thread writes the
-//! same bits, since each value is a pure function of the step's fields. Without a memo (the
-//! sounding view) the grid points are solved on the spot and give the same bits. A column
-//! interpolates all its levels in one pass ([`AtSource`]) the first time its sub-cloud layer
-//! asks for one.
+//! The values are kept in a memo ([`LevelMoisture`]) filled in parallel before a step's
+//! scenarios run, once per step and bias, at the grid points within one cell of precipitation
+//! (the only ones a wet column's source point can read), and only read while they run: plain
+//! loads, no flags to check. A point not kept (a column wet in the next step only) is solved on
+//! the spot. Each value is a pure function of the step's fields, so kept and solved values are
+//! the same bits, and without a memo (the sounding view) the grid points are solved on the spot
+//! to the same bits too. A column interpolates all its levels in one pass ([`AtSource`]) the
+//! first time its sub-cloud layer asks for one.
 
 use super::ScenarioStep;
 use crate::diagnose::column::PROFILE_TOP_PA;
 use crate::diagnose::thermo::isobaric_wet_bulb_deficit_humidity;
 use crate::read::StepLayout;
 use rayon::prelude::*;
-use std::sync::atomic::{AtomicU32, Ordering};
 
 /// Bilinear weights of a source point: lower-left grid point (column, row) and fractions.
 pub type Weights = (usize, usize, f32, f32);
-
-/// Marks a grid point not worked out yet (the first word of its memo entry).
-const NOT_YET: u32 = 0;
-/// Marks a grid point worked out.
-const DONE: u32 = 1;
 
 /// Values per level and grid point: wet-bulb (K), moistening and specific humidity (kg/kg).
 const PER_LEVEL: usize = 3;
@@ -56,65 +51,92 @@ fn memo_levels(layout: &StepLayout) -> usize {
         .min(MAX_MEMO_LEVELS)
 }
 
-/// One step's memo for one warm bias: per grid point a flag word, then wet-bulb, moistening and
-/// humidity of each memo level.
+/// One step's memo for one warm bias: wet-bulb, moistening and humidity of each memo level at
+/// every grid point a wet source point can take them from, worked out in parallel before the
+/// step's scenarios run and then only read (plain loads the compiler can vectorise).
 pub struct LevelMoisture {
     /// The warm bias the values include, K.
     pub warm_bias_k: f64,
     levels: usize,
-    memo: Vec<AtomicU32>,
+    /// Per grid point, `levels × PER_LEVEL` values (meaningful where `kept`).
+    values: Vec<f32>,
+    /// 1 where the grid point's values are kept.
+    kept: Vec<u8>,
 }
 
 impl LevelMoisture {
-    /// An empty memo for a grid of `cells` points (filled in parallel on the current rayon
-    /// pool: a 1800×1060 grid with five levels below 500 hPa takes 122 MB).
-    pub fn new(cells: usize, layout: &StepLayout, warm_bias_k: f64) -> Self {
-        let levels = memo_levels(layout);
-        Self {
+    /// The memo of one step's interleaved `columns` (a grid `nx` cells wide) with the warm bias
+    /// added, kept at the grid points within one cell of a point with precipitation
+    /// (`wet(i, j)`): a column sampled where precipitation falls has a wet grid point among the
+    /// four around its source point, so it reads only kept points. A source point with
+    /// precipitation from the next step only may read a point not kept, which is then solved
+    /// on the spot, to the same bits. Filled in parallel on the current rayon pool.
+    pub fn new(
+        columns: &[f32],
+        layout: &StepLayout,
+        nx: usize,
+        warm_bias_k: f64,
+        wet: impl Fn(usize, usize) -> bool + Sync,
+    ) -> Self {
+        let mut m = Self {
             warm_bias_k,
-            levels,
-            memo: (0..cells * (1 + levels * PER_LEVEL))
-                .into_par_iter()
-                .map(|_| AtomicU32::new(NOT_YET))
-                .collect(),
-        }
+            levels: memo_levels(layout),
+            values: Vec::new(),
+            kept: Vec::new(),
+        };
+        m.fill(columns, layout, nx, warm_bias_k, wet);
+        m
     }
 
-    /// Empties the memo for another step and bias of the same grid and levels (reusing the
-    /// memory saves a continental grid's page faults every step).
-    pub fn reuse(&mut self, warm_bias_k: f64) {
+    /// [`LevelMoisture::new`] into this memo's memory (another step and bias of the same grid
+    /// and levels: reusing it saves a continental grid's page faults every step).
+    pub fn fill(
+        &mut self,
+        columns: &[f32],
+        layout: &StepLayout,
+        nx: usize,
+        warm_bias_k: f64,
+        wet: impl Fn(usize, usize) -> bool + Sync,
+    ) {
+        let cells = columns.len() / layout.nvar();
+        let stride = self.levels * PER_LEVEL;
         self.warm_bias_k = warm_bias_k;
-        let stride = 1 + self.levels * PER_LEVEL;
-        self.memo.par_chunks_mut(stride << 12).for_each(|c| {
-            c.iter_mut()
-                .step_by(stride)
-                .for_each(|a| *a.get_mut() = NOT_YET)
-        });
+        self.values.resize(cells * stride, 0.0);
+        self.kept.resize(cells, 0);
+        if cells == 0 || stride == 0 {
+            return;
+        }
+        let ny = cells / nx;
+        self.values
+            .par_chunks_mut(stride * nx)
+            .zip(self.kept.par_chunks_mut(nx))
+            .enumerate()
+            .for_each(|(j, (values, kept))| {
+                let rows = j.saturating_sub(1)..=(j + 1).min(ny - 1);
+                for (i, (v, k)) in values.chunks_exact_mut(stride).zip(kept).enumerate() {
+                    let cols = i.saturating_sub(1)..=(i + 1).min(nx - 1);
+                    let near = rows.clone().any(|jj| cols.clone().any(|ii| wet(ii, jj)));
+                    *k = u8::from(near);
+                    if near {
+                        solve_point(columns, layout, j * nx + i, warm_bias_k, v);
+                    }
+                }
+            });
     }
 
     /// True when this memo's memory fits a grid of `cells` points with `layout`'s levels.
     pub fn fits(&self, cells: usize, layout: &StepLayout) -> bool {
-        self.memo.len() == cells * (1 + memo_levels(layout) * PER_LEVEL)
+        self.levels == memo_levels(layout) && self.kept.len() == cells
     }
 
-    /// Grid point `cell`'s memo levels into `out` (3 values per level), from the memo or solved
-    /// (and kept).
+    /// Grid point `cell`'s memo levels into `out` (3 values per level), kept or solved.
     #[inline(always)]
     fn get(&self, columns: &[f32], layout: &StepLayout, cell: usize, out: &mut [f32]) {
-        let stride = 1 + self.levels * PER_LEVEL;
-        let entry = &self.memo[cell * stride..(cell + 1) * stride];
-        // The flag is set last (release) and read first (acquire): once it is there, so are the
-        // values.
-        if entry[0].load(Ordering::Acquire) == DONE {
-            for (o, a) in out.iter_mut().zip(&entry[1..]) {
-                *o = f32::from_bits(a.load(Ordering::Relaxed));
-            }
+        if self.kept[cell] != 0 {
+            let stride = self.levels * PER_LEVEL;
+            out.copy_from_slice(&self.values[cell * stride..(cell + 1) * stride]);
         } else {
             solve_point(columns, layout, cell, self.warm_bias_k, out);
-            for (a, o) in entry[1..].iter().zip(out.iter()) {
-                a.store(o.to_bits(), Ordering::Relaxed);
-            }
-            entry[0].store(DONE, Ordering::Release);
         }
     }
 }
@@ -329,8 +351,9 @@ mod tests {
         let l = layout();
         let cols = columns(&l);
         let later: Vec<f32> = cols.iter().map(|v| v + 0.5).collect();
-        let memo = LevelMoisture::new(6, &l, 1.5);
-        let memo_later = LevelMoisture::new(6, &l, 1.5);
+        // Kept everywhere (every grid point wet) and nowhere (all dry: solved on the spot).
+        let memo = LevelMoisture::new(&cols, &l, 3, 1.5, |_, _| true);
+        let memo_later = LevelMoisture::new(&later, &l, 3, 1.5, |_, _| false);
         assert_eq!(
             memo.levels, 4,
             "300 hPa is above the sub-cloud kernel's top"
@@ -351,15 +374,15 @@ mod tests {
                 assert_eq!(b.map(f64::to_bits), c.map(f64::to_bits), "{w:?} {k}");
             }
         }
-        // A reused memo forgets the old step's values.
-        let mut m = LevelMoisture::new(6, &l, 1.5);
+        // A refilled memo forgets the old step's values.
+        let mut m = LevelMoisture::new(&cols, &l, 3, 1.5, |_, _| true);
         let first = level(
             &input(&cols, None, [Some(&m), None], 1.5),
             &l,
             (1, 0, 0.0, 0.0),
             0,
         );
-        m.reuse(0.0);
+        m.fill(&later, &l, 3, 0.0, |_, _| true);
         let after = level(
             &input(&later, None, [Some(&m), None], 0.0),
             &l,
@@ -374,6 +397,28 @@ mod tests {
         );
         assert_eq!(after, fresh);
         assert_ne!(first, after);
+    }
+
+    #[test]
+    fn points_within_one_cell_of_precipitation_are_kept() {
+        // A 5×4 grid, precipitation at (3, 2) only: kept at columns 2–4 of rows 1–3.
+        let l = layout();
+        let nvar = l.nvar();
+        let mut cols = vec![0.0f32; 20 * nvar];
+        for cell in 0..20 {
+            for k in 0..l.levels_pa.len() {
+                cols[cell * nvar + l.t(k)] = 262.0 + 0.5 * cell as f32 - 3.0 * k as f32;
+                cols[cell * nvar + l.rh(k)] = 40.0 + 2.5 * cell as f32;
+            }
+        }
+        let m = LevelMoisture::new(&cols, &l, 5, 0.0, |i, j| (i, j) == (3, 2));
+        let kept: Vec<usize> = (0..20).filter(|&c| m.kept[c] != 0).collect();
+        assert_eq!(kept, [7, 8, 9, 12, 13, 14, 17, 18, 19]);
+        // A kept point holds its own solve.
+        let mut direct = [0.0f32; 12];
+        solve_point(&cols, &l, 13, 0.0, &mut direct);
+        assert!(direct.iter().all(|v| v.is_finite()));
+        assert_eq!(m.values[13 * 12..14 * 12], direct);
     }
 
     #[test]

@@ -327,16 +327,14 @@ pub fn run_prepared(
         .map(|i| shard.is_none_or(|s| s.holds(i)))
         .collect();
     let n = grid.len();
-    if let Some(avail) = available_memory() {
-        let need = memory_estimate(n, computed.iter().filter(|c| **c).count());
-        if need > avail / 10 * 9 {
-            return Err(EngineError::TooBig {
-                need_mib: need >> 20,
-                avail_mib: avail >> 20,
-                scenarios: scenarios.len(),
-                cells: n,
-            });
-        }
+    let run = computed.iter().filter(|c| **c).count();
+    if let Err((need, avail)) = fits_in_memory(n, run) {
+        return Err(EngineError::TooBig {
+            need_mib: need >> 20,
+            avail_mib: avail >> 20,
+            scenarios: run,
+            cells: n,
+        });
     }
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(threads.max(1))
@@ -580,6 +578,17 @@ pub fn step_gap_warning(times: &[DateTime<Utc>]) -> Option<String> {
 /// once there are more than a handful of scenarios.
 pub fn memory_estimate(cells: usize, scenarios: usize) -> u64 {
     (cells as u64) * (scenarios as u64) * (7 + 1) * 4
+}
+
+/// Whether the totals of `scenarios` scenarios on `cells` cells fit in nine tenths of the
+/// memory available; otherwise the estimate and what is available, bytes. Fits where the
+/// available memory is unknown.
+pub fn fits_in_memory(cells: usize, scenarios: usize) -> Result<(), (u64, u64)> {
+    let need = memory_estimate(cells, scenarios);
+    match available_memory() {
+        Some(avail) if need > avail / 10 * 9 => Err((need, avail)),
+        _ => Ok(()),
+    }
 }
 
 /// Memory available to new allocations, bytes (Linux `MemAvailable`); `None` where unknown.

@@ -82,6 +82,18 @@ pub enum ShardError {
     /// The shards do not hold every scenario exactly once.
     #[error("{0}")]
     Coverage(String),
+    /// The merged totals would not fit in memory.
+    #[error("the merge holds the totals of all {scenarios} scenarios × {cells} cells, about {need_mib} MiB, but only {avail_mib} MiB of memory is available: merge on a machine with more memory")]
+    TooBig {
+        /// Estimated need, MiB.
+        need_mib: u64,
+        /// Available, MiB.
+        avail_mib: u64,
+        /// Scenarios.
+        scenarios: usize,
+        /// Cells.
+        cells: usize,
+    },
 }
 
 /// The header of a shard file.
@@ -585,6 +597,14 @@ pub fn assemble(
         })
         .collect::<Result<Vec<_>, _>>()?;
     let n = prepared.source.statics().grid.len();
+    if let Err((need, avail)) = engine::fits_in_memory(n, scenarios.len()) {
+        return Err(ShardError::TooBig {
+            need_mib: need >> 20,
+            avail_mib: avail >> 20,
+            scenarios: scenarios.len(),
+            cells: n,
+        });
+    }
     let mut totals: Vec<Option<Totals>> = vec![None; scenarios.len()];
     let mut timings = Timings::default();
     for (p, h) in paths.iter().zip(&headers) {

@@ -123,12 +123,30 @@ pub struct Header {
     pub body_crc32: u32,
 }
 
-/// The SHA-256 of a file, hex.
+/// The SHA-256 of a file, hex. Kept for the rest of the process (keyed by path, length and
+/// modification time): a merge hashes the model inputs for the run's key and again for the
+/// manifest, gigabytes for a continental case.
 pub fn sha256_of(path: &Path) -> std::io::Result<String> {
+    type Seen = std::collections::HashMap<(PathBuf, u64, Option<std::time::SystemTime>), String>;
+    static SEEN: std::sync::Mutex<Option<Seen>> = std::sync::Mutex::new(None);
     let mut f = std::fs::File::open(path)?;
+    let meta = f.metadata()?;
+    let key = (path.to_path_buf(), meta.len(), meta.modified().ok());
+    let seen = |key: &_| -> Option<String> {
+        let lock = SEEN.lock().unwrap_or_else(|e| e.into_inner());
+        lock.as_ref().and_then(|m| m.get(key).cloned())
+    };
+    if let Some(h) = seen(&key) {
+        return Ok(h);
+    }
     let mut h = Sha256::new();
     std::io::copy(&mut f, &mut h)?;
-    Ok(format!("{:x}", h.finalize()))
+    let hex = format!("{:x}", h.finalize());
+    SEEN.lock()
+        .unwrap_or_else(|e| e.into_inner())
+        .get_or_insert_with(Default::default)
+        .insert(key, hex.clone());
+    Ok(hex)
 }
 
 /// What decides a run's totals: every scenario (cross, along, timing, intensity, warm bias), the

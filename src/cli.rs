@@ -122,9 +122,9 @@ pub struct ReportArgs {
     pub out_dir: PathBuf,
 }
 
-/// `trackswing run`.
+/// What a run reads: a case file, or model files with their track and towns.
 #[derive(Args, Debug)]
-pub struct RunArgs {
+pub struct Inputs {
     /// The case file (TOML), or model files (GRIB2 files, folders or patterns with one '*').
     #[arg(value_name = "CASE.toml|FILES", required = true, num_args = 1..)]
     pub inputs: Vec<PathBuf>,
@@ -135,6 +135,14 @@ pub struct RunArgs {
     /// With model files: towns CSV (name,lat,lon).
     #[arg(long, value_name = "FILE")]
     pub towns: Option<PathBuf>,
+}
+
+/// `trackswing run`.
+#[derive(Args, Debug)]
+pub struct RunArgs {
+    /// What to read.
+    #[command(flatten)]
+    pub read: Inputs,
     /// Compute only shard K of N of the scenarios (every N-th, from the K-th) and write their
     /// totals to OUT.shards/shard-K-of-N.bin instead of layers; `merge` makes the layers once
     /// every shard is done. For batch schedulers: one job per K.
@@ -148,15 +156,9 @@ pub struct RunArgs {
 /// `trackswing merge`.
 #[derive(Args, Debug)]
 pub struct MergeArgs {
-    /// The case file (TOML), or model files, as given to `run --shard`.
-    #[arg(value_name = "CASE.toml|FILES", required = true, num_args = 1..)]
-    pub inputs: Vec<PathBuf>,
-    /// With model files: the storm track, as given to `run --shard`.
-    #[arg(long, value_name = "FILE|find")]
-    pub track: Option<String>,
-    /// With model files: towns CSV (name,lat,lon).
-    #[arg(long, value_name = "FILE")]
-    pub towns: Option<PathBuf>,
+    /// What to read: as given to `run --shard`.
+    #[command(flatten)]
+    pub read: Inputs,
     /// The shard files (default: every OUT.shards/shard-*-of-*.bin).
     #[arg(long, value_name = "FILE", num_args = 1..)]
     pub shards: Vec<PathBuf>,

@@ -186,11 +186,8 @@ fn shard_files(out_dir: &Path) -> anyhow::Result<Vec<PathBuf>> {
 }
 
 /// A case file, or model files with their track and towns.
-fn plan_of<'a>(
-    inputs: &'a [PathBuf],
-    track: Option<&'a str>,
-    towns: Option<&'a Path>,
-) -> Result<Plan<'a>, Failure> {
+fn plan_of(read: &cli::Inputs) -> Result<Plan<'_>, Failure> {
+    let (inputs, track, towns) = (&read.inputs, read.track.as_deref(), read.towns.as_deref());
     let is_case = inputs.len() == 1
         && inputs[0]
             .extension()
@@ -211,7 +208,7 @@ fn plan_of<'a>(
 }
 
 fn run_plan(a: &cli::RunArgs) -> Result<(), Failure> {
-    let plan = plan_of(&a.inputs, a.track.as_deref(), a.towns.as_deref())?;
+    let plan = plan_of(&a.read)?;
     let mode = match &a.shard {
         None => Mode::Layers,
         Some(text) => Mode::Shard(trackswing::engine::Shard::parse(text).ok_or_else(|| {
@@ -224,7 +221,7 @@ fn run_plan(a: &cli::RunArgs) -> Result<(), Failure> {
 }
 
 fn merge_plan(a: &cli::MergeArgs) -> Result<(), Failure> {
-    let plan = plan_of(&a.inputs, a.track.as_deref(), a.towns.as_deref())?;
+    let plan = plan_of(&a.read)?;
     run_case(plan, &a.common, None, false, Mode::Merge(&a.shards))
 }
 

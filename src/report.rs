@@ -66,6 +66,29 @@ impl Progress for Bar {
     }
 }
 
+/// "N scenarios × S steps × NX×NY cells in T s (…)": the time split of a run of `computed`
+/// scenarios and its evaluation rate.
+fn run_line(
+    r: &RunResult,
+    computed: usize,
+    took: std::time::Duration,
+    write_s: Option<f64>,
+) -> String {
+    let evals = (computed * r.valid_times.len() * r.grid.len()) as f64;
+    let write = write_s.map_or(String::new(), |w| format!(", write {w:.2} s"));
+    format!(
+        "{} scenarios × {} steps × {}×{} cells in {:.2} s (waiting for input {:.2} s, shift+diagnose {:.2} s{write}; {:.3e} cell·step·scenario/s)",
+        r.scenarios.len(),
+        r.valid_times.len(),
+        r.grid.nx,
+        r.grid.ny,
+        took.as_secs_f64(),
+        r.timings.read_s,
+        r.timings.compute_s,
+        evals / r.timings.compute_s.max(1e-9)
+    )
+}
+
 /// Prints what one shard computed and where its file went.
 pub fn shard_summary(
     case: &Case,
@@ -80,19 +103,11 @@ pub fn shard_summary(
     let mut out = String::new();
     let _ = writeln!(out, "trackswing: {}", case.title);
     let held = r.totals.iter().filter(|t| !t.is_empty()).count();
-    let evals = (held * r.valid_times.len() * r.grid.len()) as f64;
     let _ = writeln!(
         out,
-        "shard {}: {held} of {} scenarios × {} steps × {}×{} cells in {:.2} s (waiting for input {:.2} s, shift+diagnose {:.2} s; {:.3e} cell·step·scenario/s)",
+        "shard {}: {held} of {}",
         shard.label(),
-        r.scenarios.len(),
-        r.valid_times.len(),
-        r.grid.nx,
-        r.grid.ny,
-        took.as_secs_f64(),
-        r.timings.read_s,
-        r.timings.compute_s,
-        evals / r.timings.compute_s.max(1e-9)
+        run_line(r, held, took, None)
     );
     for w in bar.warnings.lock().expect("warnings lock").iter() {
         let _ = writeln!(out, "warning: {w}");
@@ -121,7 +136,6 @@ pub fn summary(
     let mut out = String::new();
     let u = case.units;
     let _ = writeln!(out, "trackswing: {}", case.title);
-    let evals = (r.scenarios.len() * r.valid_times.len() * r.grid.len()) as f64;
     if let Some(shards) = merged_from {
         let _ = writeln!(
             out,
@@ -135,19 +149,8 @@ pub fn summary(
             r.timings.read_s + r.timings.compute_s,
         );
     } else {
-        let _ = writeln!(
-            out,
-        "{} scenarios × {} steps × {}×{} cells in {:.2} s (waiting for input {:.2} s, shift+diagnose {:.2} s, write {:.2} s; {:.3e} cell·step·scenario/s)",
-        r.scenarios.len(),
-        r.valid_times.len(),
-        r.grid.nx,
-        r.grid.ny,
-        took.as_secs_f64(),
-        r.timings.read_s,
-        r.timings.compute_s,
-            write_s,
-            evals / r.timings.compute_s.max(1e-9)
-        );
+        let n = r.scenarios.len();
+        let _ = writeln!(out, "{}", run_line(r, n, took, Some(write_s)));
     }
     for w in bar.warnings.lock().expect("warnings lock").iter() {
         let _ = writeln!(out, "warning: {w}");

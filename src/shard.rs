@@ -282,18 +282,6 @@ fn starts_with_magic(path: &Path) -> bool {
         && head == MAGIC
 }
 
-/// The arrays of one scenario's totals, in file order.
-fn f32_arrays(t: &Totals) -> [&[f32]; 6] {
-    [
-        &t.liquid,
-        &t.snow_liquid,
-        &t.snowfall,
-        &t.ice_pellets,
-        &t.freezing_rain,
-        &t.carried,
-    ]
-}
-
 fn write_to(
     path: &Path,
     shard: Shard,
@@ -313,7 +301,7 @@ fn write_to(
     let held: Vec<usize> = (0..r.scenarios.len()).filter(|&i| shard.holds(i)).collect();
     for &i in &held {
         let t = &r.totals[i];
-        for a in f32_arrays(t) {
+        for a in t.f32_arrays() {
             for chunk in a.chunks(1 << 16) {
                 chunk
                     .iter()

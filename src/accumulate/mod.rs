@@ -61,6 +61,19 @@ impl Totals {
         }
     }
 
+    /// The per-cell f32 arrays, in a fixed order: liquid, snow liquid, snowfall, ice pellets,
+    /// freezing rain, carried water (the shard files' order).
+    pub fn f32_arrays(&self) -> [&[f32]; 6] {
+        [
+            &self.liquid,
+            &self.snow_liquid,
+            &self.snowfall,
+            &self.ice_pellets,
+            &self.freezing_rain,
+            &self.carried,
+        ]
+    }
+
     /// Number of cells.
     pub fn len(&self) -> usize {
         self.liquid.len()

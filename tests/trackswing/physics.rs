@@ -13,18 +13,11 @@ fn load(case: &std::path::Path, over: Overrides) -> Case {
 }
 
 fn bits(t: &Totals) -> Vec<u32> {
-    [
-        &t.liquid,
-        &t.snow_liquid,
-        &t.snowfall,
-        &t.ice_pellets,
-        &t.freezing_rain,
-        &t.carried,
-    ]
-    .iter()
-    .flat_map(|v| v.iter().map(|x| x.to_bits()))
-    .chain(t.onset.iter().copied())
-    .collect()
+    t.f32_arrays()
+        .iter()
+        .flat_map(|v| v.iter().map(|x| x.to_bits()))
+        .chain(t.onset.iter().copied())
+        .collect()
 }
 
 fn sum(v: &[f32]) -> f64 {

@@ -18,35 +18,23 @@ const AXES: [&str; 4] = [
     "--warm-bias=0,1",
 ];
 
-fn run_ok(args: &[String], extra: &[&Path]) -> String {
-    let mut c = bin();
-    c.args(args);
-    for p in extra {
-        c.arg(p);
-    }
-    let o = c.output().unwrap();
-    assert!(
-        o.status.success(),
-        "{args:?}: {}",
-        String::from_utf8_lossy(&o.stderr)
-    );
+/// Runs the binary with `args` then `paths`.
+fn run_with(args: &[String], paths: &[&Path]) -> std::process::Output {
+    bin().args(args).args(paths).output().unwrap()
+}
+
+fn run_ok(args: &[String], paths: &[&Path]) -> String {
+    let o = run_with(args, paths);
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(o.status.success(), "{args:?}: {err}");
     String::from_utf8(o.stdout).unwrap()
 }
 
 fn run_fails(args: &[String], paths: &[&Path], code: i32) -> String {
-    let mut c = bin();
-    c.args(args);
-    for p in paths {
-        c.arg(p);
-    }
-    let o = c.output().unwrap();
-    assert_eq!(
-        o.status.code(),
-        Some(code),
-        "{args:?}: {}",
-        String::from_utf8_lossy(&o.stderr)
-    );
-    String::from_utf8(o.stderr).unwrap()
+    let o = run_with(args, paths);
+    let err = String::from_utf8(o.stderr).unwrap();
+    assert_eq!(o.status.code(), Some(code), "{args:?}: {err}");
+    err
 }
 
 /// `VERB CASE --out OUT` with the axes, then `more`.

@@ -219,6 +219,14 @@ pub fn run_and_write(
     folder: &Path,
 ) -> Result<(RunResult, PathBuf), ShardError> {
     let prepared = engine::prepare(case, progress)?;
+    let count = prepared.scenarios.len();
+    if shard.index >= count {
+        return Err(ShardError::Coverage(format!(
+            "shard {} holds no scenario: the case has {count} scenario{}, so use at most {count} shards",
+            shard.label(),
+            if count == 1 { "" } else { "s" }
+        )));
+    }
     let key = run_key(case, &prepared)?;
     let r = engine::run_prepared(case, prepared, threads, progress, Some(shard))?;
     let path = write_shard(folder, shard, key, &r)?;

@@ -217,6 +217,12 @@ fn merge_refuses_shards_that_do_not_belong_together() {
         e.contains("--shard '4/3'") && e.contains("1 ≤ K ≤ N"),
         "{e}"
     );
+    // A shard beyond the number of scenarios would hold none.
+    let e = run_fails(&with_out("run", &split, &["--shard", "61/64"]), &[], 3);
+    assert!(
+        e.contains("shard 61/64 holds no scenario") && e.contains("at most 60 shards"),
+        "{e}"
+    );
     // A merge with no shard files names the folder it looked in.
     let e = run_fails(&with_out("merge", &d.path().join("none"), &[]), &[], 3);
     assert!(e.contains("none.shards"), "{e}");

@@ -109,7 +109,7 @@ pub enum EngineError {
         what: String,
     },
     /// The run would not fit in memory.
-    #[error("the run needs about {need_mib} MiB ({scenarios} scenarios × {cells} cells) but only {avail_mib} MiB of memory is available; run fewer offsets, a coarser range, or run the case in shards (`run --shard K/N` for K = 1…N, each holding a N-th of the scenarios, then `merge`)")]
+    #[error("the run needs about {need_mib} MiB ({scenarios} scenarios × {cells} cells) but only {avail_mib} MiB of memory is available; run fewer offsets, a coarser range, or run the case in shards (`run --shard K/N` for K = 1…N, each holding an N-th of the scenarios, then `merge`)")]
     TooBig {
         /// Estimated need, MiB.
         need_mib: u64,

@@ -131,16 +131,15 @@ fn valid_profile(p_pa: &[f64], t_k: &[f64]) -> bool {
     if n != t_k.len() || !(2..=MAX_LEVELS).contains(&n) {
         return false;
     }
-    // Without short-circuits, so the checks vectorise: finite and positive is 0 < v < ∞
-    // (NaN fails both comparisons).
-    let mut ok = true;
-    for (p, t) in p_pa.iter().zip(t_k) {
-        ok &= (*p > 0.0) & (*p < f64::INFINITY) & (*t > 0.0) & (*t < f64::INFINITY);
-    }
-    for w in p_pa.windows(2) {
-        ok &= w[1] < w[0];
-    }
-    ok
+    // Finite and positive is 0 < v < ∞ (NaN fails both comparisons). Pressures strictly
+    // decreasing from a finite first to a positive last are all finite and positive. A profile
+    // is a handful of points: one pass with early exits costs fewer instructions than a
+    // vectorised one.
+    let positive = |v: f64| v > 0.0 && v < f64::INFINITY;
+    positive(t_k[0])
+        && p_pa[0] < f64::INFINITY
+        && p_pa[n - 1] > 0.0
+        && (1..n).all(|i| p_pa[i] < p_pa[i - 1] && positive(t_k[i]))
 }
 
 /// Energy area of a piece with temperature linear in ln p between (p_b, t_b) and (p_t, t_t):
@@ -552,6 +551,44 @@ pub fn surface_logistic(t2_k: f64, rh2_pct: f64, warm_layer_max_tw_k: f64) -> Pt
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// `valid_profile` against its definition: every pressure and temperature finite and
+    /// positive, pressures strictly decreasing; over special values in every position.
+    #[test]
+    fn the_profile_check_is_its_definition() {
+        let plain = |p: &[f64], t: &[f64]| {
+            p.iter().chain(t).all(|v| v.is_finite() && *v > 0.0)
+                && p.windows(2).all(|w| w[1] < w[0])
+        };
+        let specials = [
+            f64::NAN,
+            f64::INFINITY,
+            f64::NEG_INFINITY,
+            0.0,
+            -5.0,
+            1.0,
+            60_000.0,
+            80_000.0,
+            100_000.0,
+        ];
+        let mut checked = 0;
+        for &a in &specials {
+            for &b in &specials {
+                for &c in &specials {
+                    for (p, t) in [
+                        ([a, b, c], [270.0, 265.0, 250.0]),
+                        ([100_000.0, 80_000.0, 60_000.0], [a, b, c]),
+                        ([a, 80_000.0, c], [b, 265.0, 250.0]),
+                    ] {
+                        assert_eq!(valid_profile(&p, &t), plain(&p, &t), "{p:?} {t:?}");
+                        assert_eq!(valid_profile(&p[..2], &t[..2]), plain(&p[..2], &t[..2]));
+                        checked += 1;
+                    }
+                }
+            }
+        }
+        assert_eq!(checked, 3 * 9 * 9 * 9);
+    }
     use proptest::prelude::*;
 
     const T0: f64 = T_FREEZE;

@@ -30,6 +30,15 @@ pub enum CaseError {
         /// The parser's message, with line and column.
         message: String,
     },
+    /// A command-line option has a value that cannot work (exit code 2, a bad command line,
+    /// not a bad case file).
+    #[error("option '{flag}': {what}")]
+    Flag {
+        /// The option, e.g. `--units`.
+        flag: String,
+        /// What is wrong and what was expected.
+        what: String,
+    },
     /// A setting has a value that cannot work.
     #[error("{path}: '{field}': {what}")]
     Invalid {
@@ -459,17 +468,28 @@ impl Case {
         })?;
         let file: CaseFile = toml::from_str(&text).map_err(|e| CaseError::Syntax {
             path: path.to_path_buf(),
-            message: e.to_string().trim_end().replace('\n', " "),
+            // The parser's message is a snippet over several lines (the line, then a caret under
+            // the column): kept as it is, so the caret stays under the column it points at.
+            message: format!("\n{}", e.to_string().trim_end()),
         })?;
         Self::resolve(path, file, over)
     }
 
     fn resolve(path: &Path, file: CaseFile, over: &Overrides) -> Result<Self, CaseError> {
         let dir = path.parent().unwrap_or(Path::new("."));
-        let invalid = |field: &str, what: String| CaseError::Invalid {
-            path: path.to_path_buf(),
-            field: field.to_string(),
-            what,
+        let invalid = |field: &str, what: String| {
+            if field.starts_with("--") {
+                CaseError::Flag {
+                    flag: field.to_string(),
+                    what,
+                }
+            } else {
+                CaseError::Invalid {
+                    path: path.to_path_buf(),
+                    field: field.to_string(),
+                    what,
+                }
+            }
         };
         let existing = |field: &str, rel: &str| -> Result<PathBuf, CaseError> {
             let p = dir.join(rel);

@@ -100,11 +100,11 @@ pub struct Common {
     /// Track-error σ across the track, km, for the Gaussian weighting of the offsets. Take it
     /// from your own verification of track error at this lead time; the default (50 km) is an
     /// example, not a climatology.
-    #[arg(long, value_name = "KM")]
+    #[arg(long, value_name = "KM", allow_hyphen_values = true)]
     pub cross_sigma: Option<f64>,
     /// Track-error σ along the track, km (timing error as distance). Take it from your own
     /// verification; the default (50 km) is an example, not a climatology.
-    #[arg(long, value_name = "KM")]
+    #[arg(long, value_name = "KM", allow_hyphen_values = true)]
     pub along_sigma: Option<f64>,
     /// Also write report.html (always written by `demo`).
     #[arg(long)]

@@ -38,7 +38,7 @@ pub fn inspect(inputs: &[PathBuf]) -> Result<(), anyhow::Error> {
 
 fn parse_start(s: &str) -> Result<(f64, f64), Failure> {
     let bad = || {
-        Failure::Input(anyhow!(
+        Failure::Usage(anyhow!(
             "--start '{s}': expected LAT,LON in degrees, e.g. 47.5,-30"
         ))
     };

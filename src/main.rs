@@ -14,18 +14,52 @@ use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 use trackswing::case::{Case, Overrides};
 
-/// Where the shipped demo case lives: next to the sources when run from a checkout.
-fn demo_case() -> PathBuf {
-    let here = PathBuf::from("demo-grid/case.toml");
-    if here.is_file() {
-        return here;
+/// Where the shipped demo case lives: `demo-grid/case.toml` in the current folder, else beside
+/// the binary or up to three folders above it (a checkout's `target/release/trackswing`), else
+/// in `../share/trackswing/` from the binary (an installed layout). Never a path baked in at build
+/// time: a binary copied to another machine must not read a source tree that happens to be there.
+/// The error lists every place looked.
+fn demo_case() -> Result<PathBuf, Failure> {
+    let rel = Path::new("demo-grid").join("case.toml");
+    let mut places = vec![rel.clone()];
+    if let Ok(exe) = std::env::current_exe() {
+        let exe = exe.canonicalize().unwrap_or(exe);
+        for dir in exe.ancestors().skip(1).take(4) {
+            places.push(dir.join(&rel));
+        }
+        if let Some(bin) = exe.parent().and_then(Path::parent) {
+            places.push(bin.join("share").join("trackswing").join(&rel));
+        }
     }
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-grid/case.toml")
+    match places.iter().find(|p| p.is_file()) {
+        Some(p) => Ok(p.clone()),
+        None => Err(Failure::Input(anyhow::anyhow!(
+            "the demo case was not found; looked for {}; run `trackswing demo` from a checkout \
+             of trackswing, or copy its demo-grid/ folder into the current folder",
+            places
+                .iter()
+                .map(|p| p.display().to_string())
+                .collect::<Vec<_>>()
+                .join(", ")
+        ))),
+    }
 }
 
 enum Failure {
+    /// A command-line option's value is wrong (exit code 2, as clap gives for its own checks).
+    Usage(anyhow::Error),
     Input(anyhow::Error),
     Output(anyhow::Error),
+}
+
+/// A case that could not be loaded: a bad option value is a bad command line (2), anything
+/// else a bad input (3).
+fn case_failure(e: trackswing::case::CaseError) -> Failure {
+    if matches!(e, trackswing::case::CaseError::Flag { .. }) {
+        Failure::Usage(e.into())
+    } else {
+        Failure::Input(e.into())
+    }
 }
 
 /// What `run` was given: a case file, or model files with optional track and towns.
@@ -77,14 +111,14 @@ fn run_case(
             towns,
         } => Case::from_model_files(files, track, towns, &over),
     }
-    .map_err(|e| Failure::Input(e.into()))?;
+    .map_err(case_failure)?;
     let threads = common.threads.unwrap_or_else(|| {
         std::thread::available_parallelism()
             .map(|n| n.get())
             .unwrap_or(1)
     });
     if threads == 0 {
-        return Err(Failure::Input(anyhow::anyhow!(
+        return Err(Failure::Usage(anyhow::anyhow!(
             "--threads must be at least 1"
         )));
     }
@@ -194,7 +228,7 @@ fn plan_of(read: &cli::Inputs) -> Result<Plan<'_>, Failure> {
             .is_some_and(|e| e.eq_ignore_ascii_case("toml"));
     if is_case {
         if track.is_some() || towns.is_some() {
-            return Err(Failure::Input(anyhow::anyhow!(
+            return Err(Failure::Usage(anyhow::anyhow!(
                 "--track and --towns go with model files; a case file names its own track and towns"
             )));
         }
@@ -212,7 +246,7 @@ fn run_plan(a: &cli::RunArgs) -> Result<(), Failure> {
     let mode = match &a.shard {
         None => Mode::Layers,
         Some(text) => Mode::Shard(trackswing::engine::Shard::parse(text).ok_or_else(|| {
-            Failure::Input(anyhow::anyhow!(
+            Failure::Usage(anyhow::anyhow!(
                 "--shard '{text}': expected K/N with 1 ≤ K ≤ N, e.g. 2/4 for the second of four shards"
             ))
         })?),
@@ -227,7 +261,7 @@ fn merge_plan(a: &cli::MergeArgs) -> Result<(), Failure> {
 
 /// `trackswing sounding`: the library makes the sounding, this prints it.
 fn sounding(a: &cli::SoundingArgs) -> Result<(), Failure> {
-    let bad = |what: String| Failure::Input(anyhow::anyhow!(what));
+    let bad = |what: String| Failure::Usage(anyhow::anyhow!(what));
     let (lat, lon) =
         a.at.split_once(',')
             .and_then(|(la, lo)| {
@@ -254,7 +288,7 @@ fn sounding(a: &cli::SoundingArgs) -> Result<(), Failure> {
         no_dry_air: a.no_dry_air,
         ..Default::default()
     };
-    let case = Case::load(&a.case, &over).map_err(|e| Failure::Input(e.into()))?;
+    let case = Case::load(&a.case, &over).map_err(case_failure)?;
     let req = trackswing::sounding::SoundingRequest {
         lat,
         lon,
@@ -303,13 +337,15 @@ fn main() -> ExitCode {
         Command::Merge(a) => merge_plan(a),
         Command::Inspect(a) => commands::inspect(&a.inputs).map_err(Failure::Input),
         Command::Track(a) => commands::track(a),
-        Command::Demo(a) => run_case(
-            Plan::CaseFile(&demo_case()),
-            &a.common,
-            Some(PathBuf::from("demo-out")),
-            true,
-            Mode::Layers,
-        ),
+        Command::Demo(a) => demo_case().and_then(|case| {
+            run_case(
+                Plan::CaseFile(&case),
+                &a.common,
+                Some(PathBuf::from("demo-out")),
+                true,
+                Mode::Layers,
+            )
+        }),
         Command::Report(a) => trackswing::write::report::write_report_and_list(&a.out_dir)
             .map(|p| println!("wrote {}", p.display()))
             .with_context(|| format!("writing the report for {}", a.out_dir.display()))
@@ -347,6 +383,7 @@ fn main() -> ExitCode {
         Ok(()) => ExitCode::SUCCESS,
         Err(f) => {
             let (code, e) = match f {
+                Failure::Usage(e) => (2, e),
                 Failure::Input(e) => (3, e),
                 Failure::Output(e) => (4, e),
             };

@@ -122,7 +122,67 @@ pub fn shard_summary(
     let _ = std::io::stdout().lock().write_all(out.as_bytes());
 }
 
-/// Prints what was written and the towns whose totals swing most.
+/// The five bust-prone towns at the top of `towns_bust.csv`, the ranking report.html shows, read
+/// back from the file written so that the terminal, the table and the report cannot disagree.
+/// Nothing when the run wrote no such table.
+fn bust_prone_towns(out: &mut String, dir: &std::path::Path, su: &str) {
+    use std::fmt::Write as _;
+    let Ok(mut rdr) = csv::Reader::from_path(dir.join("towns_bust.csv")) else {
+        return;
+    };
+    let Ok(header) = rdr.headers().cloned() else {
+        return;
+    };
+    let cols = [
+        "name".to_string(),
+        format!("baseline_{su}"),
+        format!("p10_{su}"),
+        format!("p90_{su}"),
+        "bust_score".to_string(),
+        "flip_direction".to_string(),
+        "flip_what".to_string(),
+    ];
+    let Some(idx) = cols
+        .iter()
+        .map(|c| header.iter().position(|h| h == c))
+        .collect::<Option<Vec<usize>>>()
+    else {
+        return;
+    };
+    let rows: Vec<csv::StringRecord> = rdr.records().take(5).flatten().collect();
+    if rows.is_empty() {
+        return;
+    }
+    let _ = writeln!(
+        out,
+        "bust-prone towns, ranked by bust score as in towns_bust.csv and report.html (likely range P90 − P10 over the snowfall as modelled, floored at 5 cm; {su}):"
+    );
+    let _ = writeln!(
+        out,
+        "  {:<20} {:>9} {:>7} {:>7} {:>6}  first flip",
+        "town", "as model", "P10", "P90", "score"
+    );
+    for r in rows {
+        let get = |k: usize| r.get(idx[k]).unwrap_or("");
+        let flip = match (get(5), get(6)) {
+            ("", "") => "missing data".to_string(),
+            ("", what) => what.to_string(),
+            (dir, what) => format!("{what} with the low {dir}"),
+        };
+        let _ = writeln!(
+            out,
+            "  {:<20} {:>9} {:>7} {:>7} {:>6}  {}",
+            get(0),
+            get(1),
+            get(2),
+            get(3),
+            get(4),
+            flip
+        );
+    }
+}
+
+/// Prints what was written and the bust-prone towns.
 pub fn summary(
     case: &Case,
     r: &RunResult,
@@ -159,37 +219,7 @@ pub fn summary(
     for f in files {
         let _ = writeln!(out, "  {:<38} {}", f.file, f.description);
     }
-    let towns = trackswing::summarise::towns(r);
-    let ranked = trackswing::summarise::by_swing(&towns);
-    if !ranked.is_empty() {
-        let _ = writeln!(
-            out,
-            "towns whose snowfall swings most with track error ({}):",
-            u.snow_unit()
-        );
-        let _ = writeln!(
-            out,
-            "  {:<20} {:>9} {:>7} {:>7} {:>7}  smallest when / largest when",
-            "town", "as model", "min", "max", "range"
-        );
-        for t in ranked.iter().take(5) {
-            if t.min.is_nan() {
-                let _ = writeln!(out, "  {:<20} missing in some scenario", t.name);
-                continue;
-            }
-            let _ = writeln!(
-                out,
-                "  {:<20} {:>9.1} {:>7.1} {:>7.1} {:>7.1}  {} / {}",
-                t.name,
-                u.snow(t.snowfall[r.baseline]),
-                u.snow(t.min),
-                u.snow(t.max),
-                u.snow(t.range()),
-                r.scenarios[t.argmin].in_words_in(u),
-                r.scenarios[t.argmax].in_words_in(u)
-            );
-        }
-    }
+    bust_prone_towns(&mut out, &case.out_dir, u.snow_unit());
     let _ = writeln!(out, "{}", trackswing::CAUTION);
     // A closed pipe (e.g. `| head`) is not an error worth a panic.
     let _ = std::io::stdout().lock().write_all(out.as_bytes());

@@ -155,22 +155,6 @@ pub fn towns(result: &RunResult) -> Vec<TownSummary> {
         .collect()
 }
 
-/// Towns ordered by how much their snowfall swings (largest range first; missing last; ties by
-/// name so the order is stable).
-pub fn by_swing(towns: &[TownSummary]) -> Vec<&TownSummary> {
-    let mut v: Vec<&TownSummary> = towns.iter().collect();
-    v.sort_by(|a, b| {
-        let (ra, rb) = (a.range(), b.range());
-        match (ra.is_nan(), rb.is_nan()) {
-            (true, true) => a.name.cmp(&b.name),
-            (true, false) => std::cmp::Ordering::Greater,
-            (false, true) => std::cmp::Ordering::Less,
-            _ => rb.total_cmp(&ra).then_with(|| a.name.cmp(&b.name)),
-        }
-    });
-    v
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;

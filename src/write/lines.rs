@@ -10,7 +10,7 @@ use super::{write_text_atomic, Kind, WriteError, Written};
 use crate::engine::RunResult;
 use crate::grid::Grid;
 use contour::ContourBuilder;
-use geojson::{Feature, FeatureCollection, Geometry, GeometryValue, JsonObject};
+use geojson::{Feature, FeatureCollection, Geometry, GeometryValue};
 use std::path::Path;
 
 /// The snow fraction that separates "mostly snow" from "mostly rain or ice".
@@ -124,12 +124,7 @@ pub fn write_rain_snow_lines(
     let mut features = Vec::new();
     for (i, (s, lines)) in r.scenarios.iter().zip(lines).enumerate() {
         let lines = lines.clone();
-        let mut props = JsonObject::new();
-        props.insert("scenario".into(), i.into());
-        props.insert("cross_km".into(), s.cross_km.into());
-        props.insert("along_km".into(), s.along_km.into());
-        props.insert("label".into(), s.label().into());
-        props.insert("baseline".into(), s.is_baseline().into());
+        let mut props = super::scenario_properties(i, s);
         props.insert("snow_fraction".into(), RAIN_SNOW_FRACTION.into());
         let geometry = Geometry::new(GeometryValue::new_multi_line_string(lines));
         features.push(Feature {

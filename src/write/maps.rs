@@ -310,6 +310,8 @@ struct MapSpec<'a> {
     field: &'a [f32],
     classes: Classes,
     nearest_only: bool,
+    /// The unit of `field` in words, ending the subtitle ("snowfall in cm", "distance in km").
+    unit_words: String,
     /// Cells (value 0 in this layer) shown as "nothing flips within the offsets run".
     never: Option<&'a [f32]>,
 }
@@ -620,7 +622,8 @@ fn render(grid: &Grid, spec: &MapSpec, o: &Overlay, scenarios: usize) -> Canvas 
     let mut c = Canvas::new(w, h, WHITE);
     let f = &o.frame;
     text::draw(&mut c, MARGIN, 16.0, 24.0, INK, &spec.title);
-    text::draw(&mut c, MARGIN, 52.0, 13.5, MUTED, &o.subtitle);
+    let subtitle = format!("{} · {}", o.subtitle, spec.unit_words);
+    text::draw(&mut c, MARGIN, 52.0, 13.5, MUTED, &subtitle);
     draw_field(&mut c, grid, f, spec);
     draw_overlays(&mut c, grid, o);
     c.stroke_rect(
@@ -703,15 +706,7 @@ pub fn write_maps(
         track,
         centres,
         towns: ranked_towns,
-        subtitle: format!(
-            "{} · {} track offsets · snowfall in {}",
-            ctx.title,
-            r.scenarios.len(),
-            match u {
-                Units::Metric => "cm",
-                Units::Us => "inches",
-            }
-        ),
+        subtitle: format!("{} · {} track offsets", ctx.title, r.scenarios.len()),
         notes: vec![
             format!(
                 "Offsets: across the track {} (positive = left of the storm's motion), along it {} (positive = ahead).",
@@ -722,6 +717,13 @@ pub fn write_maps(
         ],
     };
 
+    let snow_words = format!(
+        "snowfall in {}",
+        match u {
+            Units::Metric => "cm",
+            Units::Us => "inches",
+        }
+    );
     let to_unit = |v: &[f32]| v.iter().map(|x| u.snow(*x)).collect::<Vec<f32>>();
     let baseline = to_unit(&r.totals[r.baseline].snowfall);
     let p90 = to_unit(&inputs.snow_p90);
@@ -747,6 +749,7 @@ pub fn write_maps(
             field: &baseline,
             classes: amounts,
             nearest_only: false,
+            unit_words: snow_words.clone(),
             never: None,
         },
         MapSpec {
@@ -763,6 +766,7 @@ pub fn write_maps(
                 &ramp::snow(),
             ),
             nearest_only: false,
+            unit_words: snow_words.clone(),
             never: None,
         },
         MapSpec {
@@ -772,6 +776,7 @@ pub fn write_maps(
             field: &range,
             classes: range_classes,
             nearest_only: false,
+            unit_words: snow_words.clone(),
             never: None,
         },
         MapSpec {
@@ -787,6 +792,10 @@ pub fn write_maps(
             field: &inputs.flip.distance_km,
             classes: distance_classes(far, &ramp::flip(), u),
             nearest_only: true,
+            unit_words: match u {
+                Units::Metric => "track shift in km".into(),
+                Units::Us => "track shift in km (miles in the legend)".into(),
+            },
             never: Some(&inputs.flip.kind),
         },
     ];
@@ -808,7 +817,10 @@ pub fn write_maps(
             } else {
                 su.into()
             },
-            description: format!("Quicklook map (PNG): {}", spec.title),
+            description: format!(
+                "Quicklook map (PNG): {} ({} · {})",
+                spec.title, overlay.subtitle, spec.unit_words
+            ),
             bands: Vec::new(),
         });
     }

@@ -128,6 +128,23 @@ pub fn write_text_atomic(dir: &Path, name: &str, text: &str) -> Result<PathBuf, 
     })
 }
 
+/// The properties that say which scenario a vector feature belongs to: its index (the band of
+/// the per-scenario stack), every axis as a number (`cross_km`, `along_km`, `timing_h`,
+/// `intensity`, `warm_bias_k`, so a GIS can filter on each), the label in words and whether it
+/// is the model as issued.
+pub fn scenario_properties(index: usize, s: &crate::scenario::Scenario) -> geojson::JsonObject {
+    let mut props = geojson::JsonObject::new();
+    props.insert("scenario".into(), index.into());
+    props.insert("cross_km".into(), s.cross_km.into());
+    props.insert("along_km".into(), s.along_km.into());
+    props.insert("timing_h".into(), s.timing_h.into());
+    props.insert("intensity".into(), s.intensity.into());
+    props.insert("warm_bias_k".into(), s.warm_bias_k.into());
+    props.insert("label".into(), s.label().into());
+    props.insert("baseline".into(), s.is_baseline().into());
+    props
+}
+
 /// The prior in words, for maps and the report.
 pub fn prior_words(p: &crate::summarise::weights::TrackPrior) -> String {
     use crate::summarise::weights::TrackPrior;

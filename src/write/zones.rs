@@ -58,12 +58,7 @@ pub fn write_transition_zones(dir: &Path, r: &RunResult) -> Result<Written, Writ
             let data = Padded::mask(&r.grid, |k| !f[k].is_nan()).at_least(0.5)?;
             let field = Padded::new(&r.grid, &f, -1.0);
             let zone = band(&field, &data, TRANSITION.0, Some(TRANSITION.1))?;
-            let mut props = JsonObject::new();
-            props.insert("scenario".into(), i.into());
-            props.insert("cross_km".into(), s.cross_km.into());
-            props.insert("along_km".into(), s.along_km.into());
-            props.insert("label".into(), s.label().into());
-            props.insert("baseline".into(), s.is_baseline().into());
+            let mut props = super::scenario_properties(i, s);
             props.insert("snow_fraction_min".into(), TRANSITION.0.into());
             props.insert("snow_fraction_max".into(), TRANSITION.1.into());
             Ok(feature(&to_lonlat(&r.grid, &zone), props))

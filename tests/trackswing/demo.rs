@@ -72,7 +72,22 @@ fn demo_writes_every_layer_and_the_same_bytes_on_one_thread() {
     let (a, b) = (d.path().join("a"), d.path().join("b"));
     let text = run_demo(&a, &["--threads", "2"]);
     run_demo(&b, &["--threads", "1"]);
-    assert!(text.contains("towns whose snowfall swings most"), "{text}");
+    // Regression, [trust] item 9: the terminal lists the towns in the order of towns_bust.csv
+    // (the report's ranking), not by a rule of its own.
+    assert!(text.contains("ranked by bust score"), "{text}");
+    let first_ranked = csv::Reader::from_path(a.join("towns_bust.csv"))
+        .unwrap()
+        .records()
+        .next()
+        .unwrap()
+        .unwrap()[1]
+        .to_string();
+    let listed = text
+        .lines()
+        .skip_while(|l| !l.starts_with("bust-prone towns, ranked by bust score"))
+        .nth(2)
+        .unwrap_or_default();
+    assert!(listed.trim_start().starts_with(&first_ranked), "{text}");
     assert!(text.contains("not an official forecast"), "{text}");
     for f in [
         "snowfall_by_scenario.tif",

@@ -14,3 +14,4 @@ mod reference;
 mod report;
 mod shards;
 mod support;
+mod usage;

@@ -212,7 +212,8 @@ fn merge_refuses_shards_that_do_not_belong_together() {
     assert!(e.contains("model inputs differ"), "{e}");
     assert!(!out.exists(), "a refused merge writes nothing");
     // A bad shard argument.
-    let e = run_fails(&with_out("run", &split, &["--shard", "4/3"]), &[], 3);
+    // A bad option value is a bad command line (README: exit code 2).
+    let e = run_fails(&with_out("run", &split, &["--shard", "4/3"]), &[], 2);
     assert!(
         e.contains("--shard '4/3'") && e.contains("1 ≤ K ≤ N"),
         "{e}"

@@ -28,7 +28,6 @@ mod geokeys;
 mod metadata;
 mod overview;
 mod predictor;
-mod projection;
 mod read;
 mod strip;
 #[cfg(test)]
@@ -40,7 +39,6 @@ pub use cog::{write_cog, BigTiff, CogOptions, CogReport};
 pub use crs::{Crs, Datum, Projected, Projection, WGS84_A, WGS84_INV_F};
 pub use error::GeoTiffError;
 pub use overview::overview_sizes;
-pub use projection::{forward, inverse};
 pub use read::read_geotiff;
 pub use write::write_geotiff;
 

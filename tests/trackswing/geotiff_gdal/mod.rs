@@ -17,6 +17,7 @@ mod cog;
 mod projected;
 
 use crate::reference::gdal::*;
+use crate::reference::JsonPath;
 use trackswing::geotiff::*;
 
 #[test]
@@ -32,13 +33,13 @@ fn gdal_reads_float32_layer_as_written() {
     for (k, v) in &l.dataset {
         assert_eq!(info.at(&format!("metadata//{k}")).str(), Some(v.as_str()));
     }
-    let bands = info.get("bands").arr();
+    let bands = info.at("bands").arr();
     assert_eq!(bands.len(), 3);
     for (b, band) in bands.iter().enumerate() {
-        assert_eq!(band.get("type").str(), Some("Float32"));
-        assert_eq!(band.get("noDataValue").num(), Some(-9999.0));
+        assert_eq!(band.at("type").str(), Some("Float32"));
+        assert_eq!(band.at("noDataValue").num(), Some(-9999.0));
         assert_eq!(
-            band.get("description").str(),
+            band.at("description").str(),
             Some(l.descriptions[b].as_str())
         );
         for (k, v) in &l.metadata[b] {
@@ -142,13 +143,13 @@ fn gdal_reads_int16_scaling_as_written() {
     );
     let info = gdalinfo(&path);
     assert_georeferencing(&info);
-    for (b, band) in info.get("bands").arr().iter().enumerate() {
-        assert_eq!(band.get("type").str(), Some("Int16"));
-        assert_eq!(band.get("noDataValue").num(), Some(-32768.0));
-        assert_eq!(band.get("scale").num(), Some(scale));
-        assert_eq!(band.get("offset").num(), Some(offset));
+    for (b, band) in info.at("bands").arr().iter().enumerate() {
+        assert_eq!(band.at("type").str(), Some("Int16"));
+        assert_eq!(band.at("noDataValue").num(), Some(-32768.0));
+        assert_eq!(band.at("scale").num(), Some(scale));
+        assert_eq!(band.at("offset").num(), Some(offset));
         assert_eq!(
-            band.get("description").str(),
+            band.at("description").str(),
             Some(l.descriptions[b].as_str())
         );
         assert_eq!(band.at("metadata//units").str(), Some("cm"));

@@ -3,7 +3,8 @@
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
-use super::json::{self, Json};
+use super::JsonPath;
+use serde_json::Value as Json;
 use trackswing::geotiff::*;
 
 pub const W: usize = 37;
@@ -116,7 +117,7 @@ pub fn write(dir: &Path, name: &str, l: &Layer, encoding: SampleEncoding) -> Pat
 }
 
 pub fn gdalinfo(path: &Path) -> Json {
-    json::parse(&run(
+    serde_json::from_str(&run(
         "gdalinfo",
         &["-json", "-stats", path.to_str().unwrap()],
     ))
@@ -127,10 +128,10 @@ pub fn assert_georeferencing(info: &Json) {
     assert_eq!(info.at("size/0").num(), Some(W as f64));
     assert_eq!(info.at("size/1").num(), Some(H as f64));
     let gt: Vec<f64> = info
-        .get("geoTransform")
+        .at("geoTransform")
         .arr()
         .iter()
-        .filter_map(Json::num)
+        .filter_map(Json::as_f64)
         .collect();
     assert_eq!(gt, GT);
     let wkt = info.at("coordinateSystem/wkt").str().unwrap();

@@ -478,7 +478,7 @@ fn describe(
     let n = energy_areas(
         profile.pressures(),
         profile.temperatures(),
-        crate::diagnose::column::PROFILE_TOP_PA,
+        crate::diagnose::profile::PROFILE_TOP_PA,
         &mut layers,
     );
     out.energy_areas = layers[..n]

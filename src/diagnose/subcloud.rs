@@ -15,7 +15,7 @@
 //! (the cloud base) and 0 from it upward; the ramp keeps S continuous when a level's humidity
 //! crosses the threshold. A column with no cloud up to 500 hPa counts as sub-cloud throughout.
 
-use super::column::{Profile, PROFILE_TOP_PA, SURFACE};
+use super::profile::{Profile, PROFILE_TOP_PA, SURFACE};
 use super::ptype::{smoothstep, MAX_LEVELS};
 use super::thermo::{isobaric_wet_bulb_deficit_humidity, saturation_vapor_pressure, EPSILON, G};
 
@@ -51,7 +51,7 @@ impl SubCloud {
     /// kernels' domain.
     ///
     /// ```
-    /// use trackswing::diagnose::column::Profile;
+    /// use trackswing::diagnose::profile::Profile;
     /// use trackswing::diagnose::subcloud::SubCloud;
     /// use trackswing::diagnose::thermo::saturation_deficit;
     /// // 1000 and 900 hPa at 0 °C and 50 %, saturated cloud from 800 hPa: the trapezoid of

@@ -24,7 +24,7 @@
 //! first time its sub-cloud layer asks for one.
 
 use super::ScenarioStep;
-use crate::diagnose::column::PROFILE_TOP_PA;
+use crate::diagnose::profile::PROFILE_TOP_PA;
 use crate::diagnose::thermo::isobaric_wet_bulb_deficit_humidity;
 use crate::read::StepLayout;
 use rayon::prelude::*;
@@ -151,7 +151,7 @@ impl std::fmt::Debug for LevelMoisture {
 }
 
 /// Level `k`'s wet-bulb, moistening and humidity at grid point `cell`, with the warm bias added
-/// as [`crate::diagnose::column::Profile::build`] adds it; NaN out of the kernel's domain.
+/// as [`crate::diagnose::profile::Profile::build`] adds it; NaN out of the kernel's domain.
 fn solve(
     columns: &[f32],
     layout: &StepLayout,

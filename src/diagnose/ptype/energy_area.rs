@@ -1,72 +1,8 @@
-//! Precipitation-type fractions (snow, ice pellets, freezing rain, rain) from a temperature
-//! profile, from partial thicknesses, or from surface temperature and humidity.
-//!
-//! Every method returns fractions that vary continuously with its inputs (smoothstep ramps
-//! through each mixed range), so that accumulated totals vary smoothly with the track offset.
-//! Bibliography keys (AuthorYear) refer to docs/REFERENCES.md.
+//! Bourgouin's (2000) energy-area method: the areas between the sounding and the 0 °C
+//! isotherm, warm and cold layers, and the precipitation-type fractions they give.
 
-use super::thermo::{RD, T_FREEZE};
-
-/// Shares of the precipitation falling as each type, dimensionless; they sum to 1
-/// (all four are NaN when the input was out of domain).
-///
-/// ```
-/// use trackswing::diagnose::ptype::{bourgouin, PtypeFractions};
-/// // An all-subfreezing column gives snow only (Bourgouin 2000: no warm layer).
-/// let f = bourgouin(&[100_000.0, 50_000.0], &[268.15, 243.15]);
-/// assert_eq!(f, PtypeFractions { snow: 1.0, ..PtypeFractions::default() });
-/// ```
-#[derive(Clone, Copy, Debug, PartialEq, Default)]
-pub struct PtypeFractions {
-    /// Snow.
-    pub snow: f64,
-    /// Ice pellets (sleet): drops that melted aloft and refroze before landing.
-    pub ice_pellets: f64,
-    /// Freezing rain: liquid landing on a subfreezing surface.
-    pub freezing_rain: f64,
-    /// Rain.
-    pub rain: f64,
-}
-
-impl PtypeFractions {
-    fn nan() -> Self {
-        PtypeFractions {
-            snow: f64::NAN,
-            ice_pellets: f64::NAN,
-            freezing_rain: f64::NAN,
-            rain: f64::NAN,
-        }
-    }
-
-    /// Splits `liquid` between freezing rain and rain by the surface temperature `t_surface_k`.
-    /// Shares are clamped to [0, 1] against rounding (a product chain can reach 1 + 2⁻⁵²).
-    fn with_liquid(snow: f64, ice_pellets: f64, liquid: f64, t_surface_k: f64) -> Self {
-        let (snow, ice_pellets, liquid) = (
-            snow.clamp(0.0, 1.0),
-            ice_pellets.clamp(0.0, 1.0),
-            liquid.clamp(0.0, 1.0),
-        );
-        let freezing = 1.0 - surface_thaw(t_surface_k);
-        PtypeFractions {
-            snow,
-            ice_pellets,
-            freezing_rain: liquid * freezing,
-            rain: liquid * (1.0 - freezing),
-        }
-    }
-}
-
-/// Most points a profile may have (and so most layers [`energy_areas`] can return).
-///
-/// ```
-/// use trackswing::diagnose::ptype::{energy_areas, Layer, MAX_LEVELS};
-/// // A profile with more points than MAX_LEVELS is refused (no layers).
-/// let p: Vec<f64> = (0..=MAX_LEVELS).map(|i| 100_000.0 - 500.0 * i as f64).collect();
-/// let t = vec![270.0; p.len()];
-/// let mut out = [Layer::default(); MAX_LEVELS];
-/// assert_eq!(energy_areas(&p, &t, 50_000.0, &mut out), 0);
-/// ```
-pub const MAX_LEVELS: usize = 64;
+use super::{smoothstep, PtypeFractions, MAX_LEVELS};
+use crate::diagnose::thermo::{RD, T_FREEZE};
 
 /// One layer of the profile between two pressures, all on one side of 0 °C.
 ///
@@ -106,25 +42,6 @@ const REFREEZE_PER_PA: f64 = 0.66;
 /// whose slope never exceeds 0.96, so cooling a column can never lower the onset faster than
 /// it removes warm area: the snow fraction stays monotone in temperature.
 const COLD_BELOW_BLEND: f64 = 5.6;
-
-/// Half-width, K, of the ramp around 0 °C that splits liquid at the surface between freezing
-/// rain and rain (keeps fractions continuous as the surface crosses 0 °C).
-const SURFACE_FREEZE_HALF_WIDTH_K: f64 = 0.25;
-
-/// Smoothstep 3u² − 2u³ of u = (x − lo)/(hi − lo) clamped to [0, 1]: 0 at lo, 1 at hi, C1.
-pub(crate) fn smoothstep(lo: f64, hi: f64, x: f64) -> f64 {
-    let u = ((x - lo) / (hi - lo)).clamp(0.0, 1.0);
-    u * u * (3.0 - 2.0 * u)
-}
-
-/// Share of surface liquid that stays liquid (rain) at surface temperature `t_k`.
-fn surface_thaw(t_k: f64) -> f64 {
-    smoothstep(
-        T_FREEZE - SURFACE_FREEZE_HALF_WIDTH_K,
-        T_FREEZE + SURFACE_FREEZE_HALF_WIDTH_K,
-        t_k,
-    )
-}
 
 fn valid_profile(p_pa: &[f64], t_k: &[f64]) -> bool {
     let n = p_pa.len();
@@ -216,7 +133,7 @@ pub fn energy_areas(
 }
 
 /// [`energy_areas`] of a profile already checked, with the logarithms of the pressures given
-/// (`ln_p_pa[i]` = ln `p_pa[i]`, as a built [`crate::diagnose::column::Profile`] holds them): no
+/// (`ln_p_pa[i]` = ln `p_pa[i]`, as a built [`crate::diagnose::profile::Profile`] holds them): no
 /// logarithm per segment. Without `PRESSURES`, a layer that starts or ends where a segment
 /// crosses 0 °C takes the segment's bottom pressure there instead of the crossing's: the areas,
 /// all that Bourgouin's rules read, are the same bit for bit, and no `exp` is taken per
@@ -324,7 +241,7 @@ pub fn bourgouin(p_pa: &[f64], t_k: &[f64]) -> PtypeFractions {
 }
 
 /// [`bourgouin`] with the logarithms of the pressures given (`ln_p_pa[i]` = ln `p_pa[i]`), as a
-/// built [`crate::diagnose::column::Profile`] holds them: no logarithm per segment.
+/// built [`crate::diagnose::profile::Profile`] holds them: no logarithm per segment.
 pub fn bourgouin_ln(p_pa: &[f64], ln_p_pa: &[f64], t_k: &[f64]) -> PtypeFractions {
     // The layer buffer is kept per thread: zeroing 1.5 kB per call was 3 % of a run.
     LAYERS.with_borrow_mut(|buf| bourgouin_in(p_pa, ln_p_pa, t_k, buf))
@@ -420,137 +337,11 @@ fn fractions_of_valid(
     PtypeFractions::with_liquid(snow, pellets, liquid, t_k[0])
 }
 
-/// Partial-thickness thresholds, m [common practice].
-const SNOW_850_700_M: f64 = 1540.0;
-const FREEZING_RAIN_850_700_M: f64 = 1560.0;
-const RAIN_1000_850_M: f64 = 1310.0;
-const RAIN_1000_500_M: f64 = 5400.0;
-/// Ramp half-widths, m: ±5 m is about ±1 K of layer-mean temperature for 850–700 and
-/// 1000–850 hPa (5.7 and 4.8 m/K), and ±20 m the same for 1000–500 hPa (20.3 m/K). The narrow
-/// 850–700 ramps keep a pure ice-pellet plateau (1545–1555 m) inside the 1540–1560 m band.
-const HALF_WIDTH_PARTIAL_M: f64 = 5.0;
-const HALF_WIDTH_1000_500_M: f64 = 20.0;
-
-fn ramp_about(centre: f64, half_width: f64, x: f64) -> f64 {
-    smoothstep(centre - half_width, centre + half_width, x)
-}
-
-/// Precipitation-type fractions from partial thicknesses (m) and the surface wet-bulb
-/// temperature (K), by the forecasters' partial-thickness rules [common practice; no single
-/// peer-reviewed source]:
-/// - 850–700 hPa ≤ 1540 m: snow; 1540–1560 m: ice pellets (melting aloft, refreezing below);
-///   > 1560 m: liquid, which is freezing rain on a surface with wet-bulb ≤ 0 °C, else rain;
-/// - 1000–850 hPa > 1310 m: the low levels melt whatever falls into them (liquid);
-/// - 1000–500 hPa 5400 m: the traditional rain/snow line, used only when 850–700 hPa is
-///   missing.
-///
-/// Ramps (smoothstep): ±5 m about 1540, 1560 and 1310 m (≈ ±1 K of layer-mean temperature),
-/// ±20 m about 5400 m (the same ≈ ±1 K), ±0.25 K about 0 °C for the freezing-rain split.
-///
-/// Missing levels: pass NaN for a thickness whose levels are below ground. A NaN 1000–850 hPa
-/// thickness means no low-level layer to melt in (that term drops out); a NaN 850–700 hPa
-/// thickness falls back to the 1000–500 hPa line; if both 850–700 and 1000–500 are NaN the
-/// result is NaN.
-///
-/// Validity: thicknesses finite and positive (or NaN as above), wet-bulb 173.15–373.15 K;
-/// NaN fractions otherwise.
-///
-/// ```
-/// use trackswing::diagnose::ptype::partial_thickness;
-/// // Common practice: 850–700 hPa at 1520 m (≤ 1540) and 1000–850 hPa at 1280 m: snow.
-/// let f = partial_thickness(1280.0, 1520.0, 5350.0, 272.15);
-/// assert!((f.snow - 1.0).abs() < 1e-12);
-/// ```
-pub fn partial_thickness(
-    dz_1000_850_m: f64,
-    dz_850_700_m: f64,
-    dz_1000_500_m: f64,
-    tw_surface_k: f64,
-) -> PtypeFractions {
-    let usable = |dz: f64| dz.is_nan() || (dz > 0.0 && dz.is_finite());
-    if !(usable(dz_1000_850_m) && usable(dz_850_700_m) && usable(dz_1000_500_m)) {
-        return PtypeFractions::nan();
-    }
-    if !(173.15..=373.15).contains(&tw_surface_k) {
-        return PtypeFractions::nan();
-    }
-    let low_melt = if dz_1000_850_m.is_nan() {
-        0.0
-    } else {
-        ramp_about(RAIN_1000_850_M, HALF_WIDTH_PARTIAL_M, dz_1000_850_m)
-    };
-    let (aloft_partial, aloft_full) = if !dz_850_700_m.is_nan() {
-        (
-            ramp_about(SNOW_850_700_M, HALF_WIDTH_PARTIAL_M, dz_850_700_m),
-            ramp_about(FREEZING_RAIN_850_700_M, HALF_WIDTH_PARTIAL_M, dz_850_700_m),
-        )
-    } else if !dz_1000_500_m.is_nan() {
-        let melt = ramp_about(RAIN_1000_500_M, HALF_WIDTH_1000_500_M, dz_1000_500_m);
-        (melt, melt)
-    } else {
-        return PtypeFractions::nan();
-    };
-    let snow = (1.0 - aloft_partial) * (1.0 - low_melt);
-    let pellets = (aloft_partial - aloft_full) * (1.0 - low_melt);
-    PtypeFractions::with_liquid(snow, pellets, 1.0 - snow - pellets, tw_surface_k)
-}
-
-/// Jennings et al. (2018) logistic coefficients (T in °C, RH in %).
-const JENNINGS_A: f64 = -10.04;
-const JENNINGS_B: f64 = 1.41;
-const JENNINGS_C: f64 = 0.09;
-/// Wet-bulb range, °C, over which a warm layer aloft goes from leaving snow intact to melting
-/// it completely (after Stewart & King 1987: partial below ~1 °C, complete above 3–4 °C).
-const MELT_TW_START_C: f64 = 1.0;
-const MELT_TW_END_C: f64 = 3.0;
-
-/// Precipitation-type fractions from 2 m temperature (K) and relative humidity (%), with a
-/// melting-layer check aloft.
-///
-/// Snow probability: p = 1/(1 + exp(−10.04 + 1.41·T + 0.09·RH)), T in °C, RH in % (Jennings,
-/// K. S., T. S. Winchell, B. Livneh, and N. P. Molotch, 2018: Spatial variation of the
-/// rain–snow temperature threshold across the Northern Hemisphere. *Nature Communications*,
-/// **9**, 1148, bivariate binary logistic model). Melting aloft: if the warmest wet-bulb in a
-/// layer aloft, `warm_layer_max_tw_k`, exceeds about 3 °C the snow melts completely, and below
-/// about 1 °C it survives (Stewart, R. E., and P. King, 1987: Freezing precipitation in winter
-/// storms. *Mon. Wea. Rev.*, **115**, 1270–1279; pages from memory); the share melted ramps
-/// (smoothstep) from 1 °C to 3 °C. The liquid — Jennings' rain share plus the melted snow — is
-/// freezing rain on a subfreezing surface and rain otherwise (±0.25 K ramp about 0 °C). The
-/// method yields no ice pellets.
-///
-/// Pass the column's highest wet-bulb above the surface layer; if nothing aloft is above
-/// freezing, any value ≤ 274.15 K has no effect.
-///
-/// Validity: T and Tw 173.15–373.15 K, 0 ≤ RH ≤ 110 % (values above 100 % are read as 100 %,
-/// the fit's range); NaN fractions otherwise. The fit's data lie in the rain–snow transition
-/// (roughly −10…+10 °C); beyond it the curve is saturated at 0 or 1.
-///
-/// ```
-/// use trackswing::diagnose::ptype::surface_logistic;
-/// // Jennings et al. (2018) check value: 1 °C, 80 % → p(snow) = 0.807 (no warm layer aloft).
-/// let f = surface_logistic(274.15, 80.0, 270.0);
-/// assert!((f.snow - 0.807).abs() < 0.001);
-/// ```
-pub fn surface_logistic(t2_k: f64, rh2_pct: f64, warm_layer_max_tw_k: f64) -> PtypeFractions {
-    let in_t = |t: f64| (173.15..=373.15).contains(&t);
-    if !(in_t(t2_k) && in_t(warm_layer_max_tw_k) && (0.0..=110.0).contains(&rh2_pct)) {
-        return PtypeFractions::nan();
-    }
-    let t_c = t2_k - T_FREEZE;
-    let rh = rh2_pct.min(100.0);
-    let p_snow = 1.0 / (1.0 + (JENNINGS_A + JENNINGS_B * t_c + JENNINGS_C * rh).exp());
-    let melted = smoothstep(
-        T_FREEZE + MELT_TW_START_C,
-        T_FREEZE + MELT_TW_END_C,
-        warm_layer_max_tw_k,
-    );
-    let snow = p_snow * (1.0 - melted);
-    PtypeFractions::with_liquid(snow, 0.0, 1.0 - snow, t2_k)
-}
-
 #[cfg(test)]
 mod tests {
+    use super::super::testing::*;
     use super::*;
+    use proptest::prelude::*;
 
     /// `valid_profile` against its definition: every pressure and temperature finite and
     /// positive, pressures strictly decreasing; over special values in every position.
@@ -588,31 +379,6 @@ mod tests {
             }
         }
         assert_eq!(checked, 3 * 9 * 9 * 9);
-    }
-    use proptest::prelude::*;
-
-    const T0: f64 = T_FREEZE;
-
-    fn sum(f: &PtypeFractions) -> f64 {
-        f.snow + f.ice_pellets + f.freezing_rain + f.rain
-    }
-
-    fn assert_valid(f: &PtypeFractions) {
-        for v in [f.snow, f.ice_pellets, f.freezing_rain, f.rain] {
-            assert!((0.0..=1.0).contains(&v), "{f:?}");
-        }
-        assert!((sum(f) - 1.0).abs() < 1e-12, "{f:?}");
-    }
-
-    fn max_change(a: &PtypeFractions, b: &PtypeFractions) -> f64 {
-        [
-            (a.snow - b.snow).abs(),
-            (a.ice_pellets - b.ice_pellets).abs(),
-            (a.freezing_rain - b.freezing_rain).abs(),
-            (a.rain - b.rain).abs(),
-        ]
-        .into_iter()
-        .fold(0.0, f64::max)
     }
 
     fn areas(p: &[f64], t: &[f64]) -> Vec<Layer> {
@@ -976,139 +742,5 @@ mod tests {
             assert_valid(&f_cold);
             prop_assert!(f_cold.snow >= f_warm.snow - 1e-12, "{:?} → {:?}", f_warm, f_cold);
         }
-
-        #[test]
-        fn thinner_layers_never_have_less_snow(
-            low in 1250.0..1370.0_f64,
-            mid in 1480.0..1620.0_f64,
-            deep in 5300.0..5500.0_f64,
-            tw in -5.0..5.0_f64,
-            shrink in (0.0..40.0_f64, 0.0..40.0_f64, 0.0..80.0_f64, 0.0..3.0_f64),
-            missing in 0usize..4,
-        ) {
-            // Common practice: colder air is denser, so thinner layers; thinner never means
-            // less snow. `missing` drops the 1000–850 or the 850–700 thickness (ground above
-            // the level), the same one in both columns.
-            let nan_if = |cond: bool, v: f64| if cond { f64::NAN } else { v };
-            let warm = partial_thickness(
-                nan_if(missing == 1, low),
-                nan_if(missing == 2, mid),
-                deep,
-                T0 + tw,
-            );
-            let cold = partial_thickness(
-                nan_if(missing == 1, low - shrink.0),
-                nan_if(missing == 2, mid - shrink.1),
-                deep - shrink.2,
-                T0 + tw - shrink.3,
-            );
-            assert_valid(&warm);
-            assert_valid(&cold);
-            prop_assert!(cold.snow >= warm.snow - 1e-12, "{:?} → {:?}", warm, cold);
-        }
-
-        #[test]
-        fn colder_surface_and_aloft_never_have_less_snow(
-            t2 in -10.0..10.0_f64,
-            rh in 0.0..100.0_f64,
-            tw_aloft in -5.0..6.0_f64,
-            cool in (0.0..4.0_f64, 0.0..4.0_f64),
-        ) {
-            // Jennings et al. (2018): p(snow) falls with temperature at fixed RH; Stewart & King
-            // (1987): a colder warm layer melts less.
-            let warm = surface_logistic(T0 + t2, rh, T0 + tw_aloft);
-            let cold = surface_logistic(T0 + t2 - cool.0, rh, T0 + tw_aloft - cool.1);
-            assert_valid(&warm);
-            assert_valid(&cold);
-            prop_assert!(cold.snow >= warm.snow - 1e-12, "{:?} → {:?}", warm, cold);
-        }
-    }
-
-    #[test]
-    fn partial_thickness_rules() {
-        // Common practice (SCIENCE.md §3), away from the ±5 m ramps.
-        let snow = partial_thickness(1290.0, 1530.0, 5380.0, T0 - 2.0);
-        assert_eq!(snow.snow, 1.0);
-        let pellets = partial_thickness(1290.0, 1550.0, 5420.0, T0 - 2.0);
-        assert_eq!(pellets.ice_pellets, 1.0);
-        let fzra = partial_thickness(1300.0, 1575.0, 5450.0, T0 - 1.0);
-        assert_eq!(fzra.freezing_rain, 1.0);
-        let rain = partial_thickness(1300.0, 1575.0, 5450.0, T0 + 1.0);
-        assert_eq!(rain.rain, 1.0);
-        // Warm low levels (1000–850 > 1310 m) melt snow to rain.
-        let low_warm = partial_thickness(1330.0, 1530.0, 5420.0, T0 + 2.0);
-        assert_eq!(low_warm.rain, 1.0);
-        // At a threshold the ramp is half-way.
-        let edge = partial_thickness(1290.0, 1540.0, 5400.0, T0 - 2.0);
-        assert!((edge.snow - 0.5).abs() < 1e-12 && (edge.ice_pellets - 0.5).abs() < 1e-12);
-        for f in [snow, pellets, fzra, rain, low_warm, edge] {
-            assert_valid(&f);
-        }
-    }
-
-    #[test]
-    fn partial_thickness_missing_levels() {
-        // 1000 hPa below ground: the 1000–850 term drops out.
-        let f = partial_thickness(f64::NAN, 1530.0, f64::NAN, T0 - 2.0);
-        assert_eq!(f.snow, 1.0);
-        // 850–700 missing: the 5400 m line (common practice) decides.
-        assert_eq!(
-            partial_thickness(1290.0, f64::NAN, 5350.0, T0 - 2.0).snow,
-            1.0
-        );
-        assert_eq!(
-            partial_thickness(1290.0, f64::NAN, 5450.0, T0 + 2.0).rain,
-            1.0
-        );
-        assert!(partial_thickness(f64::NAN, f64::NAN, f64::NAN, T0)
-            .snow
-            .is_nan());
-        assert!(partial_thickness(-5.0, 1530.0, 5400.0, T0).snow.is_nan());
-        assert!(partial_thickness(1290.0, 1530.0, 5400.0, f64::NAN)
-            .snow
-            .is_nan());
-    }
-
-    #[test]
-    fn partial_thickness_is_continuous() {
-        // 0.1 m steps through every threshold: at most 0.05 per step.
-        let mut prev = partial_thickness(1300.0, 1520.0, 5400.0, T0 - 1.0);
-        for i in 1..=600 {
-            let dz = 1520.0 + 0.1 * i as f64;
-            let f = partial_thickness(1300.0 + 0.05 * i as f64, dz, 5400.0, T0 - 1.0);
-            assert_valid(&f);
-            assert!(max_change(&prev, &f) <= 0.05, "{dz}");
-            prev = f;
-        }
-    }
-
-    #[test]
-    fn jennings_check_values() {
-        // Jennings et al. (2018), Nat. Commun. 9, 1148: 1 °C/80 % → 0.807, 1 °C/100 % → 0.409;
-        // tolerance 0.001 (three digits given).
-        let a = surface_logistic(T0 + 1.0, 80.0, T0 - 5.0);
-        assert!((a.snow - 0.807).abs() < 1e-3, "{a:?}");
-        assert!((a.rain - 0.193).abs() < 1e-3, "{a:?}");
-        let b = surface_logistic(T0 + 1.0, 100.0, T0 - 5.0);
-        assert!((b.snow - 0.409).abs() < 1e-3, "{b:?}");
-        assert_valid(&a);
-        assert_valid(&b);
-    }
-
-    #[test]
-    fn melting_layer_aloft_after_stewart_and_king() {
-        // Stewart & King (1987) (pages from memory): Tw aloft above ~3 °C melts snow completely;
-        // on a subfreezing surface the liquid is freezing rain.
-        let f = surface_logistic(T0 - 4.0, 90.0, T0 + 3.5);
-        assert!((f.freezing_rain - 1.0).abs() < 1e-12, "{f:?}");
-        let g = surface_logistic(T0 + 2.0, 90.0, T0 + 3.5);
-        assert!((g.rain - 1.0).abs() < 1e-12, "{g:?}");
-        // Below 1 °C aloft nothing melts: cold surface stays snow (Jennings p ≈ 1 at −4 °C).
-        let h = surface_logistic(T0 - 4.0, 90.0, T0 + 0.5);
-        assert!(h.snow > 0.99, "{h:?}");
-        let mid = surface_logistic(T0 - 4.0, 90.0, T0 + 2.0);
-        assert!((mid.snow - 0.5 * h.snow).abs() < 1e-9, "{mid:?}");
-        assert!(surface_logistic(f64::NAN, 90.0, T0).snow.is_nan());
-        assert!(surface_logistic(T0, 150.0, T0).snow.is_nan());
     }
 }

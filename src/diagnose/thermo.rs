@@ -181,6 +181,46 @@ pub fn rh_from_dewpoint(t_k: f64, td_k: f64) -> f64 {
     100.0 * saturation_vapor_pressure(td_k) / saturation_vapor_pressure(t_k)
 }
 
+/// Relative humidity over water (%) from specific humidity `q` (kg kg⁻¹), temperature (K) and
+/// pressure (Pa): vapour pressure e = q·p/(ε + (1 − ε)·q) (from q = ε·e/(p − (1 − ε)·e), the
+/// definition of specific humidity for ideal gases) over Bolton's (1980) saturation pressure,
+/// capped at 100 % (model supersaturation is rounding or over-ice conditions).
+///
+/// ```
+/// use trackswing::diagnose::thermo::rh_from_specific;
+/// // Saturated air at 20 °C, 1000 hPa: es = 23.370 hPa (Bolton 1980 eq. 10 check value),
+/// // q = ε·es/(p − (1 − ε)·es) = 0.014668.
+/// assert!((rh_from_specific(0.014668, 293.15, 100_000.0) - 100.0).abs() < 0.05);
+/// ```
+pub fn rh_from_specific(q: f64, t_k: f64, p_pa: f64) -> f64 {
+    if !(q.is_finite() && q >= 0.0 && p_pa > 0.0) {
+        return f64::NAN;
+    }
+    let e = q * p_pa / (EPSILON + (1.0 - EPSILON) * q);
+    (100.0 * e / saturation_vapor_pressure(t_k)).min(100.0)
+}
+
+/// Specific gas constant of air in the ISO 2533 standard atmosphere, J kg⁻¹ K⁻¹
+/// (R*/M = 8314.32/28.9644; ISO 2533:1975, from memory). The standard defines its own value;
+/// [`standard_pressure`] uses it so that it reproduces the standard's tables, while the
+/// thermodynamics of real soundings use [`RD`].
+pub const R_STANDARD_ATMOSPHERE: f64 = 287.052_87;
+
+/// Pressure (Pa) of the ISO 2533 standard atmosphere at altitude `z` m (troposphere, below
+/// 11 km): p = 101 325·(1 − L·z/288.15)^(g/(R·L)) with L = [`LAPSE_RATE_STD`]. The readers take
+/// it as the ground pressure where a model file has none, for the 2 m humidity conversion.
+///
+/// ```
+/// use trackswing::diagnose::thermo::standard_pressure;
+/// // ISO 2533 table value at 1000 m: 898.746 hPa (from memory).
+/// assert!((standard_pressure(1000.0) - 89_874.6).abs() < 0.1);
+/// assert_eq!(standard_pressure(0.0), 101_325.0);
+/// ```
+pub fn standard_pressure(z: f64) -> f64 {
+    101_325.0
+        * (1.0 - LAPSE_RATE_STD * z / 288.15).powf(G / (R_STANDARD_ATMOSPHERE * LAPSE_RATE_STD))
+}
+
 /// Water-vapour mixing ratio, kg/kg, from total pressure and vapour pressure (Pa):
 /// w = ε·e/(p − e).
 ///

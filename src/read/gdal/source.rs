@@ -19,13 +19,13 @@
 
 use super::band::{identify, BandInfo, Level, Meta, Quantity};
 use super::GdalError;
-use crate::diagnose::thermo::saturation_vapor_pressure;
+use crate::diagnose::thermo::rh_from_dewpoint;
+use crate::diagnose::thermo::rh_from_specific;
 use crate::geotiff::{Crs, Georef};
 use crate::grid::{Earth, Grid, MapKind, MapProjection, WGS84_A, WGS84_F};
 use crate::read::fields::{
     assemble, check_range, level_tag, Labelled, StaticFields, StepFields, StepValues,
 };
-use crate::read::grib::rh_from_specific;
 use crate::read::source::{Source, SourceError};
 use ::gdal::{Dataset, Metadata};
 use chrono::{DateTime, Utc};
@@ -526,8 +526,8 @@ impl GdalSource {
                 .iter()
                 .zip(t)
                 .map(|(&td, &t)| {
-                    (100.0 * saturation_vapor_pressure(f64::from(td.min(t)))
-                        / saturation_vapor_pressure(f64::from(t))) as f32
+                    // A dew point above the temperature is rounding: capped at saturation.
+                    rh_from_dewpoint(f64::from(t), f64::from(td.min(t))) as f32
                 })
                 .collect(),
             Humidity::Specific(_) => v

@@ -21,7 +21,7 @@ pub mod scan;
 pub mod source;
 
 pub use catalog::Catalog;
-pub use source::{mslp_series, rh_from_specific, GribSource};
+pub use source::{mslp_series, GribSource};
 
 use std::path::PathBuf;
 

@@ -21,7 +21,7 @@ use super::catalog::{Catalog, Entry};
 use super::decode::decode;
 use super::product::{short, Param, Surface};
 use super::GribError;
-use crate::diagnose::thermo::{saturation_vapor_pressure, EPSILON, G, LAPSE_RATE_STD};
+use crate::diagnose::thermo::{rh_from_dewpoint, rh_from_specific, standard_pressure, G};
 use crate::read::fields::{assemble, Labelled, StaticFields, StepFields, StepValues};
 use crate::read::source::{Source, SourceError};
 use chrono::{DateTime, Utc};
@@ -702,8 +702,8 @@ impl GribSource {
                 .iter()
                 .zip(t)
                 .map(|(&td, &t)| {
-                    (100.0 * saturation_vapor_pressure(f64::from(td.min(t)))
-                        / saturation_vapor_pressure(f64::from(t))) as f32
+                    // A dew point above the temperature is rounding: capped at saturation.
+                    rh_from_dewpoint(f64::from(t), f64::from(td.min(t))) as f32
                 })
                 .collect(),
             Humidity::Specific(i) => decoded
@@ -748,30 +748,6 @@ fn hum_index(h: Humidity) -> usize {
     match h {
         Humidity::Relative(i) | Humidity::Specific(i) | Humidity::Dewpoint(i) => i,
     }
-}
-
-/// Relative humidity over water (%) from specific humidity `q` (kg kg⁻¹), temperature (K) and
-/// pressure (Pa): vapour pressure e = q·p/(ε + (1 − ε)·q) (from q = ε·e/(p − (1 − ε)·e), the
-/// definition of specific humidity for ideal gases) over Bolton's (1980) saturation pressure,
-/// capped at 100 % (model supersaturation is rounding or over-ice conditions).
-///
-/// ```
-/// use trackswing::read::grib::rh_from_specific;
-/// // Saturated air at 20 °C, 1000 hPa: es = 23.370 hPa (Bolton 1980 eq. 10 check value),
-/// // q = ε·es/(p − (1 − ε)·es) = 0.014668.
-/// assert!((rh_from_specific(0.014668, 293.15, 100_000.0) - 100.0).abs() < 0.05);
-/// ```
-pub fn rh_from_specific(q: f64, t_k: f64, p_pa: f64) -> f64 {
-    if !(q.is_finite() && q >= 0.0 && p_pa > 0.0) {
-        return f64::NAN;
-    }
-    let e = q * p_pa / (EPSILON + (1.0 - EPSILON) * q);
-    (100.0 * e / saturation_vapor_pressure(t_k)).min(100.0)
-}
-
-/// Pressure (Pa) of the ISO 2533 standard atmosphere at altitude `z` m (troposphere).
-fn standard_pressure(z: f64) -> f64 {
-    101_325.0 * (1.0 - LAPSE_RATE_STD * z / 288.15).powf(G / (287.052_87 * LAPSE_RATE_STD))
 }
 
 impl Source for GribSource {

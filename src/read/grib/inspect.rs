@@ -22,10 +22,41 @@ fn level_list(mut v: Vec<f64>, unit: &str, scale: f64) -> String {
     v.sort_by(|a, b| b.total_cmp(a));
     v.dedup();
     v.iter()
-        .map(|x| format!("{}", x / scale))
+        .map(|x| level_text(x / scale))
         .collect::<Vec<_>>()
         .join(", ")
         + unit
+}
+
+/// A level value to six significant digits: GRIB2 stores levels as an integer and a decimal
+/// scale factor, so 2·10⁻⁶ decodes as 2.0000000000000003e-6 and would print as such.
+fn level_text(x: f64) -> String {
+    format!("{x:.5e}")
+        .parse::<f64>()
+        .map_or_else(|_| x.to_string(), |r| r.to_string())
+}
+
+/// The name of a fixed-surface type in WMO GRIB2 Code Table 4.5 (WMO-No. 306, Manual on Codes,
+/// Vol. I.2), for the types a model file commonly holds; others by number (192–254 are
+/// reserved for local use).
+fn surface_name(t: u8) -> Option<&'static str> {
+    Some(match t {
+        2 => "cloud base",
+        3 => "cloud top",
+        4 => "0 °C isotherm",
+        5 => "adiabatic condensation level lifted from the surface",
+        6 => "maximum wind level",
+        7 => "tropopause",
+        8 => "nominal top of the atmosphere",
+        102 => "altitude above mean sea level (m)",
+        104 => "sigma level",
+        105 => "hybrid level",
+        106 => "depth below land surface (m)",
+        107 => "isentropic level (K)",
+        108 => "pressure difference from the ground (Pa)",
+        109 => "potential vorticity surface (K m² kg⁻¹ s⁻¹)",
+        _ => return None,
+    })
 }
 
 /// The inventory of `files` as text. Structural damage is an error; everything else,
@@ -127,7 +158,10 @@ pub fn inspect(files: &[PathBuf]) -> Result<String, GribError> {
             100 => format!("isobaric {}", level_list(levels, " hPa", 100.0)),
             101 => "at mean sea level".to_string(),
             103 => format!("{} above ground", level_list(levels, " m", 1.0)),
-            t => format!("fixed surface type {t}: {}", level_list(levels, "", 1.0)),
+            t => match surface_name(t) {
+                Some(name) => format!("{name} (surface type {t}): {}", level_list(levels, "", 1.0)),
+                None => format!("fixed surface type {t}: {}", level_list(levels, "", 1.0)),
+            },
         };
         let _ = writeln!(
             out,
@@ -239,4 +273,28 @@ fn ch_step(
     k: usize,
 ) -> Result<(), String> {
     ch.step_check(steps, levels, k).map_err(|e| e.to_string())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn levels_print_as_the_file_means_them() {
+        // A PV surface of 2 PVU is stored as 2 with decimal scale factor 6 and decodes with a
+        // rounding tail; the inventory shows the value meant.
+        assert_eq!(level_text(2.000_000_000_000_000_3e-6), "0.000002");
+        assert_eq!(level_text(-2.000_000_000_000_000_3e-6), "-0.000002");
+        assert_eq!(level_text(0.995), "0.995");
+        assert_eq!(
+            level_list(vec![85_000.0, 100_000.0], " hPa", 100.0),
+            "1000, 850 hPa"
+        );
+        // WMO GRIB2 Code Table 4.5 (from memory): 7 tropopause, 109 potential vorticity surface.
+        assert_eq!(surface_name(7), Some("tropopause"));
+        assert!(surface_name(109)
+            .unwrap()
+            .starts_with("potential vorticity"));
+        assert_eq!(surface_name(204), None);
+    }
 }

@@ -120,7 +120,7 @@ fn main() -> anyhow::Result<()> {
         .map(|i| (i % nx) as f32 * 0.5 + 100.0)
         .collect();
     let terrain_path = inputs.join("terrain.tif");
-    write_geotiff(
+    write_cog(
         &terrain_path,
         nx,
         ny,
@@ -136,6 +136,7 @@ fn main() -> anyhow::Result<()> {
             dataset_metadata: vec![],
             band_scaling: vec![],
         },
+        &CogOptions::default(),
     )?;
     let case_path = inputs.join("case.toml");
     std::fs::write(

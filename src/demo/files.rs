@@ -4,10 +4,18 @@
 
 use super::{static_fields, step_fields, towns, track, valid_time_iso, DemoSpec, Field, Level};
 use crate::geotiff::{
-    write_geotiff, BandSpec, Crs, GeoTiffError, Georef, SampleEncoding, WriteOptions,
+    write_cog, BandSpec, CogOptions, Crs, GeoTiffError, Georef, SampleEncoding, WriteOptions,
 };
 use crate::read::fields::level_tag;
 use std::path::Path;
+
+/// The demo's input files as a model's post-processing might write them: tiled, without the
+/// overviews a map layer needs.
+const DEMO_LAYOUT: CogOptions = CogOptions {
+    tile_size: 256,
+    overviews: false,
+    bigtiff: crate::geotiff::BigTiff::Auto,
+};
 
 /// Why the demo case could not be written.
 #[derive(Debug, thiserror::Error)]
@@ -101,7 +109,15 @@ fn write_fields(
         dataset_metadata: meta,
         band_scaling: fields.iter().map(scaling).collect(),
     };
-    write_geotiff(path, spec.nx, spec.ny, &georef(spec), &bands, &opts)?;
+    write_cog(
+        path,
+        spec.nx,
+        spec.ny,
+        &georef(spec),
+        &bands,
+        &opts,
+        &DEMO_LAYOUT,
+    )?;
     Ok(())
 }
 

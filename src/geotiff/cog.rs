@@ -40,7 +40,7 @@ use super::geokeys::GeoKeys;
 use super::metadata::{build_xml, format_number, BandItems};
 use super::overview::{halve, overview_sizes};
 use super::strip::{encode_strip, StripError, INT16_NODATA};
-use super::write::validate;
+use super::validate::validate;
 use super::{tag, BandSpec, GeoTiffError, Georef, SampleEncoding, WriteOptions};
 
 /// When to write BigTIFF (64-bit offsets) instead of classic TIFF (32-bit).
@@ -255,7 +255,7 @@ struct Level<'a> {
 
 /// Writes `bands` as a tiled, cloud-optimised GeoTIFF with overviews (see the module notes).
 ///
-/// Takes the same inputs as [`super::write_geotiff`] plus the tiling options, and returns what
+/// Takes the bands, the georeferencing, the encoding and the tiling options, and returns what
 /// was written. The bytes depend only on the arguments, never on the number of rayon threads.
 ///
 /// ```

@@ -11,15 +11,13 @@
 //! - Geographic coordinates are x = longitude, y = latitude, in degrees (EPSG:4326 axis order as
 //!   GIS software uses it, not the EPSG-registered lat/lon order).
 //!
-//! Two layouts on disk, both with N samples per pixel stored as separate planes
-//! (PlanarConfiguration 2) and Deflate with the floating-point predictor (TIFF Technical Note 3)
-//! for Float32 or the horizontal predictor for Int16; output bytes depend only on the inputs:
-//! - [`write_geotiff`] (`write.rs`, through the `tiff` crate's encoder): one IFD, strips of
-//!   [`STRIP_ROWS`] rows. Used for the model-like input files the demo generates.
-//! - [`write_cog`] (`cog.rs`, its own TIFF serialiser): the cloud-optimised layout GDAL's COG
-//!   driver writes — internal tiles, overviews, every IFD before the data, the smallest
-//!   overview's tiles first, tiles compressed in parallel, BigTIFF past 4 GiB. Used for the
-//!   layers.
+//! One writer, [`write_cog`] (`cog.rs`, its own TIFF serialiser), for the layers and for the
+//! model-like input files the demo generates: N samples per pixel stored as separate planes
+//! (PlanarConfiguration 2), Deflate with the floating-point predictor (TIFF Technical Note 3) for
+//! Float32 or the horizontal predictor for Int16, in the cloud-optimised layout GDAL's COG
+//! driver writes — internal tiles, overviews (optional), every IFD before the data, the smallest
+//! overview's tiles first, tiles compressed in parallel, BigTIFF past 4 GiB. Output bytes depend
+//! only on the inputs. [`read_geotiff`] reads strips or tiles, as other tools write them.
 
 mod cog;
 mod crs;
@@ -32,7 +30,7 @@ mod read;
 mod strip;
 #[cfg(test)]
 mod tests;
-mod write;
+mod validate;
 mod xml;
 
 pub use cog::{write_cog, BigTiff, CogOptions, CogReport};
@@ -40,11 +38,6 @@ pub use crs::{Crs, Datum, Projected, Projection, WGS84_A, WGS84_INV_F};
 pub use error::GeoTiffError;
 pub use overview::overview_sizes;
 pub use read::read_geotiff;
-pub use write::write_geotiff;
-
-/// Rows per strip in written files. Small strips keep peak memory per strip low and give many
-/// independent units of work when compression is parallelised.
-pub const STRIP_ROWS: usize = 16;
 
 /// zlib level used for Deflate. Fixed so that output is reproducible across runs. Level 3: on
 /// the 400×300 benchmark's 63-band stack, writing every layer took 1.77 s against 2.18 s at
@@ -87,7 +80,7 @@ pub struct BandSpec<'a> {
     pub metadata: Vec<(String, String)>,
 }
 
-/// Options for [`write_geotiff`].
+/// Options for [`write_cog`].
 #[derive(Debug, Clone, PartialEq)]
 pub struct WriteOptions {
     /// Sample type and packing.

@@ -54,7 +54,7 @@ fn seed_tiff() -> &'static [u8] {
             dataset_metadata: vec![("valid_time".into(), "2026-01-14T00:00:00Z".into())],
             band_scaling: vec![],
         };
-        write_geotiff(&p, 35, 20, &georef, &bands, &opts).unwrap();
+        write_cog(&p, 35, 20, &georef, &bands, &opts, &CogOptions::default()).unwrap();
         std::fs::read(&p).unwrap()
     })
 }

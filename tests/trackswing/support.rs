@@ -2,7 +2,9 @@
 //! GDAL in the geotiff module's tests).
 
 use std::path::{Path, PathBuf};
-use trackswing::geotiff::{write_geotiff, BandSpec, Crs, Georef, SampleEncoding, WriteOptions};
+use trackswing::geotiff::{
+    write_cog, BandSpec, CogOptions, Crs, Georef, SampleEncoding, WriteOptions,
+};
 
 pub const LEVELS: [f64; 5] = [1000.0, 925.0, 850.0, 700.0, 500.0];
 
@@ -74,7 +76,16 @@ pub fn write_float32(
         dataset_metadata: meta,
         band_scaling: vec![],
     };
-    write_geotiff(path, width, height, georef, &specs, &opts).unwrap();
+    write_cog(
+        path,
+        width,
+        height,
+        georef,
+        &specs,
+        &opts,
+        &CogOptions::default(),
+    )
+    .unwrap();
 }
 
 /// Temperature offset (K) of the synthetic air mass: warm to the south, a gradient across the

@@ -112,7 +112,7 @@ pub fn write(dir: &Path, name: &str, l: &Layer, encoding: SampleEncoding) -> Pat
         dataset_metadata: l.dataset.clone(),
         band_scaling: vec![],
     };
-    write_geotiff(&path, W, H, &georef, &bands, &opts).unwrap();
+    write_cog(&path, W, H, &georef, &bands, &opts, &CogOptions::default()).unwrap();
     path
 }
 

@@ -356,19 +356,6 @@ pub struct Member {
     pub find_track: bool,
 }
 
-impl Member {
-    /// Every input file of the member, each once.
-    pub fn input_files(&self) -> Vec<&Path> {
-        let mut v: Vec<&Path> = Vec::new();
-        for p in std::iter::once(&self.terrain).chain(&self.steps) {
-            if !v.contains(&p.as_path()) {
-                v.push(p);
-            }
-        }
-        v
-    }
-}
-
 /// Settings given on the command line, which win over the case file.
 #[derive(Clone, Debug, Default)]
 pub struct Overrides {

@@ -382,10 +382,16 @@ pub fn run_prepared(
                     .collect::<Result<_, EngineError>>()
             })?;
             let t_k = window.times[k];
-            let first_needed = samples
+            // The earliest step any later output step can still sample: for each timing
+            // offset, the last step at or before this step's sampled time, or the first step
+            // when that time lies before the model's start (a storm coming later samples the
+            // start again at the next output steps, so it must not be forgotten).
+            let first_needed = timing_offsets
                 .iter()
-                .flatten()
-                .map(|x| x.index)
+                .map(|&h| {
+                    let at = t_k - hours(h);
+                    window.times.iter().rposition(|t| *t <= at).unwrap_or(0)
+                })
                 .min()
                 .unwrap_or(k)
                 .min(k);

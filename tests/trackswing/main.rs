@@ -14,4 +14,5 @@ mod reference;
 mod report;
 mod shards;
 mod support;
+mod timing;
 mod usage;

@@ -223,9 +223,10 @@ fn main() -> anyhow::Result<()> {
             compute_s: 0.0,
         },
         shards: Vec::new(),
+        warnings: Vec::new(),
     };
     let started = Instant::now();
-    let files = trackswing::write::write_all(&case, &result)?;
+    let files = trackswing::write::write_all(&case, &result)?.files;
     let secs = started.elapsed().as_secs_f64();
     std::fs::write(
         expected_path(&out),

@@ -76,7 +76,8 @@ pub struct Common {
     /// Snow-to-liquid ratio method: fixed, max-column-temperature or growth-zone.
     #[arg(long, value_name = "METHOD")]
     pub snow_ratio: Option<String>,
-    /// Replace the output folder even if it holds files trackswing did not write.
+    /// Write into an output folder trackswing did not write (its files are kept; one with the
+    /// name of a layer is replaced).
     #[arg(long)]
     pub force: bool,
     /// Precipitation-type method: energy-area, partial-thickness or surface-logistic.

@@ -151,6 +151,8 @@ pub struct RunResult {
     pub timings: Timings,
     /// The shard files the totals were merged from (none for a run in one piece).
     pub shards: Vec<ShardUsed>,
+    /// What the run warned about, in order: the layers' manifest and report carry them.
+    pub warnings: Vec<String>,
 }
 
 /// A shard file a run's totals came from, for the manifest.
@@ -303,7 +305,10 @@ pub fn run_shard(
     progress: &dyn Progress,
     shard: Option<Shard>,
 ) -> Result<RunResult, EngineError> {
-    run_prepared(case, prepare(case, progress)?, threads, progress, shard)
+    let record = crate::progress::Record::new(progress);
+    let mut r = run_prepared(case, prepare(case, &record)?, threads, &record, shard)?;
+    r.warnings = record.into_warnings();
+    Ok(r)
 }
 
 /// [`run_shard`] on a case already prepared.
@@ -495,6 +500,7 @@ pub fn run_prepared(
         layout,
         timings,
         shards: Vec::new(),
+        warnings: Vec::new(),
     })
 }
 

@@ -150,7 +150,7 @@ fn run_case(
         }
     };
     let clock = std::time::Instant::now();
-    let files = trackswing::write::write_all(&case, &result)
+    let outcome = trackswing::write::write_all(&case, &result)
         .with_context(|| format!("writing the layers into {}", case.out_dir.display()))
         .map_err(Failure::Output)?;
     if !common.quiet {
@@ -158,8 +158,7 @@ fn run_case(
         report::summary(
             &case,
             &result,
-            &files,
-            &progress,
+            &outcome,
             (started.elapsed(), write_s),
             merged,
         );

@@ -33,3 +33,65 @@ impl Progress for Collect {
         }
     }
 }
+
+/// Passes everything on to another [`Progress`] and keeps the warnings, so that a run can hand
+/// them to its outputs (manifest.json, report.html) as well as to the person watching.
+pub struct Record<'a> {
+    inner: &'a dyn Progress,
+    warnings: std::sync::Mutex<Vec<String>>,
+}
+
+impl<'a> Record<'a> {
+    /// Records the warnings passed on to `inner`.
+    pub fn new(inner: &'a dyn Progress) -> Self {
+        Self {
+            inner,
+            warnings: std::sync::Mutex::new(Vec::new()),
+        }
+    }
+
+    /// Every warning so far, in order, each once.
+    pub fn into_warnings(self) -> Vec<String> {
+        let mut out: Vec<String> = Vec::new();
+        for w in self.warnings.into_inner().unwrap_or_default() {
+            if !out.contains(&w) {
+                out.push(w);
+            }
+        }
+        out
+    }
+}
+
+impl Progress for Record<'_> {
+    fn start(&self, what: &str, total: u64) {
+        self.inner.start(what, total);
+    }
+    fn advance(&self, n: u64) {
+        self.inner.advance(n);
+    }
+    fn finish(&self) {
+        self.inner.finish();
+    }
+    fn warn(&self, message: &str) {
+        if let Ok(mut w) = self.warnings.lock() {
+            w.push(message.to_string());
+        }
+        self.inner.warn(message);
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_record_passes_everything_on_and_keeps_each_warning_once() {
+        let seen = Collect::default();
+        let r = Record::new(&seen);
+        r.warn("a");
+        r.warn("b");
+        r.warn("a");
+        assert_eq!(seen.warnings.lock().unwrap().len(), 3);
+        assert_eq!(r.into_warnings(), ["a", "b"]);
+    }
+}

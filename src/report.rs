@@ -6,7 +6,7 @@ use std::sync::Mutex;
 use trackswing::case::Case;
 use trackswing::engine::RunResult;
 use trackswing::progress::Progress;
-use trackswing::write::Written;
+use trackswing::write::Outcome;
 
 /// A progress bar on stderr when it is a terminal, shown once a run has lasted
 /// [`SHOW_AFTER`]; warnings are kept for the summary.
@@ -186,8 +186,7 @@ fn bust_prone_towns(out: &mut String, dir: &std::path::Path, su: &str) {
 pub fn summary(
     case: &Case,
     r: &RunResult,
-    files: &[Written],
-    bar: &Bar,
+    outcome: &Outcome,
     (took, write_s): (std::time::Duration, f64),
     merged_from: Option<usize>,
 ) {
@@ -212,11 +211,12 @@ pub fn summary(
         let n = r.scenarios.len();
         let _ = writeln!(out, "{}", run_line(r, n, took, Some(write_s)));
     }
-    for w in bar.warnings.lock().expect("warnings lock").iter() {
+    // The run's warnings and the writing's, as manifest.json and report.html list them.
+    for w in &outcome.warnings {
         let _ = writeln!(out, "warning: {w}");
     }
     let _ = writeln!(out, "layers written to {}:", case.out_dir.display());
-    for f in files {
+    for f in &outcome.files {
         let _ = writeln!(out, "  {:<38} {}", f.file, f.description);
     }
     bust_prone_towns(&mut out, &case.out_dir, u.snow_unit());

@@ -524,6 +524,18 @@ pub fn assemble(
     progress: &dyn Progress,
     paths: &[PathBuf],
 ) -> Result<RunResult, ShardError> {
+    let record = crate::progress::Record::new(progress);
+    let mut r = assemble_recorded(case, &record, paths)?;
+    r.warnings = record.into_warnings();
+    Ok(r)
+}
+
+/// [`assemble`], its warnings going through `progress`.
+fn assemble_recorded(
+    case: &Case,
+    progress: &dyn Progress,
+    paths: &[PathBuf],
+) -> Result<RunResult, ShardError> {
     if paths.is_empty() {
         return Err(ShardError::Coverage("no shard files to merge".to_string()));
     }
@@ -684,6 +696,7 @@ pub fn assemble(
                 body_crc32: format!("{:08x}", h.body_crc32),
             })
             .collect(),
+        warnings: Vec::new(),
     })
 }
 

@@ -78,6 +78,8 @@ struct ScenarioEntry {
 struct Manifest<'a> {
     trackswing_version: &'a str,
     caution: &'a str,
+    /// What the run and the writing warned about, in order; an empty list when nothing.
+    warnings: &'a [String],
     title: &'a str,
     case_file: String,
     member: &'a str,
@@ -112,6 +114,7 @@ pub fn write_manifest(
     case: &Case,
     r: &RunResult,
     files: &[Written],
+    warnings: &[String],
 ) -> Result<(), WriteError> {
     let mut listed: Vec<(&str, &Path)> =
         vec![("case", &case.path), ("terrain", &case.member.terrain)];
@@ -225,6 +228,7 @@ pub fn write_manifest(
     let m = Manifest {
         trackswing_version: env!("CARGO_PKG_VERSION"),
         caution: crate::CAUTION,
+        warnings,
         title: &case.title,
         case_file: case.path.display().to_string(),
         member: &case.member.name,

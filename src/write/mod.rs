@@ -223,17 +223,48 @@ fn write_decision_products(
     Ok(files)
 }
 
+/// What [`write_all`] wrote, and every warning of the run and of the writing (the manifest and
+/// report carry the same list).
+#[derive(Debug)]
+pub struct Outcome {
+    /// The files, manifest included.
+    pub files: Vec<Written>,
+    /// The run's warnings, then the writing's.
+    pub warnings: Vec<String>,
+}
+
 /// Writes every layer of a run into `case.out_dir`, the manifest last, replacing any previous
-/// set as a whole. Returns the files.
+/// set as a whole; files of the previous folder that trackswing did not write are kept (see
+/// [`folder`]).
 pub fn write_all(
     case: &crate::case::Case,
     r: &crate::engine::RunResult,
-) -> Result<Vec<Written>, WriteError> {
+) -> Result<Outcome, WriteError> {
     let staging = folder::Staging::begin(&case.out_dir, &case.inputs(), case.force)?;
-    match write_set(staging.dir(), case, r) {
+    let mut warnings = r.warnings.clone();
+    let carried = staging.carried();
+    if !carried.is_empty() {
+        let sidecars = carried.iter().any(|p| {
+            p.file_name()
+                .is_some_and(|n| n.to_string_lossy().ends_with(".aux.xml"))
+        });
+        warnings.push(format!(
+            "kept {} {} in {} that trackswing did not write ({}){}",
+            carried.len(),
+            if carried.len() == 1 { "entry" } else { "entries" },
+            case.out_dir.display(),
+            folder::names(carried),
+            if sidecars {
+                "; GDAL's .aux.xml sidecars may hold statistics of the previous run's layers: delete them to have GDAL recompute"
+            } else {
+                ""
+            }
+        ));
+    }
+    match write_set(staging.dir(), case, r, &warnings) {
         Ok(files) => {
             staging.commit()?;
-            Ok(files)
+            Ok(Outcome { files, warnings })
         }
         Err(e) => {
             staging.abandon();
@@ -246,6 +277,7 @@ fn write_set(
     dir: &Path,
     case: &crate::case::Case,
     r: &crate::engine::RunResult,
+    warnings: &[String],
 ) -> Result<Vec<Written>, WriteError> {
     let meta = vec![
         (
@@ -306,7 +338,7 @@ fn write_set(
         // Listed now, written right after the manifest it is built from.
         files.push(report::entry());
     }
-    manifest::write_manifest(dir, case, r, &files)?;
+    manifest::write_manifest(dir, case, r, &files, warnings)?;
     let mut all = files;
     all.push(Written {
         file: folder::MANIFEST.into(),

@@ -181,6 +181,8 @@ main { max-width: 1240px; margin: 0 auto; padding: 16px 32px 40px; }
 section { background: #fff; border: 1px solid var(--line); border-radius: 6px; padding: 16px 22px; margin: 18px 0; }
 h2 { font-size: 19px; margin: 0 0 10px; color: var(--accent); }
 .caution { background: var(--warn); border-left: 6px solid var(--warnline); }
+.warnings { border-left: 6px solid var(--warnline); }
+.warnings li { margin: 4px 0; }
 figure { margin: 12px 0 22px; }
 figure img { width: 100%; height: auto; border: 1px solid var(--line); }
 figcaption { color: var(--muted); font-size: 14px; }
@@ -308,6 +310,24 @@ pub fn write_report(dir: &Path) -> Result<PathBuf, ReportError> {
         "<section class=\"caution\"><h2>Caution</h2><p><strong>{}</strong></p><p>This page shows how the model's snowfall changes if its storm track is wrong by the offsets listed below. It is decision support for trained forecasters, not an official forecast or warning. For decisions about roads, schools and safety, defer to the national weather service and local emergency management, and check local conditions.</p></section>",
         escape(&caution)
     );
+    // What the run warned about, right under the caution: a forecaster reading the numbers
+    // below must know first where they are incomplete.
+    let warnings: Vec<String> = m
+        .get("warnings")
+        .and_then(Value::as_array)
+        .map(|w| w.iter().map(text_of).collect())
+        .unwrap_or_default();
+    if !warnings.is_empty() {
+        let _ = write!(
+            h,
+            "<section class=\"warnings\" id=\"warnings\"><h2>Warnings from this run ({})</h2><ul>",
+            warnings.len()
+        );
+        for w in &warnings {
+            let _ = write!(h, "<li>{}</li>", escape(w));
+        }
+        h.push_str("</ul></section>\n");
+    }
 
     let keys = key_numbers(dir, su)?;
     h.push_str("<section><h2>Key numbers</h2>");

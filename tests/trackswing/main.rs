@@ -12,6 +12,7 @@ mod grib;
 mod physics;
 mod reference;
 mod report;
+mod rerun;
 mod shards;
 mod support;
 mod timing;

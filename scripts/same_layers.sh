@@ -66,6 +66,7 @@ run_both() {
 
 rm -rf "$work"/*-old "$work"/*-new
 run_both demo demo
+rm -rf "$work/lcc-case"
 "$here/scripts/lambert_case.sh" "$new" "$work/lcc-case" > /dev/null
 run_both lambert run "$work/lcc-case/case.toml" --cross=-60:60:30 --along=0
 if [ "$b1" = "--b1" ]; then

@@ -4,12 +4,11 @@
 //! 4 outputs could not be written.
 
 mod cli;
-mod commands;
-mod report;
 
 use anyhow::Context;
 use clap::Parser;
-use cli::{Cli, Command, Common};
+use cli::args::{self, Cli, Command, Common};
+use cli::{commands, console};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 use trackswing::case::{Case, Overrides};
@@ -122,7 +121,7 @@ fn run_case(
             "--threads must be at least 1"
         )));
     }
-    let progress = report::Bar::new(common.quiet);
+    let progress = console::Bar::new(common.quiet);
     let started = std::time::Instant::now();
     let mut merged = None;
     let result = match mode {
@@ -155,7 +154,7 @@ fn run_case(
         .map_err(Failure::Output)?;
     if !common.quiet {
         let write_s = clock.elapsed().as_secs_f64();
-        report::summary(
+        console::summary(
             &case,
             &result,
             &outcome,
@@ -170,7 +169,7 @@ fn run_case(
 fn run_shard(
     case: &Case,
     threads: usize,
-    progress: &report::Bar,
+    progress: &console::Bar,
     shard: trackswing::engine::Shard,
     quiet: bool,
 ) -> Result<(), Failure> {
@@ -191,7 +190,7 @@ fn run_shard(
             }
         })?;
     if !quiet {
-        report::shard_summary(case, &result, shard, &path, progress, started.elapsed());
+        console::shard_summary(case, &result, shard, &path, progress, started.elapsed());
     }
     Ok(())
 }
@@ -219,7 +218,7 @@ fn shard_files(out_dir: &Path) -> anyhow::Result<Vec<PathBuf>> {
 }
 
 /// A case file, or model files with their track and towns.
-fn plan_of(read: &cli::Inputs) -> Result<Plan<'_>, Failure> {
+fn plan_of(read: &args::Inputs) -> Result<Plan<'_>, Failure> {
     let (inputs, track, towns) = (&read.inputs, read.track.as_deref(), read.towns.as_deref());
     let is_case = inputs.len() == 1
         && inputs[0]
@@ -240,7 +239,7 @@ fn plan_of(read: &cli::Inputs) -> Result<Plan<'_>, Failure> {
     })
 }
 
-fn run_plan(a: &cli::RunArgs) -> Result<(), Failure> {
+fn run_plan(a: &args::RunArgs) -> Result<(), Failure> {
     let plan = plan_of(&a.read)?;
     let mode = match &a.shard {
         None => Mode::Layers,
@@ -253,13 +252,13 @@ fn run_plan(a: &cli::RunArgs) -> Result<(), Failure> {
     run_case(plan, &a.common, None, false, mode)
 }
 
-fn merge_plan(a: &cli::MergeArgs) -> Result<(), Failure> {
+fn merge_plan(a: &args::MergeArgs) -> Result<(), Failure> {
     let plan = plan_of(&a.read)?;
     run_case(plan, &a.common, None, false, Mode::Merge(&a.shards))
 }
 
 /// `trackswing sounding`: the library makes the sounding, this prints it.
-fn sounding(a: &cli::SoundingArgs) -> Result<(), Failure> {
+fn sounding(a: &args::SoundingArgs) -> Result<(), Failure> {
     let bad = |what: String| Failure::Usage(anyhow::anyhow!(what));
     let (lat, lon) =
         a.at.split_once(',')

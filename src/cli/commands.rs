@@ -1,8 +1,8 @@
 //! `inspect` and `track`: resolve the files named on the command line, call the library, print
 //! or write the result.
 
-use super::cli::TrackArgs;
-use super::Failure;
+use super::args::TrackArgs;
+use crate::Failure;
 use anyhow::{anyhow, Context};
 use std::path::PathBuf;
 use trackswing::case::expand_model_args;

@@ -4,6 +4,7 @@
 //! with the `gdal` feature, any raster GDAL reads (`gdal`). A
 //! track can also be found from the model's sea-level pressure ([`track_finder`]).
 
+pub mod accumulation;
 pub mod fields;
 #[cfg(feature = "gdal")]
 pub mod gdal;

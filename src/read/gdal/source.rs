@@ -23,6 +23,7 @@ use crate::diagnose::thermo::rh_from_dewpoint;
 use crate::diagnose::thermo::rh_from_specific;
 use crate::geotiff::{Crs, Georef};
 use crate::grid::{Earth, Grid, MapKind, MapProjection, WGS84_A, WGS84_F};
+use crate::read::accumulation::{step_amount, Accumulation};
 use crate::read::fields::{
     assemble, check_range, level_tag, Labelled, StaticFields, StepFields, StepValues,
 };
@@ -746,31 +747,12 @@ impl Chooser<'_> {
             );
         }
         let prev = steps[k - 1];
-        if let Some((_, _, i)) = totals.iter().find(|(s, e, _)| *s == prev && *e == end) {
-            return Ok((vec![*i], vec![]));
-        }
-        let mut chain = Vec::new();
-        let mut cur = prev;
-        while cur < end {
-            match totals
-                .iter()
-                .filter(|(s, e, _)| *s == cur && *e <= end)
-                .max_by_key(|(_, e, _)| *e)
-            {
-                Some((_, e, i)) => {
-                    chain.push(*i);
-                    cur = *e;
-                }
-                None => break,
-            }
-        }
-        if cur == end {
-            return Ok((chain, vec![]));
-        }
-        for (s, _, a) in totals.iter().filter(|(s, e, _)| *e == end && *s < prev) {
-            if let Some((_, _, b)) = totals.iter().find(|(s2, e2, _)| *e2 == prev && s2 == s) {
-                return Ok((vec![*a], vec![*b]));
-            }
+        let windows: Vec<Accumulation<usize>> = totals
+            .iter()
+            .map(|&(start, end, id)| Accumulation { start, end, id })
+            .collect();
+        if let Some(found) = step_amount(&windows, prev, end) {
+            return Ok(found);
         }
         Err(format!(
             "the precipitation amounts do not give the step {}…{} (totals ending at {}: {}; ending at {}: {})",

@@ -22,6 +22,7 @@ use super::decode::decode;
 use super::product::{short, Param, Surface};
 use super::GribError;
 use crate::diagnose::thermo::{rh_from_dewpoint, rh_from_specific, standard_pressure, G};
+use crate::read::accumulation::{step_amount, Accumulation};
 use crate::read::fields::{assemble, Labelled, StaticFields, StepFields, StepValues};
 use crate::read::source::{Source, SourceError};
 use chrono::{DateTime, Utc};
@@ -503,29 +504,12 @@ impl<'a> Chooser<'a> {
             };
         }
         let prev = steps[k - 1];
-        // A chain of consecutive totals from prev to end.
-        let mut chain = Vec::new();
-        let mut cur = prev;
-        while cur < end {
-            let next = totals
-                .iter()
-                .filter(|(s, e, _)| *s == cur && *e <= end)
-                .max_by_key(|(_, e, _)| *e);
-            match next {
-                Some((_, e, i)) => {
-                    chain.push(*i);
-                    cur = *e;
-                }
-                None => break,
-            }
-        }
-        if cur == end {
-            return Ok((chain, vec![]));
-        }
-        for (s, _, a) in totals.iter().filter(|(s, e, _)| *e == end && *s < prev) {
-            if let Some((_, _, b)) = totals.iter().find(|(s2, e2, _)| *e2 == prev && s2 == s) {
-                return Ok((vec![*a], vec![*b]));
-            }
+        let windows: Vec<Accumulation<usize>> = totals
+            .iter()
+            .map(|&(start, end, id)| Accumulation { start, end, id })
+            .collect();
+        if let Some(found) = step_amount(&windows, prev, end) {
+            return Ok(found);
         }
         Err(format!(
             "the precipitation totals do not chain: none covers {}…{}, nor do two totals from a common start end at {} and {} (totals ending at {}: {}; ending at {}: {})",

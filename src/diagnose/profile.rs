@@ -182,7 +182,7 @@ impl Profile {
     /// hydrostatic effect of the temperature changes applied to the profile,
     /// (Rd/g)·∫ΔT d ln p with ΔT linear in ln p between points (the hypsometric equation,
     /// Wallace & Hobbs 2006 §3.2). NaN when either level is absent from the input or lies at or
-    /// below the ground, as [`partial_thickness`] expects.
+    /// below the ground, as [`partial_thickness`](super::ptype::partial_thickness) expects.
     pub fn thickness(&self, p_bottom_pa: f64, p_top_pa: f64) -> f64 {
         let (Some(a), Some(b)) = (self.point_at(p_bottom_pa), self.point_at(p_top_pa)) else {
             return f64::NAN;
@@ -213,7 +213,7 @@ impl Profile {
     }
 
     /// The warmest wet-bulb above the surface point, up to 500 hPa, K (what
-    /// [`surface_logistic`] checks for melting aloft).
+    /// [`surface_logistic`](super::ptype::surface_logistic) checks for melting aloft).
     pub fn warmest_wet_bulb_aloft(&self) -> f64 {
         (1..self.n)
             .filter(|&i| self.p[i] >= PROFILE_TOP_PA)

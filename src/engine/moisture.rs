@@ -23,7 +23,7 @@
 //! to the same bits too. A column interpolates all its levels in one pass ([`AtSource`]) the
 //! first time its sub-cloud layer asks for one.
 
-use super::ScenarioStep;
+use super::kernel::ScenarioStep;
 use crate::diagnose::profile::PROFILE_TOP_PA;
 use crate::diagnose::thermo::isobaric_wet_bulb_deficit_humidity;
 use crate::read::StepLayout;

@@ -13,7 +13,7 @@
 //! The rooms: this file orchestrates (prepare, run, the run's result and warnings); [`window`]
 //! the held steps and the read-ahead; [`wet`] the wet-cell index and the dry screen; [`kernel`]
 //! the per-cell physics; [`moisture`] the dry air below the cloud; [`track`] the storm's track
-//! and each scenario's displacement; [`memory`] whether a run fits.
+//! and each scenario's displacement; [`budget`] whether a run fits in memory and in reasonable time.
 //!
 //! A scenario's step k has the model's step k's length and valid time t_k; its fields are the
 //! model's at t_k − timing_h, linear in time between the two steps that bracket it (the
@@ -35,7 +35,7 @@ use chrono::{DateTime, Duration, Utc};
 use std::path::PathBuf;
 
 pub mod kernel;
-pub mod memory;
+pub mod budget;
 pub mod moisture;
 pub mod track;
 pub mod wet;
@@ -44,7 +44,7 @@ pub use kernel::{
     accumulate_cell, cell_column, sample_column, step_all_scenarios, BlockCounts, CellStep,
     Sampled, ScenarioStep, SourceAt,
 };
-pub use memory::{fits_in_memory, memory_estimate};
+pub use budget::{fits_in_memory, memory_estimate, scenario_budget, Budget};
 pub use track::{case_track, scenario_shift};
 pub use wet::{GridReach, WetRows};
 pub use window::{fetch, StepWindow};

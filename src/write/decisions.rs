@@ -9,6 +9,7 @@ use super::{write_atomic, Kind, WriteError, Written};
 use crate::case::Units;
 use crate::engine::RunResult;
 use crate::geotiff::{write_cog, BandSpec, CogOptions, SampleEncoding, WriteOptions};
+use crate::summarise::coverage::PriorCoverage;
 use crate::summarise::ice::ice_accretion;
 use crate::summarise::quantiles::{distribution, DistributionLayers};
 use crate::summarise::sensitivity::{flip_layers, sensitivity_layer, Axis, FlipLayers, PER_KM};
@@ -28,6 +29,8 @@ pub struct DecisionSettings<'a> {
     pub units: Units,
     /// Normalised weight per scenario.
     pub weights: &'a [f64],
+    /// Where the prior is known well enough to summarise.
+    pub coverage: &'a PriorCoverage,
     /// Snowfall thresholds, output snow units.
     pub snow_thresholds: &'a [f64],
     /// Ice thresholds, output liquid units.
@@ -172,9 +175,24 @@ pub fn write_decision_rasters(
     let u = s.units;
     let (su, lu) = (u.snow_unit(), u.liquid_unit());
     let mut out = Vec::new();
+    let min = s.coverage.min;
+
+    let share: Vec<f32> = s.coverage.share.iter().map(|v| *v as f32).collect();
+    let what = format!("Share (0–1) of the track-error prior's weight carried by the scenarios with a total at each cell (the others took values from beyond the grid edge); the weighted summaries and min/max/range are computed over those scenarios, weights renormalised, where it is at least {min}, and are nodata below");
+    let mut band = one("share of the prior's weight with data".into(), share, "1");
+    band.metadata.push(("min_coverage".into(), min.to_string()));
+    out.push(write_bands(
+        dir,
+        r,
+        s.meta,
+        "prior_coverage.tif",
+        "1",
+        &what,
+        vec![band],
+    )?);
 
     let snow_mm: Vec<f64> = s.snow_thresholds.iter().map(|t| u.snow_to_mm(*t)).collect();
-    let d = distribution(&r.totals, s.weights, |t, i| t.snowfall[i], &snow_mm);
+    let d = distribution(&r.totals, s.weights, |t, i| t.snowfall[i], &snow_mm, min);
     let snow_p90 = write_family(
         dir,
         r,
@@ -193,7 +211,7 @@ pub fn write_decision_rasters(
         .iter()
         .map(|t| u.liquid_to_mm(*t))
         .collect();
-    let d = distribution(&r.totals, s.weights, ice_accretion, &ice_mm);
+    let d = distribution(&r.totals, s.weights, ice_accretion, &ice_mm, min);
     write_family(
         dir,
         r,

@@ -145,6 +145,8 @@ pub fn write_manifest(
         "ice_thresholds": &case.ice_thresholds,
         "ice_threshold_units": case.units.liquid_unit(),
         "ice_accretion": format!("{} × freezing-rain liquid (median flat-surface ratio, Sanders & Barjenbruch 2016)", crate::diagnose::slr::FREEZING_RAIN_ACCRETION_RATIO),
+        "min_coverage": case.min_coverage,
+        "coverage": "share of the prior's weight carried by the scenarios with a total at a cell (prior_coverage.tif); the weighted summaries and min/max/range use those scenarios, weights renormalised, where it is at least min_coverage, and are nodata below",
         "quantiles": "weighted empirical CDF with each scenario at the middle of its step, linear between scenario values, clamped to the smallest/largest (Hyndman & Fan 1996 definition 5 when weights are equal)",
         "exceedance": "P(X ≥ threshold): the weight of the scenarios at or above the threshold",
         "sensitivity": format!("change per {} km of offset at offset 0: centred difference of the nearest offsets either side, one-sided where only one side was run", crate::summarise::sensitivity::PER_KM),

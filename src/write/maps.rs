@@ -661,6 +661,7 @@ pub fn write_maps(
     r: &RunResult,
     ctx: &MapContext,
     inputs: &MapInputs,
+    snow_range_mm: &[f32],
     ranked_towns: &[TownDecision],
     rain_snow: &[Vec<Vec<[f64; 2]>>],
 ) -> Result<Vec<Written>, WriteError> {
@@ -727,8 +728,7 @@ pub fn write_maps(
     let to_unit = |v: &[f32]| v.iter().map(|x| u.snow(*x)).collect::<Vec<f32>>();
     let baseline = to_unit(&r.totals[r.baseline].snowfall);
     let p90 = to_unit(&inputs.snow_p90);
-    let refs: Vec<&[f32]> = r.totals.iter().map(|t| t.snowfall.as_slice()).collect();
-    let range = to_unit(&crate::summarise::spread(&refs).range);
+    let range = to_unit(snow_range_mm);
     let fmax = |v: &[f32]| {
         v.iter()
             .filter(|x| x.is_finite())

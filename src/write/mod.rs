@@ -167,9 +167,10 @@ fn write_decision_products(
     dir: &Path,
     case: &crate::case::Case,
     r: &crate::engine::RunResult,
+    shared: &Shared,
     rain_snow: &[Vec<Vec<[f64; 2]>>],
 ) -> Result<Vec<Written>, WriteError> {
-    let weights = crate::summarise::weights::scenario_weights(&case.prior, &r.scenarios)?;
+    let weights = &shared.weights;
     let meta = vec![
         (
             "trackswing_version".to_string(),
@@ -181,7 +182,8 @@ fn write_decision_products(
     ];
     let settings = decisions::DecisionSettings {
         units: case.units,
-        weights: &weights,
+        weights,
+        coverage: &shared.coverage,
         snow_thresholds: &case.snow_thresholds,
         ice_thresholds: &case.ice_thresholds,
         meta: &meta,
@@ -197,7 +199,8 @@ fn write_decision_products(
         .iter()
         .map(|t| case.units.liquid_to_mm(*t))
         .collect();
-    let ranked = crate::summarise::bust::town_decisions(r, &weights, &snow_mm, &ice_mm);
+    let ranked =
+        crate::summarise::bust::town_decisions(r, weights, shared.coverage.min, &snow_mm, &ice_mm);
     files.extend(bust::write_towns_bust(
         dir,
         &ranked,
@@ -217,10 +220,38 @@ fn write_decision_products(
         r,
         &ctx,
         &map_inputs,
+        &shared.snow_spread.range,
         &ranked,
         rain_snow,
     )?);
     Ok(files)
+}
+
+/// What several layer families share, computed once per set: the prior's weights, the
+/// coverage of every cell and the snowfall's min/max/range under the coverage rule (mm).
+pub struct Shared {
+    /// Normalised weight per scenario.
+    pub weights: Vec<f64>,
+    /// Where the prior is known well enough to summarise.
+    pub coverage: crate::summarise::coverage::PriorCoverage,
+    /// Snowfall over the scenarios with data, mm.
+    pub snow_spread: crate::summarise::Spread,
+}
+
+impl Shared {
+    /// The weights, coverage and spread of a run under the case's prior and minimum coverage.
+    pub fn of(case: &crate::case::Case, r: &crate::engine::RunResult) -> Result<Self, WriteError> {
+        let weights = crate::summarise::weights::scenario_weights(&case.prior, &r.scenarios)?;
+        let coverage =
+            crate::summarise::coverage::PriorCoverage::of(&r.totals, &weights, case.min_coverage);
+        let snowfall: Vec<&[f32]> = r.totals.iter().map(|t| t.snowfall.as_slice()).collect();
+        let snow_spread = crate::summarise::spread(&snowfall, &coverage);
+        Ok(Self {
+            weights,
+            coverage,
+            snow_spread,
+        })
+    }
 }
 
 /// What [`write_all`] wrote, and every warning of the run and of the writing (the manifest and
@@ -240,8 +271,10 @@ pub fn write_all(
     case: &crate::case::Case,
     r: &crate::engine::RunResult,
 ) -> Result<Outcome, WriteError> {
+    let shared = Shared::of(case, r)?;
     let staging = folder::Staging::begin(&case.out_dir, &case.inputs(), case.force)?;
     let mut warnings = r.warnings.clone();
+    warnings.extend(shared.coverage.warning());
     let carried = staging.carried();
     if !carried.is_empty() {
         let sidecars = carried.iter().any(|p| {
@@ -261,7 +294,7 @@ pub fn write_all(
             }
         ));
     }
-    match write_set(staging.dir(), case, r, &warnings) {
+    match write_set(staging.dir(), case, r, &shared, &warnings) {
         Ok(files) => {
             staging.commit()?;
             Ok(Outcome { files, warnings })
@@ -277,6 +310,7 @@ fn write_set(
     dir: &Path,
     case: &crate::case::Case,
     r: &crate::engine::RunResult,
+    shared: &Shared,
     warnings: &[String],
 ) -> Result<Vec<Written>, WriteError> {
     let meta = vec![
@@ -291,13 +325,11 @@ fn write_set(
         units: case.units,
         raster_type: case.raster_type,
     };
-    let mut files = rasters::write_rasters(dir, r, &settings, &meta)?;
+    let mut files = rasters::write_rasters(dir, r, &settings, &meta, &shared.snow_spread)?;
     let rain_snow = lines::rain_snow_lines(r)?;
     files.push(lines::write_rain_snow_lines(dir, r, &rain_snow)?);
     files.push(zones::write_transition_zones(dir, r)?);
     files.push(zones::write_flip_zone(dir, r)?);
-    let snowfall: Vec<&[f32]> = r.totals.iter().map(|t| t.snowfall.as_slice()).collect();
-    let max = crate::summarise::spread(&snowfall).max;
     for (name, what, field) in [
         (
             "snowfall_bands_baseline.geojson",
@@ -306,8 +338,8 @@ fn write_set(
         ),
         (
             "snowfall_bands_max.geojson",
-            "the largest total over all offsets",
-            &max,
+            "the largest total over the offsets",
+            &shared.snow_spread.max,
         ),
     ] {
         files.push(isobands::write_snowfall_bands(
@@ -333,7 +365,7 @@ fn write_set(
             valid_times: &r.valid_times,
         },
     )?);
-    files.extend(write_decision_products(dir, case, r, &rain_snow)?);
+    files.extend(write_decision_products(dir, case, r, shared, &rain_snow)?);
     if case.report {
         // Listed now, written right after the manifest it is built from.
         files.push(report::entry());

@@ -9,7 +9,7 @@ use super::{write_atomic, Kind, WriteError, Written};
 use crate::case::{RasterType, Units};
 use crate::engine::RunResult;
 use crate::geotiff::{write_cog, BandSpec, CogOptions, SampleEncoding, WriteOptions};
-use crate::summarise::spread;
+use crate::summarise::Spread;
 use std::path::Path;
 
 /// Nodata value of every Float32 layer.
@@ -119,6 +119,7 @@ pub fn write_rasters(
     r: &RunResult,
     settings: &RasterSettings,
     meta: &[(String, String)],
+    snow_spread: &Spread,
 ) -> Result<Vec<Written>, WriteError> {
     let units = settings.units;
     let su = units.snow_unit();
@@ -156,13 +157,12 @@ pub fn write_rasters(
     });
 
     let base = &r.totals[r.baseline];
-    let refs: Vec<&[f32]> = stack.iter().map(|v| v.as_slice()).collect();
-    let sp = spread(&refs);
+    let sp = snow_spread;
     let layers = [
         ("snowfall_baseline.tif", su, "Storm-total snowfall as modelled (offset 0, 0)", stack[r.baseline].clone()),
-        ("snowfall_min.tif", su, "Smallest storm-total snowfall over all track offsets", sp.min),
-        ("snowfall_max.tif", su, "Largest storm-total snowfall over all track offsets", sp.max),
-        ("snowfall_range.tif", su, "Largest minus smallest snowfall over all track offsets: how much the total depends on track error", sp.range),
+        ("snowfall_min.tif", su, "Smallest storm-total snowfall over the track offsets with data (nodata where they carry under the minimum share of the prior, see prior_coverage.tif)", snow(&sp.min)),
+        ("snowfall_max.tif", su, "Largest storm-total snowfall over the track offsets with data (nodata where they carry under the minimum share of the prior, see prior_coverage.tif)", snow(&sp.max)),
+        ("snowfall_range.tif", su, "Largest minus smallest snowfall over the track offsets with data: how much the total depends on track error (nodata where they carry under the minimum share of the prior, see prior_coverage.tif)", snow(&sp.range)),
         ("liquid_baseline.tif", lu, "Storm-total precipitation (liquid equivalent) as modelled", liquid(&base.liquid)),
         ("snow_fraction_baseline.tif", "1", "Share of the storm's liquid that falls as snow, as modelled (nodata where under 0.1 mm fell)", base.snow_fraction()),
         ("ice_pellets_baseline.tif", lu, "Liquid equivalent falling as ice pellets, as modelled", liquid(&base.ice_pellets)),

@@ -2,6 +2,7 @@
 
 mod atomic;
 mod bad_input;
+mod coverage;
 mod decisions;
 mod demo;
 mod engine;

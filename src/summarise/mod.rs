@@ -14,6 +14,7 @@ pub mod bust;
 pub mod coverage;
 pub mod ice;
 pub mod quantiles;
+pub mod scope;
 pub mod sensitivity;
 pub mod weights;
 

@@ -388,7 +388,11 @@ pub fn write_report(dir: &Path) -> Result<PathBuf, ReportError> {
         .get("accumulation_period")
         .map(|p| text_of(&p["text"]))
         .unwrap_or_default();
-    let mut keys = vec![("Period the totals cover".to_string(), period.clone())];
+    // A folder written before the period was recorded has none: no row, no caption clause.
+    let mut keys: Vec<(String, String)> = Vec::new();
+    if !period.is_empty() {
+        keys.push(("Period the totals cover".to_string(), period.clone()));
+    }
     keys.extend(key_numbers(dir, su)?);
     h.push_str("<section><h2>Key numbers</h2>");
     h.push_str(&table(
@@ -473,7 +477,11 @@ pub fn write_report(dir: &Path) -> Result<PathBuf, ReportError> {
         if !p.is_file() {
             continue;
         }
-        let caption = format!("{caption} Totals over {period}.");
+        let caption = if period.is_empty() {
+            caption.to_string()
+        } else {
+            format!("{caption} Totals over {period}.")
+        };
         let data = base64::engine::general_purpose::STANDARD.encode(read(&p)?);
         let _ = writeln!(
             h,

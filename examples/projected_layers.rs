@@ -201,6 +201,7 @@ fn main() -> anyhow::Result<()> {
             cross_sigma_km: 50.0,
             along_sigma_km: 50.0,
         },
+        min_coverage: trackswing::summarise::coverage::DEFAULT_MIN_COVERAGE,
         snow_thresholds: Units::Metric.default_snow_thresholds(),
         ice_thresholds: Units::Metric.default_ice_thresholds(),
         report: false,

@@ -100,6 +100,7 @@ fn run_case(
         raster_type: common.raster_type.clone(),
         cross_sigma: common.cross_sigma,
         along_sigma: common.along_sigma,
+        min_coverage: common.min_coverage,
         report: with_report || common.report,
     };
     let case = match plan {

@@ -12,6 +12,8 @@
 //! ([`Totals::onset`]). Memory is a fixed number of values per cell and scenario, whatever the
 //! number of steps.
 
+pub mod period;
+
 use crate::diagnose::slr::{FREEZING_RAIN_ACCRETION_RATIO, ICE_PELLET_DEPTH_RATIO};
 use crate::diagnose::PtypeFractions;
 

@@ -7,6 +7,7 @@
 use crate::diagnose::{Methods, PtypeMethod, SlrMethod};
 use crate::scenario::{parse_offsets, Axes, OffsetError};
 use crate::shift::Taper;
+use crate::summarise::coverage::{check_min_coverage, DEFAULT_MIN_COVERAGE};
 use crate::summarise::weights::{read_weights_csv, scenario_weights, ExplicitWeight, TrackPrior};
 use serde::Deserialize;
 use std::path::{Path, PathBuf};
@@ -165,6 +166,8 @@ pub struct WeightsFile {
     pub explicit: Option<Vec<ExplicitWeight>>,
     /// Explicit weights from a CSV (`cross_km,along_km,weight`).
     pub explicit_file: Option<String>,
+    /// Least share of the prior's weight with data for a cell to be summarised (0 < x ≤ 1).
+    pub min_coverage: Option<f64>,
 }
 
 /// The case file as written.
@@ -387,6 +390,8 @@ pub struct Overrides {
     pub cross_sigma: Option<f64>,
     /// `--along-sigma`, km.
     pub along_sigma: Option<f64>,
+    /// `--min-coverage`: least share of the prior's weight with data to summarise a cell.
+    pub min_coverage: Option<f64>,
     /// `--report` (and `demo`): write report.html with the set.
     pub report: bool,
 }
@@ -431,6 +436,9 @@ pub struct Case {
     pub snowfall_bands: Vec<f64>,
     /// The prior over track offsets.
     pub prior: TrackPrior,
+    /// Least share of the prior's weight with data for a cell to be summarised
+    /// ([`crate::summarise::coverage`]).
+    pub min_coverage: f64,
     /// Snowfall thresholds, output snow units, increasing.
     pub snow_thresholds: Vec<f64>,
     /// Ice-accretion thresholds, output liquid units, increasing.
@@ -795,6 +803,13 @@ impl Case {
                 invalid(field, e.to_string())
             },
         )?;
+        let min_coverage = match (over.min_coverage, file.weights.min_coverage) {
+            (Some(v), _) => check_min_coverage(v).map_err(|e| invalid("--min-coverage", e))?,
+            (None, Some(v)) => {
+                check_min_coverage(v).map_err(|e| invalid("weights.min_coverage", e))?
+            }
+            (None, None) => DEFAULT_MIN_COVERAGE,
+        };
         let out_dir = match (&over.out, &file.output.folder) {
             (Some(o), _) => o.clone(),
             (None, Some(f)) => dir.join(f),
@@ -827,6 +842,7 @@ impl Case {
             raster_type,
             snowfall_bands,
             prior,
+            min_coverage,
             snow_thresholds,
             ice_thresholds,
             report: over.report,

@@ -107,6 +107,11 @@ pub struct Common {
     /// verification; the default (50 km) is an example, not a climatology.
     #[arg(long, value_name = "KM", allow_hyphen_values = true)]
     pub along_sigma: Option<f64>,
+    /// Least share (0 < x ≤ 1, default 0.9) of the track-error prior's weight that must have
+    /// data at a cell for its weighted summaries and min/max/range; the scenarios with data are
+    /// then renormalised (prior_coverage.tif shows the share).
+    #[arg(long, value_name = "SHARE", allow_hyphen_values = true)]
+    pub min_coverage: Option<f64>,
     /// Also write report.html (always written by `demo`).
     #[arg(long)]
     pub report: bool,

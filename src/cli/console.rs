@@ -211,9 +211,28 @@ pub fn summary(
         let n = r.scenarios.len();
         let _ = writeln!(out, "{}", run_line(r, n, took, Some(write_s)));
     }
+    if let Some(p) = trackswing::accumulate::period::Period::of(&r.valid_times) {
+        let _ = writeln!(out, "totals over {}", p.words());
+    }
     // The run's warnings and the writing's, as manifest.json and report.html list them.
     for w in &outcome.warnings {
         let _ = writeln!(out, "warning: {w}");
+    }
+    // What could not be computed, by reason, as manifest.json and report.html list it.
+    let mut reasons: Vec<&str> = Vec::new();
+    for n in &outcome.not_computed {
+        if !reasons.contains(&n.reason.as_str()) {
+            reasons.push(&n.reason);
+        }
+    }
+    for reason in reasons {
+        let layers: Vec<&str> = outcome
+            .not_computed
+            .iter()
+            .filter(|n| n.reason == reason)
+            .map(|n| n.layer.as_str())
+            .collect();
+        let _ = writeln!(out, "not computed: {reason}: {}", layers.join(", "));
     }
     let _ = writeln!(out, "layers written to {}:", case.out_dir.display());
     for f in &outcome.files {

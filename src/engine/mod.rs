@@ -524,17 +524,20 @@ pub fn warn_about_totals(
 ) {
     let run = totals.iter().filter(|t| !t.is_empty()).count();
     let cell_steps = (n * steps) as f64;
-    let edge: Vec<(usize, f64)> = totals
+    // In shares of the map's cells the scenario's band lacks (not of cell-steps): what a user
+    // opening the band sees. The summaries' share is the prior-coverage warning's.
+    let edge: Vec<(usize, usize)> = totals
         .iter()
         .enumerate()
         .filter(|(_, t)| t.outside > 0)
-        .map(|(i, t)| (i, 100.0 * t.outside as f64 / cell_steps))
+        .map(|(i, t)| (i, t.snowfall.iter().filter(|v| v.is_nan()).count()))
         .collect();
-    if let Some(&(worst, share)) = edge.iter().max_by(|a, b| a.1.total_cmp(&b.1)) {
+    if let Some(&(worst, cells)) = edge.iter().max_by_key(|e| e.1) {
         progress.warn(&format!(
-            "{} of {} scenarios took some values from beyond the grid edge (up to {share:.1} % of cell-steps, at {}); those cells are nodata in those scenarios and in the min/max/range layers",
+            "{} of {} scenarios took some values from beyond the grid edge (up to {:.1} % of the map's cells, at {}); those cells are nodata in those scenarios' bands",
             edge.len(),
             run,
+            100.0 * cells as f64 / n.max(1) as f64,
             scenarios[worst].label()
         ));
     }

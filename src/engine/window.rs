@@ -172,10 +172,7 @@ impl<'a> StepWindow<'a> {
     /// Length of step `k` (from the previous valid time; the first step is taken to be as long
     /// as the second).
     fn length(&self, k: usize) -> Option<Duration> {
-        match k {
-            0 => self.times.get(1).map(|t1| *t1 - self.times[0]),
-            _ => Some(self.times[k] - self.times[k - 1]),
-        }
+        crate::accumulate::period::step_length(&self.times, k)
     }
 
     /// What scenario `s` needs at output step `k` when its fields are sampled at `sample`.

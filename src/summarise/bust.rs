@@ -79,7 +79,8 @@ pub struct TownDecision {
     pub baseline: CellTotals,
     /// Snowfall per scenario, mm.
     pub snowfall: Vec<f32>,
-    /// Weighted mean and P10/P50/P90 of snowfall (`None` when missing in some scenario).
+    /// Weighted mean and P10/P50/P90 of snowfall over the scenarios with data (`None` where
+    /// they carry under the minimum share of the prior, [`super::coverage`]).
     pub snow: Option<Summary>,
     /// `P(snowfall ≥ threshold)` per threshold (NaN when missing).
     pub snow_exceedance: Vec<f64>,
@@ -134,6 +135,7 @@ pub fn bust_score(p10_mm: f64, p90_mm: f64, baseline_mm: f64) -> f64 {
 pub fn town_decisions(
     r: &RunResult,
     weights: &[f64],
+    min_coverage: f64,
     snow_thresholds_mm: &[f64],
     ice_thresholds_mm: &[f64],
 ) -> Vec<TownDecision> {
@@ -175,7 +177,7 @@ pub fn town_decisions(
                     .zip(weights)
                     .map(|(x, w)| (*x as f64, *w))
                     .collect();
-                prepare(&mut pairs).map(|_| pairs)
+                prepare(&mut pairs, min_coverage).map(|_| pairs)
             };
             let exceedances = |pairs: Option<&[(f64, f64)]>, thresholds: &[f64]| -> Vec<f64> {
                 thresholds
@@ -188,7 +190,8 @@ pub fn town_decisions(
             let snow_exceedance = exceedances(snow_pairs.as_deref(), snow_thresholds_mm);
             let ice_pairs = weighted(&ice);
             let ice_exceedance = exceedances(ice_pairs.as_deref(), ice_thresholds_mm);
-            let extremes = extremes(&snowfall);
+            // Over the scenarios with data, where the coverage rule summarises the town.
+            let extremes = snow_pairs.as_ref().and_then(|_| extremes(&snowfall));
             let base = per[r.baseline];
             let flip = flip_search(&r.scenarios, &order, &base, |k| per[k]);
             let diff = |st: &Option<super::sensitivity::Stencil>| {
@@ -232,11 +235,10 @@ pub fn town_decisions(
     out
 }
 
+/// Smallest and largest of the values that are not missing (`None` when all are).
 fn extremes(v: &[f32]) -> Option<Extremes> {
-    if v.is_empty() || v.iter().any(|x| x.is_nan()) {
-        return None;
-    }
-    let (mut argmin, mut argmax) = (0, 0);
+    let first = v.iter().position(|x| !x.is_nan())?;
+    let (mut argmin, mut argmax) = (first, first);
     for (i, x) in v.iter().enumerate() {
         if *x < v[argmin] {
             argmin = i;
@@ -400,7 +402,7 @@ mod tests {
 
     fn decision(base: f32, snowfall: Vec<f32>, flip: FlipSearch) -> TownDecision {
         let mut pairs: Vec<(f64, f64)> = snowfall.iter().map(|v| (*v as f64, 1.0)).collect();
-        prepare(&mut pairs).unwrap();
+        prepare(&mut pairs, 1.0).unwrap();
         TownDecision {
             name: "T".into(),
             lat: 0.0,

@@ -1,17 +1,20 @@
 //! Stage 5, summarise: what the scenarios say together, per cell and per town.
 //!
 //! Every summary here is a function of the per-scenario totals alone, so summaries of a run
-//! split into shards are recomputed exactly from the merged totals. A cell or town missing in
-//! any scenario is missing in the summary: a range over incomplete scenarios would understate
-//! the spread.
+//! split into shards are recomputed exactly from the merged totals. A cell some scenarios have
+//! no total for is summarised over the others only where they carry enough of the prior's
+//! weight ([`coverage`]); elsewhere it is missing.
 //!
-//! Decision products: [`weights`] (the prior over track offsets), [`quantiles`] (weighted mean,
+//! Decision products: [`weights`] (the prior over track offsets), [`coverage`] (where the
+//! prior is known well enough to summarise), [`quantiles`] (weighted mean,
 //! P10/P50/P90 and threshold probabilities), [`sensitivity`] (change per 50 km of offset and
 //! the flip distance), [`ice`] (ice accretion) and [`bust`] (the ranked bust-prone towns).
 
 pub mod bust;
+pub mod coverage;
 pub mod ice;
 pub mod quantiles;
+pub mod scope;
 pub mod sensitivity;
 pub mod weights;
 
@@ -30,21 +33,23 @@ pub struct Spread {
     pub range: Vec<f32>,
 }
 
-/// Minimum, maximum and range of one total over all scenarios, cell by cell.
-pub fn spread(per_scenario: &[&[f32]]) -> Spread {
+/// Minimum, maximum and range of one total over the scenarios with a value, cell by cell,
+/// where the coverage rule summarises the cell (missing elsewhere).
+pub fn spread(per_scenario: &[&[f32]], coverage: &coverage::PriorCoverage) -> Spread {
     let n = per_scenario.first().map_or(0, |s| s.len());
     let mut min = vec![f32::INFINITY; n];
     let mut max = vec![f32::NEG_INFINITY; n];
     for s in per_scenario {
         for i in 0..n {
-            let v = s[i];
-            if v.is_nan() || min[i].is_nan() {
-                min[i] = f32::NAN;
-                max[i] = f32::NAN;
-            } else {
-                min[i] = min[i].min(v);
-                max[i] = max[i].max(v);
-            }
+            // NaN compares false: a scenario without a value changes neither.
+            min[i] = min[i].min(s[i]);
+            max[i] = max[i].max(s[i]);
+        }
+    }
+    for i in 0..n {
+        if !coverage.summarised(i) || min[i] > max[i] {
+            min[i] = f32::NAN;
+            max[i] = f32::NAN;
         }
     }
     let range = min.iter().zip(&max).map(|(a, b)| b - a).collect();
@@ -160,13 +165,21 @@ mod tests {
     use super::*;
 
     #[test]
-    fn spread_is_min_max_and_missing_wins() {
-        let a = [1.0, 5.0, f32::NAN];
-        let b = [3.0, 2.0, 1.0];
-        let s = spread(&[&a, &b]);
-        assert_eq!(s.min[..2], [1.0, 2.0]);
-        assert_eq!(s.max[..2], [3.0, 5.0]);
+    fn spread_is_min_max_over_the_scenarios_with_data_where_covered() {
+        let a = [1.0, 5.0, f32::NAN, f32::NAN];
+        let b = [3.0, 2.0, 1.0, 4.0];
+        let c = [2.0, 4.0, 3.0, 6.0];
+        // Weights 1/4, 1/4, 1/2: cells 2 and 3 lack a quarter of the prior.
+        let cov = |min: f64| coverage::PriorCoverage {
+            share: vec![1.0, 1.0, 0.75, 0.75],
+            min,
+        };
+        let s = spread(&[&a, &b, &c], &cov(0.75));
+        assert_eq!(s.min, [1.0, 2.0, 1.0, 4.0]);
+        assert_eq!(s.max, [3.0, 5.0, 3.0, 6.0]);
+        assert_eq!(s.range, [2.0, 3.0, 2.0, 2.0]);
+        let s = spread(&[&a, &b, &c], &cov(0.9));
         assert_eq!(s.range[..2], [2.0, 3.0]);
-        assert!(s.min[2].is_nan() && s.range[2].is_nan());
+        assert!(s.min[2].is_nan() && s.max[3].is_nan() && s.range[3].is_nan());
     }
 }

@@ -12,8 +12,10 @@
 //! **Probability of reaching a threshold** `t`: `P(X ≥ t) = Σ wᵢ·[vᵢ ≥ t]`, the weight of the
 //! scenarios at or above it. It lies in [0, 1] and never increases with `t`.
 //!
-//! A cell missing (NaN) in any scenario of positive weight is missing in every summary: a
-//! distribution over the scenarios that happen to be present would be biased.
+//! Scenarios without a value (NaN: their source point left the grid) are left out and the
+//! others' weights renormalised, where they carry at least the minimum share of the prior's
+//! weight ([`super::coverage`]: under it a percentile is not bounded by the data); below it the
+//! summary is missing.
 
 use crate::accumulate::Totals;
 use rayon::prelude::*;
@@ -30,15 +32,17 @@ pub struct Summary {
     pub quantiles: [f64; 3],
 }
 
-/// Sorts (value, weight) pairs by value, dropping zero weights; returns `None` when a value of
-/// positive weight is missing or no weight is positive.
-pub fn prepare(pairs: &mut Vec<(f64, f64)>) -> Option<()> {
-    pairs.retain(|(_, w)| *w > 0.0);
-    if pairs.is_empty() || pairs.iter().any(|(v, _)| v.is_nan()) {
+/// Keeps the (value, weight) pairs of positive weight that have a value, sorted by value, when
+/// they carry at least `min_coverage` of the positive weight ([`super::coverage::share`]);
+/// returns that share, or `None` when less is known or no weight is positive.
+pub fn prepare(pairs: &mut Vec<(f64, f64)>, min_coverage: f64) -> Option<f64> {
+    let coverage = super::coverage::share(pairs)?;
+    if coverage < min_coverage || coverage == 0.0 {
         return None;
     }
+    pairs.retain(|(v, w)| *w > 0.0 && !v.is_nan());
     pairs.sort_by(|a, b| a.0.total_cmp(&b.0));
-    Some(())
+    Some(coverage)
 }
 
 /// The q-quantile of sorted, positively weighted pairs (see the module notes).
@@ -99,7 +103,8 @@ pub struct DistributionLayers {
     pub exceedance: Vec<Vec<f32>>,
 }
 
-/// The weighted distribution of `value(totals, cell)` over the scenarios, for every cell.
+/// The weighted distribution of `value(totals, cell)` over the scenarios with a value, for
+/// every cell where they carry at least `min_coverage` of the weight ([`prepare`]).
 /// `thresholds` are in the same units as `value` (mm). Memory: the outputs plus one cell's
 /// values at a time; the totals are read in place.
 pub fn distribution(
@@ -107,6 +112,7 @@ pub fn distribution(
     weights: &[f64],
     value: impl Fn(&Totals, usize) -> f32 + Sync,
     thresholds: &[f64],
+    min_coverage: f64,
 ) -> DistributionLayers {
     let n = totals.first().map_or(0, Totals::len);
     // Per cell: mean, the three quantiles, then one exceedance per threshold; cells in
@@ -128,7 +134,7 @@ pub fn distribution(
                         .zip(weights)
                         .map(|(t, w)| (value(t, i) as f64, *w)),
                 );
-                if prepare(&mut pairs).is_none() {
+                if prepare(&mut pairs, min_coverage).is_none() {
                     continue;
                 }
                 let s = summary(&pairs);
@@ -169,7 +175,7 @@ mod tests {
         t[1].snowfall[1] = 5.0;
         let w = [0.1, 0.6, 0.3];
         let th = [5.0, 15.0, 25.0, 40.0, 50.0];
-        let d = distribution(&t, &w, |x, i| x.snowfall[i], &th);
+        let d = distribution(&t, &w, |x, i| x.snowfall[i], &th, 1.0);
         assert!((d.mean[0] - 16.0).abs() < 1e-5);
         assert_eq!(d.quantiles[0][0], 10.0);
         assert!((d.quantiles[1][0] - 14.444_445).abs() < 1e-4);
@@ -192,7 +198,7 @@ mod tests {
             .iter()
             .map(|v| (*v, 0.2))
             .collect();
-        prepare(&mut p).unwrap();
+        prepare(&mut p, 1.0).unwrap();
         for (q, want) in [
             (0.5, 3.0),
             (0.3, 1.0),
@@ -208,10 +214,35 @@ mod tests {
     #[test]
     fn zero_weights_are_ignored_even_when_missing() {
         let mut p = vec![(f64::NAN, 0.0), (2.0, 0.5), (4.0, 0.5)];
-        prepare(&mut p).unwrap();
+        assert_eq!(prepare(&mut p, 1.0), Some(1.0));
         assert_eq!(summary(&p).mean, 3.0);
-        let mut p = vec![(f64::NAN, 0.1), (2.0, 0.9)];
-        assert!(prepare(&mut p).is_none());
+        let mut p = vec![(f64::NAN, 0.25), (2.0, 0.75)];
+        assert!(prepare(&mut p, 0.9).is_none());
+    }
+
+    /// Renormalising: with a quarter of the weight missing and the rule at 0.75, the summary is
+    /// that of the rest with their weights scaled to add up to one. Values 10, 20, 40 with
+    /// weights 0.25, 0.25, 0.25 (and a missing 0.25) are the equal-weight sample 10, 20, 40:
+    /// mean 70/3, P50 = 20 (Hyndman & Fan 1996 definition 5: h = 3·0.5 + ½ = 2),
+    /// P(≥ 20) = 2/3.
+    #[test]
+    fn missing_scenarios_are_left_out_and_the_rest_renormalised() {
+        let mut p = vec![(40.0, 0.25), (f64::NAN, 0.25), (10.0, 0.25), (20.0, 0.25)];
+        assert_eq!(prepare(&mut p, 0.75), Some(0.75));
+        let s = summary(&p);
+        assert!((s.mean - 70.0 / 3.0).abs() < 1e-12);
+        assert!((s.quantiles[1] - 20.0).abs() < 1e-12);
+        assert!((exceedance(&p, 20.0) - 2.0 / 3.0).abs() < 1e-12);
+        let mut t: Vec<Totals> = (0..4).map(|_| Totals::new(1)).collect();
+        for (k, v) in [40.0, f32::NAN, 10.0, 20.0].iter().enumerate() {
+            t[k].snowfall = vec![*v];
+        }
+        let w = [0.25; 4];
+        let d = distribution(&t, &w, |x, i| x.snowfall[i], &[20.0], 0.75);
+        assert!((d.quantiles[1][0] - 20.0).abs() < 1e-6);
+        assert!((d.exceedance[0][0] - 2.0 / 3.0).abs() < 1e-6);
+        let d = distribution(&t, &w, |x, i| x.snowfall[i], &[20.0], 0.8);
+        assert!(d.mean[0].is_nan() && d.quantiles[2][0].is_nan());
     }
 
     proptest! {
@@ -222,7 +253,7 @@ mod tests {
         ) {
             let mut p = v.clone();
             prop_assume!(p.iter().any(|x| x.1 > 0.0));
-            prepare(&mut p).unwrap();
+            prepare(&mut p, 1.0).unwrap();
             let s = summary(&p);
             prop_assert!(s.quantiles[0] <= s.quantiles[1] + 1e-9);
             prop_assert!(s.quantiles[1] <= s.quantiles[2] + 1e-9);

@@ -180,6 +180,9 @@ fn row(
     v
 }
 
+/// The files [`write_towns_bust`] writes.
+pub const FILES: [&str; 2] = ["towns_bust.csv", "towns_bust.geojson"];
+
 /// Writes `towns_bust.csv` and `towns_bust.geojson` for towns already ranked.
 pub fn write_towns_bust(
     dir: &Path,

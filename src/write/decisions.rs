@@ -9,17 +9,20 @@ use super::{write_atomic, Kind, WriteError, Written};
 use crate::case::Units;
 use crate::engine::RunResult;
 use crate::geotiff::{write_cog, BandSpec, CogOptions, SampleEncoding, WriteOptions};
+use crate::summarise::coverage::PriorCoverage;
 use crate::summarise::ice::ice_accretion;
 use crate::summarise::quantiles::{distribution, DistributionLayers};
+use crate::summarise::scope::{Needs, NotComputed, Scope};
 use crate::summarise::sensitivity::{flip_layers, sensitivity_layer, Axis, FlipLayers, PER_KM};
 use std::path::Path;
 
-/// What the decision layers hand on to the quicklook maps.
+/// What the decision layers hand on to the quicklook maps (`None` where the run could not
+/// compute them).
 pub struct MapInputs {
     /// Snowfall P90, mm.
-    pub snow_p90: Vec<f32>,
+    pub snow_p90: Option<Vec<f32>>,
     /// Flip layers.
-    pub flip: FlipLayers,
+    pub flip: Option<FlipLayers>,
 }
 
 /// Settings of the decision layers.
@@ -28,12 +31,18 @@ pub struct DecisionSettings<'a> {
     pub units: Units,
     /// Normalised weight per scenario.
     pub weights: &'a [f64],
+    /// Where the prior is known well enough to summarise.
+    pub coverage: &'a PriorCoverage,
     /// Snowfall thresholds, output snow units.
     pub snow_thresholds: &'a [f64],
     /// Ice thresholds, output liquid units.
     pub ice_thresholds: &'a [f64],
     /// Dataset metadata for every GeoTIFF.
     pub meta: &'a [(String, String)],
+    /// Which axes the run varied.
+    pub scope: Scope,
+    /// The period the totals cover, in words.
+    pub period: &'a str,
 }
 
 /// A threshold as written in band descriptions and column names: `2.5`, `10`.
@@ -107,6 +116,7 @@ fn write_family(
     dir: &Path,
     r: &RunResult,
     meta: &[(String, String)],
+    period: &str,
     stem: &str,
     what: &str,
     unit: &str,
@@ -122,8 +132,8 @@ fn write_family(
         meta,
         &format!("{stem}_mean.tif"),
         unit,
-        &format!("{what}: mean over the track offsets, weighted by the track-error prior"),
-        vec![one(format!("{what}, weighted mean"), conv(&d.mean), unit)],
+        &format!("{what}: mean over the track offsets, weighted by the track-error prior; totals over {period}"),
+        vec![one(format!("{what}, weighted mean, totals over {period}"), conv(&d.mean), unit)],
     )?);
     for (q, layer) in ["p10", "p50", "p90"].iter().zip(&d.quantiles) {
         let pct = &q[1..];
@@ -133,8 +143,8 @@ fn write_family(
             meta,
             &format!("{stem}_{q}.tif"),
             unit,
-            &format!("{what}: weighted {pct}th percentile over the track offsets ({pct} % of the prior's weight lies at or below it)"),
-            vec![one(format!("{what}, P{pct}"), conv(layer), unit)],
+            &format!("{what}: weighted {pct}th percentile over the track offsets ({pct} % of the prior's weight lies at or below it); totals over {period}"),
+            vec![one(format!("{what}, P{pct}, totals over {period}"), conv(layer), unit)],
         )?);
     }
     let bands = thresholds
@@ -156,29 +166,78 @@ fn write_family(
         meta,
         &format!("{stem}_exceedance.tif"),
         "1",
-        &format!("Probability (0–1, weighted by the track-error prior) that {what} reaches each threshold; one band per threshold"),
+        &format!("Probability (0–1, weighted by the track-error prior) that {what} reaches each threshold; one band per threshold; totals over {period}"),
         bands,
     )?);
     let [_, _, p90] = d.quantiles;
     Ok(p90)
 }
 
-/// Writes every decision raster; returns what was written and what the maps need.
+/// Writes every decision raster the run can compute; returns what was written, what the maps
+/// need, and what was not computed (with the reason).
 pub fn write_decision_rasters(
     dir: &Path,
     r: &RunResult,
     s: &DecisionSettings,
-) -> Result<(Vec<Written>, MapInputs), WriteError> {
+) -> Result<(Vec<Written>, MapInputs, Vec<NotComputed>), WriteError> {
     let u = s.units;
     let (su, lu) = (u.snow_unit(), u.liquid_unit());
     let mut out = Vec::new();
+    let mut skipped = Vec::new();
+    let min = s.coverage.min;
+
+    if let Some(reason) = s.scope.missing(Needs::Track) {
+        // No track offsets: the prior has nothing to weigh, and every layer below is about
+        // track error.
+        for layer in [
+            "prior_coverage.tif",
+            "snowfall_mean.tif",
+            "snowfall_p10.tif",
+            "snowfall_p50.tif",
+            "snowfall_p90.tif",
+            "snowfall_exceedance.tif",
+            "ice_accretion_mean.tif",
+            "ice_accretion_p10.tif",
+            "ice_accretion_p50.tif",
+            "ice_accretion_p90.tif",
+            "ice_accretion_exceedance.tif",
+            "snowfall_sensitivity_cross.tif",
+            "snowfall_sensitivity_along.tif",
+            "flip_distance.tif",
+        ] {
+            skipped.push(NotComputed {
+                layer: layer.into(),
+                reason: reason.into(),
+            });
+        }
+        let none = MapInputs {
+            snow_p90: None,
+            flip: None,
+        };
+        return Ok((out, none, skipped));
+    }
+
+    let share: Vec<f32> = s.coverage.share.iter().map(|v| *v as f32).collect();
+    let what = format!("Share (0–1) of the track-error prior's weight carried by the scenarios with a total at each cell (the others took values from beyond the grid edge); the weighted summaries and min/max/range are computed over those scenarios, weights renormalised, where it is at least {min}, and are nodata below");
+    let mut band = one("share of the prior's weight with data".into(), share, "1");
+    band.metadata.push(("min_coverage".into(), min.to_string()));
+    out.push(write_bands(
+        dir,
+        r,
+        s.meta,
+        "prior_coverage.tif",
+        "1",
+        &what,
+        vec![band],
+    )?);
 
     let snow_mm: Vec<f64> = s.snow_thresholds.iter().map(|t| u.snow_to_mm(*t)).collect();
-    let d = distribution(&r.totals, s.weights, |t, i| t.snowfall[i], &snow_mm);
+    let d = distribution(&r.totals, s.weights, |t, i| t.snowfall[i], &snow_mm, min);
     let snow_p90 = write_family(
         dir,
         r,
         s.meta,
+        s.period,
         "snowfall",
         "snowfall",
         su,
@@ -193,11 +252,12 @@ pub fn write_decision_rasters(
         .iter()
         .map(|t| u.liquid_to_mm(*t))
         .collect();
-    let d = distribution(&r.totals, s.weights, ice_accretion, &ice_mm);
+    let d = distribution(&r.totals, s.weights, ice_accretion, &ice_mm, min);
     write_family(
         dir,
         r,
         s.meta,
+        s.period,
         "ice_accretion",
         "ice accretion",
         lu,
@@ -208,31 +268,36 @@ pub fn write_decision_rasters(
     )?;
 
     let per = format!("{su} per {PER_KM} km");
-    for (axis, file, words) in [
+    for (axis, needs, file, words) in [
         (
             Axis::Cross,
+            Needs::Cross,
             "snowfall_sensitivity_cross.tif",
             "across the track (positive: more snow if the low tracks further left)",
         ),
         (
             Axis::Along,
+            Needs::Along,
             "snowfall_sensitivity_along.tif",
             "along the track (positive: more snow if the low runs ahead)",
         ),
     ] {
-        let layer = sensitivity_layer(&r.totals, &r.scenarios, r.baseline, axis, |t, i| {
-            t.snowfall[i]
-        });
-        let data = layer.iter().map(|v| u.snow(*v)).collect();
-        out.push(write_bands(
-            dir,
-            r,
-            s.meta,
-            file,
-            &per,
-            &format!("Change of snowfall per {PER_KM} km of track shift at the model as issued, {words}; nodata where no offsets were run on this axis"),
-            vec![one(format!("snowfall change per {PER_KM} km, {words}"), data, &per)],
-        )?);
+        let written = s.scope.gate(needs, file, &mut skipped, || {
+            let layer = sensitivity_layer(&r.totals, &r.scenarios, r.baseline, axis, |t, i| {
+                t.snowfall[i]
+            });
+            let data = layer.iter().map(|v| u.snow(*v)).collect();
+            write_bands(
+                dir,
+                r,
+                s.meta,
+                file,
+                &per,
+                &format!("Change of snowfall per {PER_KM} km of track shift at the model as issued, {words}; totals over {}", s.period),
+                vec![one(format!("snowfall change per {PER_KM} km, {words}"), data, &per)],
+            )
+        })?;
+        out.extend(written);
     }
 
     let flip = flip_layers(&r.totals, &r.scenarios, r.baseline);
@@ -252,7 +317,7 @@ pub fn write_decision_rasters(
         s.meta,
         "flip_distance.tif",
         "km",
-        "Smallest track shift (√(cross² + along²), km) at which the dominant precipitation type changes or the snowfall halves or doubles (each floored at 1 cm); band 2/3 give that shift's cross/along offset, band 4 what flips; nodata where nothing flips within the offsets run",
+        &format!("Smallest track shift (√(cross² + along²), km) at which the dominant precipitation type changes or the snowfall halves or doubles (each floored at 1 cm); band 2/3 give that shift's cross/along offset, band 4 what flips; nodata where nothing flips within the offsets run; totals over {}", s.period),
         vec![
             km("flip distance, km", &flip.distance_km),
             km("cross-track offset of the flip, km (positive left)", &flip.cross_km),
@@ -260,5 +325,9 @@ pub fn write_decision_rasters(
             kind,
         ],
     )?);
-    Ok((out, MapInputs { snow_p90, flip }))
+    let maps = MapInputs {
+        snow_p90: Some(snow_p90),
+        flip: Some(flip),
+    };
+    Ok((out, maps, skipped))
 }

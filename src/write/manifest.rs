@@ -5,8 +5,10 @@
 //! runs apart. Written last.
 
 use super::{write_text_atomic, WriteError, Written};
+use crate::accumulate::period::Period;
 use crate::case::Case;
 use crate::engine::RunResult;
+use crate::summarise::scope::NotComputed;
 use rayon::prelude::*;
 use serde::Serialize;
 use std::path::Path;
@@ -74,12 +76,41 @@ struct ScenarioEntry {
     weight: f64,
 }
 
+/// The accumulation period as the manifest gives it.
+#[derive(Serialize)]
+struct PeriodEntry {
+    /// Start of the first step (RFC 3339; null when unknown: a single step).
+    start: Option<String>,
+    /// Valid time of the last step.
+    end: String,
+    /// ISO 8601 interval, as in the GeoTIFFs' `accumulation_period`.
+    iso8601: String,
+    /// Steps summed.
+    steps: usize,
+    /// In words.
+    text: String,
+}
+
+/// What the manifest says about the run besides its files.
+pub struct About<'a> {
+    /// Every warning of the run and the writing.
+    pub warnings: &'a [String],
+    /// The layers not computed, with the reason.
+    pub not_computed: &'a [NotComputed],
+    /// The period the totals cover.
+    pub period: Option<&'a Period>,
+}
+
 #[derive(Serialize)]
 struct Manifest<'a> {
     trackswing_version: &'a str,
     caution: &'a str,
     /// What the run and the writing warned about, in order; an empty list when nothing.
     warnings: &'a [String],
+    /// The layers the run could not compute, with the reason; an empty list when none.
+    not_computed: &'a [NotComputed],
+    /// The period the totals cover.
+    accumulation_period: Option<PeriodEntry>,
     title: &'a str,
     case_file: String,
     member: &'a str,
@@ -114,7 +145,7 @@ pub fn write_manifest(
     case: &Case,
     r: &RunResult,
     files: &[Written],
-    warnings: &[String],
+    about: &About,
 ) -> Result<(), WriteError> {
     let mut listed: Vec<(&str, &Path)> =
         vec![("case", &case.path), ("terrain", &case.member.terrain)];
@@ -145,6 +176,8 @@ pub fn write_manifest(
         "ice_thresholds": &case.ice_thresholds,
         "ice_threshold_units": case.units.liquid_unit(),
         "ice_accretion": format!("{} × freezing-rain liquid (median flat-surface ratio, Sanders & Barjenbruch 2016)", crate::diagnose::slr::FREEZING_RAIN_ACCRETION_RATIO),
+        "min_coverage": case.min_coverage,
+        "coverage": "share of the prior's weight carried by the scenarios with a total at a cell (prior_coverage.tif); the weighted summaries and min/max/range use those scenarios, weights renormalised, where it is at least min_coverage, and are nodata below",
         "quantiles": "weighted empirical CDF with each scenario at the middle of its step, linear between scenario values, clamped to the smallest/largest (Hyndman & Fan 1996 definition 5 when weights are equal)",
         "exceedance": "P(X ≥ threshold): the weight of the scenarios at or above the threshold",
         "sensitivity": format!("change per {} km of offset at offset 0: centred difference of the nearest offsets either side, one-sided where only one side was run", crate::summarise::sensitivity::PER_KM),
@@ -228,7 +261,20 @@ pub fn write_manifest(
     let m = Manifest {
         trackswing_version: env!("CARGO_PKG_VERSION"),
         caution: crate::CAUTION,
-        warnings,
+        warnings: about.warnings,
+        not_computed: about.not_computed,
+        accumulation_period: about.period.map(|p| {
+            let f = |t: &chrono::DateTime<chrono::Utc>| {
+                t.to_rfc3339_opts(chrono::SecondsFormat::Secs, true)
+            };
+            PeriodEntry {
+                start: p.start.as_ref().map(f),
+                end: f(&p.end),
+                iso8601: p.iso(),
+                steps: p.steps,
+                text: p.words(),
+            }
+        }),
         title: &case.title,
         case_file: case.path.display().to_string(),
         member: &case.member.name,

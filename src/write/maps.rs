@@ -16,6 +16,7 @@ use crate::grid::{km_per_degree, Grid};
 use crate::render::ramp::{self, Ramp};
 use crate::render::{text, Canvas, Rgb};
 use crate::summarise::bust::TownDecision;
+use crate::summarise::scope::Needs;
 use std::path::Path;
 
 /// Width of every map image, px.
@@ -653,14 +654,25 @@ pub struct MapContext<'a> {
     pub snow_thresholds: &'a [f64],
     /// The prior in words.
     pub prior_words: String,
+    /// The period the totals cover, in words.
+    pub period: &'a str,
 }
 
-/// Writes the four quicklook maps.
+/// The quicklook maps besides the baseline's, with what each needs from the scenarios.
+pub const NEEDING: [(&str, Needs); 3] = [
+    ("map_p90.png", Needs::Track),
+    ("map_range.png", Needs::Comparison),
+    ("map_flip_distance.png", Needs::Track),
+];
+
+/// Writes the quicklook maps the run can draw: the baseline always, the others where their
+/// inputs are given (`None` where the run could not compute them, see [`NEEDING`]).
 pub fn write_maps(
     dir: &Path,
     r: &RunResult,
     ctx: &MapContext,
     inputs: &MapInputs,
+    snow_range_mm: Option<&[f32]>,
     ranked_towns: &[TownDecision],
     rain_snow: &[Vec<Vec<[f64; 2]>>],
 ) -> Result<Vec<Written>, WriteError> {
@@ -714,6 +726,7 @@ pub fn write_maps(
                 span(&|s| s.along_km)
             ),
             format!("Track-error prior: {}.", ctx.prior_words),
+            format!("Totals over {}.", ctx.period),
         ],
     };
 
@@ -726,60 +739,53 @@ pub fn write_maps(
     );
     let to_unit = |v: &[f32]| v.iter().map(|x| u.snow(*x)).collect::<Vec<f32>>();
     let baseline = to_unit(&r.totals[r.baseline].snowfall);
-    let p90 = to_unit(&inputs.snow_p90);
-    let refs: Vec<&[f32]> = r.totals.iter().map(|t| t.snowfall.as_slice()).collect();
-    let range = to_unit(&crate::summarise::spread(&refs).range);
+    let p90 = inputs.snow_p90.as_deref().map(to_unit);
+    let range = snow_range_mm.map(to_unit);
     let fmax = |v: &[f32]| {
         v.iter()
             .filter(|x| x.is_finite())
             .fold(0.0f32, |a, b| a.max(*b)) as f64
     };
-    let amounts = amount_classes(
-        ctx.snow_thresholds,
-        fmax(&baseline).max(fmax(&p90)),
-        su,
-        &ramp::snow(),
-    );
-    let range_classes = amount_classes(ctx.snow_thresholds, fmax(&range), su, &ramp::spread());
-    let specs = [
-        MapSpec {
-            file: "map_baseline.png",
-            title: "Snowfall as modelled".into(),
-            legend_title: format!("Storm-total snowfall ({su}), track as modelled"),
-            field: &baseline,
-            classes: amounts,
-            nearest_only: false,
-            unit_words: snow_words.clone(),
-            never: None,
-        },
-        MapSpec {
+    let top = fmax(&baseline).max(p90.as_deref().map_or(0.0, fmax));
+    let amounts = amount_classes(ctx.snow_thresholds, top, su, &ramp::snow());
+    let mut specs = vec![MapSpec {
+        file: "map_baseline.png",
+        title: "Snowfall as modelled".into(),
+        legend_title: format!("Total snowfall ({su}), track as modelled"),
+        field: &baseline,
+        classes: amounts,
+        nearest_only: false,
+        unit_words: snow_words.clone(),
+        never: None,
+    }];
+    if let Some(p90) = &p90 {
+        specs.push(MapSpec {
             file: "map_p90.png",
             title: "Snowfall if the track error goes the snowy way (P90)".into(),
             legend_title: format!(
                 "Snowfall ({su}) exceeded with 1-in-10 chance under the track-error prior (P90)"
             ),
-            field: &p90,
-            classes: amount_classes(
-                ctx.snow_thresholds,
-                fmax(&baseline).max(fmax(&p90)),
-                su,
-                &ramp::snow(),
-            ),
+            field: p90,
+            classes: amount_classes(ctx.snow_thresholds, top, su, &ramp::snow()),
             nearest_only: false,
             unit_words: snow_words.clone(),
             never: None,
-        },
-        MapSpec {
+        });
+    }
+    if let Some(range) = &range {
+        specs.push(MapSpec {
             file: "map_range.png",
             title: "How much the snowfall depends on the track".into(),
-            legend_title: format!("Largest minus smallest snowfall over all track offsets ({su})"),
-            field: &range,
-            classes: range_classes,
+            legend_title: format!("Largest minus smallest snowfall over the scenarios ({su})"),
+            field: range,
+            classes: amount_classes(ctx.snow_thresholds, fmax(range), su, &ramp::spread()),
             nearest_only: false,
             unit_words: snow_words.clone(),
             never: None,
-        },
-        MapSpec {
+        });
+    }
+    if let Some(flip) = &inputs.flip {
+        specs.push(MapSpec {
             file: "map_flip_distance.png",
             title: "How far the track must shift before the forecast flips".into(),
             legend_title: format!(
@@ -789,16 +795,16 @@ pub fn write_maps(
                     Units::Us => "km, with miles",
                 }
             ),
-            field: &inputs.flip.distance_km,
+            field: &flip.distance_km,
             classes: distance_classes(far, &ramp::flip(), u),
             nearest_only: true,
             unit_words: match u {
                 Units::Metric => "track shift in km".into(),
                 Units::Us => "track shift in km (miles in the legend)".into(),
             },
-            never: Some(&inputs.flip.kind),
-        },
-    ];
+            never: Some(&flip.kind),
+        });
+    }
     let mut out = Vec::new();
     for spec in &specs {
         let canvas = render(&r.grid, spec, &overlay, r.scenarios.len());
@@ -818,8 +824,8 @@ pub fn write_maps(
                 su.into()
             },
             description: format!(
-                "Quicklook map (PNG): {} ({} · {})",
-                spec.title, overlay.subtitle, spec.unit_words
+                "Quicklook map (PNG): {} ({} · {}; totals over {})",
+                spec.title, overlay.subtitle, spec.unit_words, ctx.period
             ),
             bands: Vec::new(),
         });

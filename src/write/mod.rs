@@ -18,6 +18,8 @@ pub mod report;
 pub mod towns;
 pub mod zones;
 
+use crate::accumulate::period::Period;
+use crate::summarise::scope::{Needs, NotComputed, Scope};
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
@@ -167,26 +169,25 @@ fn write_decision_products(
     dir: &Path,
     case: &crate::case::Case,
     r: &crate::engine::RunResult,
+    shared: &Shared,
     rain_snow: &[Vec<Vec<[f64; 2]>>],
+    skipped: &mut Vec<NotComputed>,
 ) -> Result<Vec<Written>, WriteError> {
-    let weights = crate::summarise::weights::scenario_weights(&case.prior, &r.scenarios)?;
-    let meta = vec![
-        (
-            "trackswing_version".to_string(),
-            env!("CARGO_PKG_VERSION").to_string(),
-        ),
-        ("case_title".to_string(), case.title.clone()),
-        ("caution".to_string(), crate::CAUTION.to_string()),
-        ("track_error_prior".to_string(), prior_words(&case.prior)),
-    ];
+    let weights = &shared.weights;
+    let mut meta = shared.meta(case);
+    meta.push(("track_error_prior".to_string(), prior_words(&case.prior)));
     let settings = decisions::DecisionSettings {
         units: case.units,
-        weights: &weights,
+        weights,
+        coverage: &shared.coverage,
         snow_thresholds: &case.snow_thresholds,
         ice_thresholds: &case.ice_thresholds,
         meta: &meta,
+        scope: shared.scope,
+        period: &shared.period_words,
     };
-    let (mut files, map_inputs) = decisions::write_decision_rasters(dir, r, &settings)?;
+    let (mut files, map_inputs, not) = decisions::write_decision_rasters(dir, r, &settings)?;
+    skipped.extend(not);
     let snow_mm: Vec<f64> = case
         .snow_thresholds
         .iter()
@@ -197,30 +198,115 @@ fn write_decision_products(
         .iter()
         .map(|t| case.units.liquid_to_mm(*t))
         .collect();
-    let ranked = crate::summarise::bust::town_decisions(r, &weights, &snow_mm, &ice_mm);
-    files.extend(bust::write_towns_bust(
-        dir,
-        &ranked,
-        &r.scenarios,
-        case.units,
-        &case.snow_thresholds,
-        &case.ice_thresholds,
-    )?);
+    let ranked =
+        crate::summarise::bust::town_decisions(r, weights, shared.coverage.min, &snow_mm, &ice_mm);
+    // A table of bust scores from a run without track offsets would rank every town 0.
+    if let Some(reason) = shared.scope.missing(Needs::Track) {
+        for layer in bust::FILES {
+            skipped.push(NotComputed {
+                layer: layer.into(),
+                reason: reason.into(),
+            });
+        }
+    } else {
+        files.extend(bust::write_towns_bust(
+            dir,
+            &ranked,
+            &r.scenarios,
+            case.units,
+            &case.snow_thresholds,
+            &case.ice_thresholds,
+        )?);
+    }
     let ctx = maps::MapContext {
         title: &case.title,
         units: case.units,
         snow_thresholds: &case.snow_thresholds,
         prior_words: prior_words(&case.prior),
+        period: &shared.period_words,
     };
+    for (file, needs) in maps::NEEDING {
+        if let Some(reason) = shared.scope.missing(needs) {
+            skipped.push(NotComputed {
+                layer: file.into(),
+                reason: reason.into(),
+            });
+        }
+    }
+    let range = shared.compared().map(|s| s.range.as_slice());
     files.extend(maps::write_maps(
         dir,
         r,
         &ctx,
         &map_inputs,
+        range,
         &ranked,
         rain_snow,
     )?);
     Ok(files)
+}
+
+/// What several layer families share, computed once per set: the prior's weights, the
+/// coverage of every cell, the snowfall's min/max/range under the coverage rule (mm), which
+/// axes the run varied and the period the totals cover.
+pub struct Shared {
+    /// Normalised weight per scenario.
+    pub weights: Vec<f64>,
+    /// Where the prior is known well enough to summarise.
+    pub coverage: crate::summarise::coverage::PriorCoverage,
+    /// Snowfall over the scenarios with data, mm.
+    pub snow_spread: crate::summarise::Spread,
+    /// Which axes the scenarios vary.
+    pub scope: Scope,
+    /// The period the totals cover (`None` for a run without steps).
+    pub period: Option<Period>,
+    /// The period in words, for descriptions and captions.
+    pub period_words: String,
+}
+
+impl Shared {
+    /// The weights, coverage and spread of a run under the case's prior and minimum coverage.
+    pub fn of(case: &crate::case::Case, r: &crate::engine::RunResult) -> Result<Self, WriteError> {
+        let weights = crate::summarise::weights::scenario_weights(&case.prior, &r.scenarios)?;
+        let coverage =
+            crate::summarise::coverage::PriorCoverage::of(&r.totals, &weights, case.min_coverage);
+        let snowfall: Vec<&[f32]> = r.totals.iter().map(|t| t.snowfall.as_slice()).collect();
+        let snow_spread = crate::summarise::spread(&snowfall, &coverage);
+        let period = Period::of(&r.valid_times);
+        Ok(Self {
+            weights,
+            coverage,
+            snow_spread,
+            scope: Scope::of(&r.scenarios),
+            period,
+            period_words: period.map_or_else(|| "no steps".into(), |p| p.words()),
+        })
+    }
+
+    /// The snowfall's min/max/range when the run has scenarios to compare.
+    pub fn compared(&self) -> Option<&crate::summarise::Spread> {
+        self.scope
+            .missing(Needs::Comparison)
+            .is_none()
+            .then_some(&self.snow_spread)
+    }
+
+    /// Dataset metadata of every GeoTIFF: version, case, caution and the accumulation period
+    /// (ISO 8601 interval).
+    pub fn meta(&self, case: &crate::case::Case) -> Vec<(String, String)> {
+        let mut meta = vec![
+            (
+                "trackswing_version".to_string(),
+                env!("CARGO_PKG_VERSION").to_string(),
+            ),
+            ("case_title".to_string(), case.title.clone()),
+            ("caution".to_string(), crate::CAUTION.to_string()),
+        ];
+        if let Some(p) = &self.period {
+            meta.push(("accumulation_period".to_string(), p.iso()));
+        }
+        meta
+    }
 }
 
 /// What [`write_all`] wrote, and every warning of the run and of the writing (the manifest and
@@ -231,6 +317,8 @@ pub struct Outcome {
     pub files: Vec<Written>,
     /// The run's warnings, then the writing's.
     pub warnings: Vec<String>,
+    /// The layers the run could not compute, with the reason (also in the manifest).
+    pub not_computed: Vec<NotComputed>,
 }
 
 /// Writes every layer of a run into `case.out_dir`, the manifest last, replacing any previous
@@ -240,8 +328,12 @@ pub fn write_all(
     case: &crate::case::Case,
     r: &crate::engine::RunResult,
 ) -> Result<Outcome, WriteError> {
+    let shared = Shared::of(case, r)?;
     let staging = folder::Staging::begin(&case.out_dir, &case.inputs(), case.force)?;
     let mut warnings = r.warnings.clone();
+    if shared.scope.track() {
+        warnings.extend(shared.coverage.warning());
+    }
     let carried = staging.carried();
     if !carried.is_empty() {
         let sidecars = carried.iter().any(|p| {
@@ -261,10 +353,14 @@ pub fn write_all(
             }
         ));
     }
-    match write_set(staging.dir(), case, r, &warnings) {
-        Ok(files) => {
+    match write_set(staging.dir(), case, r, &shared, &warnings) {
+        Ok((files, not_computed)) => {
             staging.commit()?;
-            Ok(Outcome { files, warnings })
+            Ok(Outcome {
+                files,
+                warnings,
+                not_computed,
+            })
         }
         Err(e) => {
             staging.abandon();
@@ -277,39 +373,51 @@ fn write_set(
     dir: &Path,
     case: &crate::case::Case,
     r: &crate::engine::RunResult,
+    shared: &Shared,
     warnings: &[String],
-) -> Result<Vec<Written>, WriteError> {
-    let meta = vec![
-        (
-            "trackswing_version".to_string(),
-            env!("CARGO_PKG_VERSION").to_string(),
-        ),
-        ("case_title".to_string(), case.title.clone()),
-        ("caution".to_string(), crate::CAUTION.to_string()),
-    ];
+) -> Result<(Vec<Written>, Vec<NotComputed>), WriteError> {
+    let meta = shared.meta(case);
     let settings = rasters::RasterSettings {
         units: case.units,
         raster_type: case.raster_type,
     };
-    let mut files = rasters::write_rasters(dir, r, &settings, &meta)?;
+    let mut skipped = Vec::new();
+    let compared = shared.compared();
+    if let Some(reason) = shared.scope.missing(Needs::Comparison) {
+        for layer in [
+            "snowfall_min.tif",
+            "snowfall_max.tif",
+            "snowfall_range.tif",
+            "flip_zone.geojson",
+            "snowfall_bands_max.geojson",
+        ] {
+            skipped.push(NotComputed {
+                layer: layer.into(),
+                reason: reason.into(),
+            });
+        }
+    }
+    let mut files =
+        rasters::write_rasters(dir, r, &settings, &meta, compared, &shared.period_words)?;
     let rain_snow = lines::rain_snow_lines(r)?;
     files.push(lines::write_rain_snow_lines(dir, r, &rain_snow)?);
     files.push(zones::write_transition_zones(dir, r)?);
-    files.push(zones::write_flip_zone(dir, r)?);
-    let snowfall: Vec<&[f32]> = r.totals.iter().map(|t| t.snowfall.as_slice()).collect();
-    let max = crate::summarise::spread(&snowfall).max;
-    for (name, what, field) in [
-        (
-            "snowfall_bands_baseline.geojson",
-            "the model as issued (offset 0, 0)",
-            &r.totals[r.baseline].snowfall,
-        ),
-        (
+    if compared.is_some() {
+        files.push(zones::write_flip_zone(dir, r)?);
+    }
+    let mut bands = vec![(
+        "snowfall_bands_baseline.geojson",
+        "the model as issued (offset 0, 0)",
+        &r.totals[r.baseline].snowfall,
+    )];
+    if let Some(sp) = compared {
+        bands.push((
             "snowfall_bands_max.geojson",
-            "the largest total over all offsets",
-            &max,
-        ),
-    ] {
+            "the largest total over the scenarios",
+            &sp.max,
+        ));
+    }
+    for (name, what, field) in bands {
         files.push(isobands::write_snowfall_bands(
             dir,
             &r.grid,
@@ -333,12 +441,26 @@ fn write_set(
             valid_times: &r.valid_times,
         },
     )?);
-    files.extend(write_decision_products(dir, case, r, &rain_snow)?);
+    files.extend(write_decision_products(
+        dir,
+        case,
+        r,
+        shared,
+        &rain_snow,
+        &mut skipped,
+    )?);
     if case.report {
         // Listed now, written right after the manifest it is built from.
         files.push(report::entry());
     }
-    manifest::write_manifest(dir, case, r, &files, warnings)?;
+    // The track-risk reason first: it is the one a reader must not miss.
+    skipped.sort_by_key(|n| n.reason != crate::summarise::scope::NO_TRACK_OFFSETS);
+    let about = manifest::About {
+        warnings,
+        not_computed: &skipped,
+        period: shared.period.as_ref(),
+    };
+    manifest::write_manifest(dir, case, r, &files, &about)?;
     let mut all = files;
     all.push(Written {
         file: folder::MANIFEST.into(),
@@ -351,5 +473,5 @@ fn write_set(
         // Part of the set (swapped in with it), built from the files just written.
         report::write_report(dir).map_err(|e| WriteError::Report(Box::new(e)))?;
     }
-    Ok(all)
+    Ok((all, skipped))
 }

@@ -9,7 +9,7 @@ use super::{write_atomic, Kind, WriteError, Written};
 use crate::case::{RasterType, Units};
 use crate::engine::RunResult;
 use crate::geotiff::{write_cog, BandSpec, CogOptions, SampleEncoding, WriteOptions};
-use crate::summarise::spread;
+use crate::summarise::Spread;
 use std::path::Path;
 
 /// Nodata value of every Float32 layer.
@@ -119,6 +119,8 @@ pub fn write_rasters(
     r: &RunResult,
     settings: &RasterSettings,
     meta: &[(String, String)],
+    snow_spread: Option<&Spread>,
+    period: &str,
 ) -> Result<Vec<Written>, WriteError> {
     let units = settings.units;
     let su = units.snow_unit();
@@ -151,29 +153,38 @@ pub fn write_rasters(
         file: file.into(),
         kind: Kind::Raster,
         units: su.into(),
-        description: "Storm-total snowfall for every scenario (track offset and any timing, intensity and warm-bias axes), one band per scenario".into(),
+        description: format!("Total snowfall for every scenario (track offset and any timing, intensity and warm-bias axes), one band per scenario; totals over {period}"),
         bands: bands.iter().map(|b| b.description.clone()).collect(),
     });
 
     let base = &r.totals[r.baseline];
-    let refs: Vec<&[f32]> = stack.iter().map(|v| v.as_slice()).collect();
-    let sp = spread(&refs);
-    let layers = [
-        ("snowfall_baseline.tif", su, "Storm-total snowfall as modelled (offset 0, 0)", stack[r.baseline].clone()),
-        ("snowfall_min.tif", su, "Smallest storm-total snowfall over all track offsets", sp.min),
-        ("snowfall_max.tif", su, "Largest storm-total snowfall over all track offsets", sp.max),
-        ("snowfall_range.tif", su, "Largest minus smallest snowfall over all track offsets: how much the total depends on track error", sp.range),
-        ("liquid_baseline.tif", lu, "Storm-total precipitation (liquid equivalent) as modelled", liquid(&base.liquid)),
-        ("snow_fraction_baseline.tif", "1", "Share of the storm's liquid that falls as snow, as modelled (nodata where under 0.1 mm fell)", base.snow_fraction()),
+    let mut layers = vec![(
+        "snowfall_baseline.tif",
+        su,
+        "Total snowfall as modelled (offset 0, 0)",
+        stack[r.baseline].clone(),
+    )];
+    if let Some(sp) = snow_spread {
+        layers.extend([
+        ("snowfall_min.tif", su, "Smallest total snowfall over the scenarios with data (nodata where they carry under the minimum share of the prior, see prior_coverage.tif)", snow(&sp.min)),
+        ("snowfall_max.tif", su, "Largest total snowfall over the scenarios with data (nodata where they carry under the minimum share of the prior, see prior_coverage.tif)", snow(&sp.max)),
+        ("snowfall_range.tif", su, "Largest minus smallest snowfall over the scenarios with data: how much the total depends on track error (nodata where they carry under the minimum share of the prior, see prior_coverage.tif)", snow(&sp.range)),
+        ]);
+    }
+    layers.extend([
+        ("liquid_baseline.tif", lu, "Total precipitation (liquid equivalent) as modelled", liquid(&base.liquid)),
+        ("snow_fraction_baseline.tif", "1", "Share of the liquid that falls as snow, as modelled (nodata where under 0.1 mm fell)", base.snow_fraction()),
         ("ice_pellets_baseline.tif", lu, "Liquid equivalent falling as ice pellets, as modelled", liquid(&base.ice_pellets)),
         ("freezing_rain_baseline.tif", lu, "Liquid equivalent falling as freezing rain, as modelled", liquid(&base.freezing_rain)),
-        ("ice_pellet_fraction_baseline.tif", "1", "Share of the storm's liquid that falls as ice pellets, as modelled", base.ice_pellet_fraction()),
-        ("freezing_rain_fraction_baseline.tif", "1", "Share of the storm's liquid that falls as freezing rain, as modelled", base.freezing_rain_fraction()),
+        ("ice_pellet_fraction_baseline.tif", "1", "Share of the liquid that falls as ice pellets, as modelled", base.ice_pellet_fraction()),
+        ("freezing_rain_fraction_baseline.tif", "1", "Share of the liquid that falls as freezing rain, as modelled", base.freezing_rain_fraction()),
         ("ice_pellet_depth_baseline.tif", su, "Ice-pellet accumulation depth as modelled (2.5 × the ice-pellet liquid, common practice)", snow(&base.ice_pellet_depth())),
         ("dry_air_loss_baseline.tif", lu, "Precipitation that left the cloud but evaporated into dry air below it before reaching the ground, as modelled (0 with the dry-air correction off)", liquid(&base.carried)),
         ("ice_accretion_baseline.tif", lu, "Flat-surface ice accretion from freezing rain as modelled (0.72 × the freezing-rain liquid, Sanders & Barjenbruch 2016)", liquid(&base.ice_accretion())),
-    ];
+    ]);
     for (file, u, description, data) in layers {
+        // Every layer here is a total: the period it covers is part of what it is.
+        let description = format!("{description}; totals over {period}");
         let band = BandSpec {
             data: &data,
             description: description.to_string(),

@@ -94,6 +94,13 @@ fn text_of(v: &Value) -> String {
     }
 }
 
+/// `s` with its first letter in upper case.
+fn upper_first(s: &str) -> String {
+    let mut c = s.chars();
+    c.next()
+        .map_or(String::new(), |f| f.to_uppercase().chain(c).collect())
+}
+
 /// Numbers worth a line in the report, read back from the GeoTIFFs.
 fn key_numbers(dir: &Path, su: &str) -> Result<Vec<(String, String)>, ReportError> {
     let band = |file: &str, b: usize| -> Result<Vec<f32>, ReportError> {
@@ -124,6 +131,10 @@ fn key_numbers(dir: &Path, su: &str) -> Result<Vec<(String, String)>, ReportErro
             "Largest swing of snowfall over the track offsets",
         ),
     ] {
+        // A layer the run could not compute is listed under "Not computed", not shown as 0.
+        if !dir.join(file).is_file() {
+            continue;
+        }
         let m = max(&band(file, 0)?);
         out.push((
             words.to_string(),
@@ -133,6 +144,9 @@ fn key_numbers(dir: &Path, su: &str) -> Result<Vec<(String, String)>, ReportErro
                 "no data".into()
             },
         ));
+    }
+    if !dir.join("flip_distance.tif").is_file() {
+        return Ok(out);
     }
     let flip = band("flip_distance.tif", 0)?;
     let kind = band("flip_distance.tif", 3)?;
@@ -329,7 +343,57 @@ pub fn write_report(dir: &Path) -> Result<PathBuf, ReportError> {
         h.push_str("</ul></section>\n");
     }
 
-    let keys = key_numbers(dir, su)?;
+    // What the run could not compute, by reason: a missing map must not read as "nothing
+    // there".
+    let not_computed: Vec<(String, String)> = m
+        .get("not_computed")
+        .and_then(Value::as_array)
+        .map(|a| {
+            a.iter()
+                .map(|e| (text_of(&e["layer"]), text_of(&e["reason"])))
+                .collect()
+        })
+        .unwrap_or_default();
+    if !not_computed.is_empty() {
+        h.push_str("<section class=\"warnings\" id=\"not-computed\"><h2>Not computed</h2><ul>");
+        let mut reasons: Vec<&str> = Vec::new();
+        for (_, r) in &not_computed {
+            if !reasons.contains(&r.as_str()) {
+                reasons.push(r);
+            }
+        }
+        for reason in reasons {
+            let layers: Vec<&str> = not_computed
+                .iter()
+                .filter(|(_, r)| r == reason)
+                .map(|(l, _)| l.as_str())
+                .collect();
+            let _ = write!(
+                h,
+                "<li><strong>{}</strong>: {}</li>",
+                escape(&upper_first(reason)),
+                escape(&layers.join(", "))
+            );
+        }
+        h.push_str("</ul></section>\n");
+    }
+    let not_computed_why = |file: &str| {
+        not_computed
+            .iter()
+            .find(|(l, _)| l == file)
+            .map(|(_, r)| r.clone())
+    };
+
+    let period = m
+        .get("accumulation_period")
+        .map(|p| text_of(&p["text"]))
+        .unwrap_or_default();
+    // A folder written before the period was recorded has none: no row, no caption clause.
+    let mut keys: Vec<(String, String)> = Vec::new();
+    if !period.is_empty() {
+        keys.push(("Period the totals cover".to_string(), period.clone()));
+    }
+    keys.extend(key_numbers(dir, su)?);
     h.push_str("<section><h2>Key numbers</h2>");
     h.push_str(&table(
         &["What".into(), "Value".into()],
@@ -342,65 +406,70 @@ pub fn write_report(dir: &Path) -> Result<PathBuf, ReportError> {
     ));
     h.push_str("</section>\n");
 
-    h.push_str("<section><h2>Bust-prone towns</h2><p class=\"note\">Ranked by bust score: the likely range P90 − P10 as a share of the snowfall as modelled (floored at 5 cm). Click a column heading to sort.</p>\n");
-    let cpath = dir.join("towns_bust.csv");
-    let csv_bytes = read(&cpath)?;
-    let mut rdr = csv::Reader::from_reader(csv_bytes.as_slice());
-    let header: Vec<String> = rdr
-        .headers()
-        .map_err(|e| ReportError::Read {
-            path: cpath.clone(),
-            what: e.to_string(),
-        })?
-        .iter()
-        .map(String::from)
-        .collect();
-    let col = |k: &str, label: &str| (k.to_string(), label.to_string());
-    let shown = [
-        col("rank", "Rank"),
-        col("name", "Town"),
-        col("bust_score", "Bust score"),
-        col(&format!("baseline_{su}"), &format!("As modelled ({su})")),
-        col(&format!("p10_{su}"), &format!("P10 ({su})")),
-        col(&format!("p50_{su}"), &format!("P50 ({su})")),
-        col(&format!("p90_{su}"), &format!("P90 ({su})")),
-        col(&format!("range_{su}"), &format!("Range ({su})")),
-        col("flip_km", "Flips within (km)"),
-        col("flip_direction", "Flip direction"),
-        col("flip_what", "What flips"),
-        col("summary", "In words"),
-    ];
-    let idx: Vec<usize> = shown
-        .iter()
-        .map(|(k, _)| {
-            header.iter().position(|h| h == k).ok_or(ReportError::Read {
+    h.push_str("<section><h2>Bust-prone towns</h2>");
+    if let Some(why) = not_computed_why("towns_bust.csv") {
+        let _ = writeln!(h, "<p>Not computed: {}.</p></section>", escape(&why));
+    } else {
+        h.push_str("<p class=\"note\">Ranked by bust score: the likely range P90 − P10 as a share of the snowfall as modelled (floored at 5 cm). Click a column heading to sort.</p>\n");
+        let cpath = dir.join("towns_bust.csv");
+        let csv_bytes = read(&cpath)?;
+        let mut rdr = csv::Reader::from_reader(csv_bytes.as_slice());
+        let header: Vec<String> = rdr
+            .headers()
+            .map_err(|e| ReportError::Read {
                 path: cpath.clone(),
-                what: format!("no column '{k}'"),
+                what: e.to_string(),
+            })?
+            .iter()
+            .map(String::from)
+            .collect();
+        let col = |k: &str, label: &str| (k.to_string(), label.to_string());
+        let shown = [
+            col("rank", "Rank"),
+            col("name", "Town"),
+            col("bust_score", "Bust score"),
+            col(&format!("baseline_{su}"), &format!("As modelled ({su})")),
+            col(&format!("p10_{su}"), &format!("P10 ({su})")),
+            col(&format!("p50_{su}"), &format!("P50 ({su})")),
+            col(&format!("p90_{su}"), &format!("P90 ({su})")),
+            col(&format!("range_{su}"), &format!("Range ({su})")),
+            col("flip_km", "Flips within (km)"),
+            col("flip_direction", "Flip direction"),
+            col("flip_what", "What flips"),
+            col("summary", "In words"),
+        ];
+        let idx: Vec<usize> = shown
+            .iter()
+            .map(|(k, _)| {
+                header.iter().position(|h| h == k).ok_or(ReportError::Read {
+                    path: cpath.clone(),
+                    what: format!("no column '{k}'"),
+                })
             })
-        })
-        .collect::<Result<_, _>>()?;
-    let mut rows = Vec::new();
-    for (line, rec) in rdr.records().enumerate() {
-        let rec = rec.map_err(|e| ReportError::Read {
-            path: cpath.clone(),
-            what: format!("line {}: {e}", line + 2),
-        })?;
-        rows.push(
-            idx.iter()
-                .map(|&i| undo_spreadsheet_safe(rec.get(i).unwrap_or("")).to_string())
-                .collect::<Vec<_>>(),
-        );
+            .collect::<Result<_, _>>()?;
+        let mut rows = Vec::new();
+        for (line, rec) in rdr.records().enumerate() {
+            let rec = rec.map_err(|e| ReportError::Read {
+                path: cpath.clone(),
+                what: format!("line {}: {e}", line + 2),
+            })?;
+            rows.push(
+                idx.iter()
+                    .map(|&i| undo_spreadsheet_safe(rec.get(i).unwrap_or("")).to_string())
+                    .collect::<Vec<_>>(),
+            );
+        }
+        if rows.is_empty() {
+            h.push_str("<p>The case lists no towns.</p>");
+        }
+        h.push_str(&table(
+            &shown.iter().map(|s| s.1.clone()).collect::<Vec<_>>(),
+            &rows,
+            "towns",
+            true,
+        ));
+        h.push_str("</section>\n");
     }
-    if rows.is_empty() {
-        h.push_str("<p>The case lists no towns.</p>");
-    }
-    h.push_str(&table(
-        &shown.iter().map(|s| s.1.clone()).collect::<Vec<_>>(),
-        &rows,
-        "towns",
-        true,
-    ));
-    h.push_str("</section>\n");
 
     h.push_str("<section><h2>Maps</h2>\n");
     for (file, caption) in MAPS {
@@ -408,12 +477,17 @@ pub fn write_report(dir: &Path) -> Result<PathBuf, ReportError> {
         if !p.is_file() {
             continue;
         }
+        let caption = if period.is_empty() {
+            caption.to_string()
+        } else {
+            format!("{caption} Totals over {period}.")
+        };
         let data = base64::engine::general_purpose::STANDARD.encode(read(&p)?);
         let _ = writeln!(
             h,
             "<figure><img alt=\"{}\" src=\"data:image/png;base64,{data}\"><figcaption>{}</figcaption></figure>",
-            escape(caption),
-            escape(caption)
+            escape(&caption),
+            escape(&caption)
         );
     }
     h.push_str("</section>\n");

@@ -11,7 +11,8 @@ Rasters (every *.tif):
     cross_km / along_km of every band as the manifest lists them; LAYOUT=COG;
   - GDAL's validate_cloud_optimized_geotiff.py --full-check=yes (Debian python3-gdal);
   - values read through GDAL: the baseline equals the stack's baseline band, min/max/range equal
-    the stack's per-cell min/max/range (missing where any band is missing), the expected file's
+    the stack's per-cell min/max/range over the bands with data where prior_coverage (the manifest's
+    weights of the bands with data) reaches the manifest's min_coverage, missing elsewhere, the expected file's
     sample cells equal GDAL's values, towns.csv equals GDAL's values interpolated bilinearly at
     each town (0.05 cm: the table rounds to 0.1).
 Vectors (every *.geojson): RFC 7946 — no "crs" member, lon/lat within range and rounded to 1e-5,
@@ -200,14 +201,28 @@ def check_values(out, manifest, data, expected):
     base, binfo = data["snowfall_baseline.tif"]
     same = np.allclose(base[0], stack[base_i], atol=tol + tolerance(binfo), equal_nan=True)
     check(same, "snowfall_baseline equals the stack's baseline band")
-    any_missing = np.isnan(stack).any(axis=0)
+    # Prior coverage: the manifest's weights of the bands with a value, over all positive weight.
+    weights = np.array([s["weight"] for s in manifest["scenarios"]])
+    positive = weights > 0
+    coverage = np.tensordot(weights[positive], ~np.isnan(stack[positive]), 1) / weights[positive].sum()
+    got_cov, _ = data["prior_coverage.tif"]
+    check(np.allclose(got_cov[0], coverage, atol=1e-6), "prior_coverage equals the weight of the bands with data")
+    # min/max/range over the bands with data where the coverage reaches the minimum (cells
+    # within float32 rounding of it are left out of the comparison).
+    min_cov = manifest["decisions"]["min_coverage"]
+    near = np.abs(coverage - min_cov) < 1e-6
+    covered = coverage >= min_cov
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
-        lo = np.where(any_missing, np.nan, np.nanmin(stack, axis=0))
-        hi = np.where(any_missing, np.nan, np.nanmax(stack, axis=0))
+        lo = np.where(covered, np.nanmin(stack, axis=0), np.nan)
+        hi = np.where(covered, np.nanmax(stack, axis=0), np.nan)
+    for a in (lo, hi):
+        a[near] = np.nan
     for name, want in [("snowfall_min.tif", lo), ("snowfall_max.tif", hi), ("snowfall_range.tif", hi - lo)]:
         got, info = data[name]
-        check(np.allclose(got[0], want, atol=2 * tol + tolerance(info), equal_nan=True),
+        got = got[0].copy()
+        got[near] = np.nan
+        check(np.allclose(got, want, atol=2 * tol + tolerance(info), equal_nan=True),
               f"{name} equals the stack's per-cell {name[9:12]}")
     if expected:
         for cell in expected["cells"]:

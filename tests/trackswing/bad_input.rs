@@ -395,7 +395,7 @@ fn offsets_that_push_the_storm_off_the_grid_warn_with_the_share() {
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let text = String::from_utf8_lossy(&o.stdout);
     assert!(
-        text.contains("beyond the grid edge") && text.contains("% of cell-steps"),
+        text.contains("beyond the grid edge") && text.contains("% of the map's cells"),
         "{text}"
     );
 }

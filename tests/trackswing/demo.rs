@@ -124,6 +124,7 @@ fn demo_writes_every_layer_and_the_same_bytes_on_one_thread() {
         "snowfall_sensitivity_cross.tif",
         "snowfall_sensitivity_along.tif",
         "flip_distance.tif",
+        "prior_coverage.tif",
         "towns_bust.csv",
         "towns_bust.geojson",
         "map_baseline.png",
@@ -138,7 +139,7 @@ fn demo_writes_every_layer_and_the_same_bytes_on_one_thread() {
     let m: serde_json::Value =
         serde_json::from_slice(&std::fs::read(a.join("manifest.json")).unwrap()).unwrap();
     let files = m["files"].as_array().unwrap();
-    assert_eq!(files.len(), 41);
+    assert_eq!(files.len(), 42);
     // Every town of the towns table is ranked in the bust table, once.
     let (h, rows) = towns_csv(&a);
     let name = h.iter().position(|c| c == "name").unwrap();

@@ -2,6 +2,7 @@
 
 mod atomic;
 mod bad_input;
+mod coverage;
 mod decisions;
 mod demo;
 mod engine;
@@ -9,6 +10,7 @@ mod fuzz;
 mod gdal_source;
 mod geotiff_gdal;
 mod grib;
+mod not_computed;
 mod physics;
 mod reference;
 mod report;

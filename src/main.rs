@@ -61,6 +61,18 @@ fn case_failure(e: trackswing::case::CaseError) -> Failure {
     }
 }
 
+/// A run that stopped: more scenarios than allowed without `--force` is a matter of the command
+/// line (2), anything else of the input (3).
+fn engine_failure(e: trackswing::engine::EngineError) -> Failure {
+    let too_many = matches!(e, trackswing::engine::EngineError::TooManyScenarios { .. });
+    let e = anyhow::Error::from(e).context("the run stopped; nothing was written");
+    if too_many {
+        Failure::Usage(e)
+    } else {
+        Failure::Input(e)
+    }
+}
+
 /// What `run` was given: a case file, or model files with optional track and towns.
 enum Plan<'a> {
     CaseFile(&'a Path),
@@ -126,9 +138,9 @@ fn run_case(
     let started = std::time::Instant::now();
     let mut merged = None;
     let result = match mode {
-        Mode::Layers => trackswing::engine::run(&case, threads, &progress).map_err(|e| {
-            Failure::Input(anyhow::Error::from(e).context("the run stopped; nothing was written"))
-        })?,
+        Mode::Layers => {
+            trackswing::engine::run(&case, threads, &progress).map_err(engine_failure)?
+        }
         Mode::Shard(shard) => return run_shard(&case, threads, &progress, shard, common.quiet),
         Mode::Merge(given) => {
             let paths = if given.is_empty() {
@@ -183,11 +195,14 @@ fn run_shard(
                 trackswing::shard::ShardError::Io { .. }
                     | trackswing::shard::ShardError::Format { .. }
             );
-            let e = anyhow::Error::from(e);
-            if failed_write {
-                Failure::Output(e.context(format!("writing shard {}", shard.label())))
-            } else {
-                Failure::Input(e.context("the run stopped; nothing was written"))
+            match e {
+                trackswing::shard::ShardError::Engine(e) => engine_failure(e),
+                e if failed_write => Failure::Output(
+                    anyhow::Error::from(e).context(format!("writing shard {}", shard.label())),
+                ),
+                e => Failure::Input(
+                    anyhow::Error::from(e).context("the run stopped; nothing was written"),
+                ),
             }
         })?;
     if !quiet {

@@ -372,7 +372,8 @@ pub struct Overrides {
     pub units: Option<String>,
     /// `--snow-ratio`.
     pub snow_ratio: Option<String>,
-    /// `--force`: replace a non-empty output folder trackswing did not write.
+    /// `--force`: write into a non-empty output folder trackswing did not write, and run more
+    /// scenarios than [`crate::engine::budget::SCENARIOS_REFUSE`].
     pub force: bool,
     /// `--precip-type`.
     pub precip_type: Option<String>,
@@ -428,7 +429,8 @@ pub struct Case {
     pub out_dir: PathBuf,
     /// Output units.
     pub units: Units,
-    /// Replace a non-empty output folder trackswing did not write.
+    /// Write into a non-empty output folder trackswing did not write, and run more scenarios
+    /// than [`crate::engine::budget::SCENARIOS_REFUSE`].
     pub force: bool,
     /// Sample type of the GeoTIFF layers.
     pub raster_type: RasterType,

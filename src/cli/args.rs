@@ -77,7 +77,8 @@ pub struct Common {
     #[arg(long, value_name = "METHOD")]
     pub snow_ratio: Option<String>,
     /// Write into an output folder trackswing did not write (its files are kept; one with the
-    /// name of a layer is replaced).
+    /// name of a layer is replaced), and run more than 2000 scenarios (refused otherwise; more
+    /// than 400 warn with the estimated time and memory).
     #[arg(long)]
     pub force: bool,
     /// Precipitation-type method: energy-area, partial-thickness or surface-logistic.

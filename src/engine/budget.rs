@@ -56,20 +56,31 @@ pub struct Budget {
     pub seconds: f64,
     /// Estimated peak memory of the totals, bytes.
     pub bytes: u64,
-    /// The smallest whole factor by which coarsening the step of every track axis with more
-    /// than one value brings the count to [`SCENARIOS_WARN`] or fewer, and the count it gives;
-    /// `None` when the track axes cannot get there (other axes alone make too many).
-    pub coarser: Option<(usize, usize)>,
+    /// Coarser track-axis ranges that bring the count to [`SCENARIOS_WARN`] or fewer, as flags
+    /// (`--cross=-900:900:15`), and the count they give; `None` when the track axes are not
+    /// evenly spaced ranges or cannot get there alone.
+    pub coarser: Option<(String, usize)>,
 }
 
-/// The values left when every `factor`-th value of a sorted axis is kept, its first and last
-/// always among them, and never fewer than three (both sides and the middle) where there were.
-fn thinned(n: usize, factor: usize) -> usize {
-    if n <= 1 {
-        n
-    } else {
-        ((n - 1).div_ceil(factor) + 1).max(n.min(3))
+/// An evenly spaced axis: (first, last, step), for axes of more than three values.
+fn even_range(values: &[f64]) -> Option<(f64, f64, f64)> {
+    if values.len() <= 3 {
+        return None;
     }
+    let step = values[1] - values[0];
+    let even = step > 0.0
+        && values
+            .windows(2)
+            .all(|w| ((w[1] - w[0]) - step).abs() <= 1e-9 * step.max(1.0));
+    even.then(|| (values[0], values[values.len() - 1], step))
+}
+
+/// The values `first:last:step` gives (as [`crate::scenario::parse_offsets`] counts them) and
+/// whether `last` is among them.
+fn range_count(first: f64, last: f64, step: f64) -> (usize, bool) {
+    let q = (last - first) / step;
+    let n = (q + 1e-9).floor();
+    (n as usize + 1, (q - n).abs() < 1e-9)
 }
 
 /// The cost of running `axes` on `cells` cells and `steps` steps with `threads` threads.
@@ -81,8 +92,8 @@ fn thinned(n: usize, factor: usize) -> usize {
 /// let axes = Axes { cross_km: (-900..=900).map(f64::from).collect(), ..Axes::default() };
 /// let b = scenario_budget(&axes, 10_000, 25, 2);
 /// assert_eq!(b.scenarios, 1801);
-/// // A step 5× coarser (-900:900:5) gives 361 scenarios.
-/// assert_eq!(b.coarser, Some((5, 361)));
+/// // -900:900:5 gives 361 scenarios, both ends kept.
+/// assert_eq!(b.coarser, Some(("--cross=-900:900:5".to_string(), 361)));
 /// ```
 pub fn scenario_budget(axes: &Axes, cells: usize, steps: usize, threads: usize) -> Budget {
     let others = axes.timing_h.len() * axes.intensity.len() * axes.warm_bias_k.len();
@@ -90,10 +101,36 @@ pub fn scenario_budget(axes: &Axes, cells: usize, steps: usize, threads: usize) 
     let scenarios = nc * na * others;
     let evaluations = cells as f64 * steps as f64 * scenarios as f64;
     let rate = EVALUATIONS_PER_S_TWO_THREADS * threads.clamp(1, 2) as f64 / 2.0;
-    let coarser = (1..=nc.max(na).max(1)).find_map(|f| {
-        let n = thinned(nc, f) * thinned(na, f) * others;
-        (n <= SCENARIOS_WARN).then_some((f, n))
-    });
+    let ranges = [
+        ("--cross", even_range(&axes.cross_km), nc),
+        ("--along", even_range(&axes.along_km), na),
+    ];
+    // The smallest whole factor on the step of every evenly spaced track axis that brings the
+    // count under the warning, preferring factors that keep each range's last value (so a
+    // symmetric range stays symmetric).
+    let try_factor = |f: usize, need_ends: bool| -> Option<(String, usize)> {
+        let mut flags = Vec::new();
+        let mut count = others;
+        for (flag, range, n) in &ranges {
+            match range {
+                Some((a, b, st)) => {
+                    let step = st * f as f64;
+                    let (k, ends) = range_count(*a, *b, step);
+                    if need_ends && !ends {
+                        return None;
+                    }
+                    count *= k;
+                    flags.push(format!("{flag}={a}:{b}:{step}"));
+                }
+                None => count *= n,
+            }
+        }
+        (!flags.is_empty() && count <= SCENARIOS_WARN).then(|| (flags.join(" "), count))
+    };
+    let widest = nc.max(na);
+    let coarser = (2..=widest)
+        .find_map(|f| try_factor(f, true))
+        .or_else(|| (2..=widest).find_map(|f| try_factor(f, false)));
     Budget {
         scenarios,
         seconds: evaluations / rate,
@@ -103,7 +140,7 @@ pub fn scenario_budget(axes: &Axes, cells: usize, steps: usize, threads: usize) 
 }
 
 impl Budget {
-    /// The estimate in words: "about 25 min and 3.1 GiB".
+    /// The estimate in words: "about 25 min and 3.1 GiB (...)".
     pub fn cost_words(&self) -> String {
         let time = if self.seconds < 90.0 {
             format!("{:.0} s", self.seconds.max(1.0))
@@ -116,18 +153,16 @@ impl Budget {
         let memory = if gib >= 1.0 {
             format!("{gib:.1} GiB")
         } else {
-            format!("{:.0} MiB", (self.bytes >> 20).max(1))
+            format!("{} MiB", (self.bytes >> 20).max(1))
         };
-        format!("about {time} and {memory} (at {:.0e} cell·step·scenario evaluations per second on two threads, measured on a 400×300, 48-step case; a wetter storm or another machine can differ by 2×)", EVALUATIONS_PER_S_TWO_THREADS)
+        format!("about {time} and {memory} (at {EVALUATIONS_PER_S_TWO_THREADS:.0e} cell·step·scenario evaluations per second on two threads, measured on a 400×300, 48-step case; a wetter storm or another machine can differ by 2×)")
     }
 
     /// What would make it smaller, in words.
     pub fn advice(&self) -> String {
-        match self.coarser {
-            Some((f, n)) if f > 1 => format!(
-                "a step {f}× coarser on the track axes (e.g. `--cross LO:HI:STEP` with STEP {f}× larger) gives {n} scenarios"
-            ),
-            _ => "fewer values on the timing, intensity or warm-bias axes would reduce it".into(),
+        match &self.coarser {
+            Some((flags, n)) => format!("{flags} would give {n} scenarios"),
+            None => "fewer values on the axes would reduce it".into(),
         }
     }
 }
@@ -137,15 +172,16 @@ mod tests {
     use super::*;
 
     #[test]
-    fn thinning_keeps_both_ends() {
-        // -900:900:1 has 1801 values; every 5th from -900 reaches +900: 361 values.
-        assert_eq!(thinned(1801, 5), 361);
-        assert_eq!(thinned(1801, 1), 1801);
-        assert_eq!(thinned(1, 7), 1);
-        assert_eq!(thinned(5, 2), 3);
-        assert_eq!(thinned(4, 2), 3);
-        // -60:60:60 keeps its three values.
-        assert_eq!(thinned(3, 10), 3);
+    fn ranges_are_counted_as_the_parser_counts_them() {
+        assert_eq!(range_count(-900.0, 900.0, 15.0), (121, true));
+        // 1800 / 14 is not whole: -900, -886, …, 892 and the last value is lost.
+        assert_eq!(range_count(-900.0, 900.0, 14.0), (129, false));
+        assert_eq!(even_range(&[-60.0, 0.0, 60.0]), None);
+        assert_eq!(
+            even_range(&[-20.0, -10.0, 0.0, 10.0, 20.0]),
+            Some((-20.0, 20.0, 10.0))
+        );
+        assert_eq!(even_range(&[-20.0, -10.0, 0.0, 5.0, 20.0]), None);
     }
 
     #[test]
@@ -161,11 +197,26 @@ mod tests {
         // 13312 cells × 25 steps × 5403 scenarios / 2e7 per s = 89.9 s.
         assert!((b.seconds - 13312.0 * 25.0 * 5403.0 / 2.0e7).abs() < 1e-6);
         assert_eq!(b.bytes, 13312 * 5403 * 32);
-        // Along keeps its 3 values: 3 × thinned(1801, f) ≤ 400 first at f = 14
-        // (1800 / 14 → 129 steps, 130 values, 390 scenarios; f = 13 gives 140 × 3 = 420).
-        assert_eq!(b.coarser, Some((14, 390)));
-        assert!(b.cost_words().starts_with("about 90 s and 2.1 GiB"), "{}", b.cost_words());
+        // Along keeps its 3 values; across, 1800 km in steps of 15 km (the smallest factor that
+        // divides the range and gives 3 × n ≤ 400; 14 does not divide it): 121 × 3 = 363.
+        assert_eq!(b.coarser, Some(("--cross=-900:900:15".to_string(), 363)));
+        assert!(
+            b.cost_words().starts_with("about 90 s and 2.1 GiB"),
+            "{}",
+            b.cost_words()
+        );
         // One thread takes twice as long.
         assert!((scenario_budget(&axes, 13312, 25, 1).seconds - 2.0 * b.seconds).abs() < 1e-6);
+    }
+
+    #[test]
+    fn lists_that_are_not_ranges_get_general_advice() {
+        let axes = Axes {
+            cross_km: (0..500).map(|i| f64::from(i * i)).collect(),
+            ..Axes::default()
+        };
+        let b = scenario_budget(&axes, 100, 1, 2);
+        assert_eq!(b.coarser, None);
+        assert_eq!(b.advice(), "fewer values on the axes would reduce it");
     }
 }

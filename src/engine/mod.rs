@@ -34,17 +34,17 @@ use crate::scenario::{scenario_product, Scenario, TimeSample};
 use chrono::{DateTime, Duration, Utc};
 use std::path::PathBuf;
 
-pub mod kernel;
 pub mod budget;
+pub mod kernel;
 pub mod moisture;
 pub mod track;
 pub mod wet;
 pub mod window;
+pub use budget::{fits_in_memory, memory_estimate, scenario_budget, Budget};
 pub use kernel::{
     accumulate_cell, cell_column, sample_column, step_all_scenarios, BlockCounts, CellStep,
     Sampled, ScenarioStep, SourceAt,
 };
-pub use budget::{fits_in_memory, memory_estimate, scenario_budget, Budget};
 pub use track::{case_track, scenario_shift};
 pub use wet::{GridReach, WetRows};
 pub use window::{fetch, StepWindow};
@@ -131,6 +131,18 @@ pub enum EngineError {
         scenarios: usize,
         /// Cells.
         cells: usize,
+    },
+    /// More scenarios than a run takes without `--force`.
+    #[error("{count} scenarios requested, more than the {limit} a run takes without --force: {cost}; {advice}; give --force to run them all anyway")]
+    TooManyScenarios {
+        /// Scenarios requested.
+        count: usize,
+        /// The limit.
+        limit: usize,
+        /// The estimated time and memory, in words.
+        cost: String,
+        /// What would make it smaller, in words.
+        advice: String,
     },
     /// The thread pool could not be built.
     #[error("cannot start {0} worker threads")]
@@ -341,6 +353,24 @@ pub fn run_prepared(
         .collect();
     let n = grid.len();
     let run = computed.iter().filter(|c| **c).count();
+    let budget = scenario_budget(&case.axes(), n, source.step_count(), threads);
+    if budget.scenarios > budget::SCENARIOS_REFUSE && !case.force {
+        return Err(EngineError::TooManyScenarios {
+            count: budget.scenarios,
+            limit: budget::SCENARIOS_REFUSE,
+            cost: budget.cost_words(),
+            advice: budget.advice(),
+        });
+    }
+    if budget.scenarios > budget::SCENARIOS_WARN {
+        progress.warn(&format!(
+            "{} scenarios requested (more than {}): {} for this run; {}",
+            budget.scenarios,
+            budget::SCENARIOS_WARN,
+            budget.cost_words(),
+            budget.advice()
+        ));
+    }
     if let Err((need, avail)) = fits_in_memory(n, run) {
         return Err(EngineError::TooBig {
             need_mib: need >> 20,

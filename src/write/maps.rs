@@ -15,6 +15,7 @@ use crate::engine::RunResult;
 use crate::grid::{km_per_degree, Grid};
 use crate::render::ramp::{self, Ramp};
 use crate::render::{text, Canvas, Rgb};
+use crate::scenario::Scenario;
 use crate::summarise::bust::TownDecision;
 use crate::summarise::scope::Needs;
 use std::path::Path;
@@ -320,8 +321,10 @@ struct MapSpec<'a> {
 /// Everything the maps draw besides the field.
 struct Overlay<'a> {
     frame: Frame,
-    /// Rain–snow lines per scenario (baseline last), lon/lat.
+    /// Rain–snow lines of the drawn scenarios (baseline last), lon/lat.
     lines: Vec<(bool, Vec<Vec<[f64; 2]>>)>,
+    /// The legend's words for the other scenarios' lines; `None` when there are none.
+    other_lines: Option<String>,
     track: Vec<(f64, f64)>,
     centres: Vec<(f64, f64)>,
     towns: &'a [TownDecision],
@@ -480,7 +483,7 @@ fn draw_scale_bar(c: &mut Canvas, f: &Frame, bx: f64, by: f64, max_w: f64) -> f6
     68.0
 }
 
-fn legend(c: &mut Canvas, o: &Overlay, spec: &MapSpec, scenarios: usize) {
+fn legend(c: &mut Canvas, o: &Overlay, spec: &MapSpec) {
     let f = &o.frame;
     let lx = f.x0 + f.w + 28.0;
     let lw = IMAGE_WIDTH as f64 - lx - MARGIN;
@@ -579,15 +582,14 @@ fn legend(c: &mut Canvas, o: &Overlay, spec: &MapSpec, scenarios: usize) {
         },
         "rain–snow line as modelled (half the precipitation falls as snow)",
     );
-    key(
-        c,
-        &mut y,
-        &|c, yy| c.polyline(&[(lx, yy), (lx + sw, yy)], 1.1, [40, 52, 70], 0.6, wide),
-        &format!(
-            "the same line for each of the {} other track offsets",
-            scenarios.saturating_sub(1)
-        ),
-    );
+    if let Some(words) = &o.other_lines {
+        key(
+            c,
+            &mut y,
+            &|c, yy| c.polyline(&[(lx, yy), (lx + sw, yy)], 1.1, [40, 52, 70], 0.6, wide),
+            words,
+        );
+    }
     key(
         c,
         &mut y,
@@ -618,7 +620,7 @@ fn legend(c: &mut Canvas, o: &Overlay, spec: &MapSpec, scenarios: usize) {
     draw_scale_bar(c, f, lx, y, lw);
 }
 
-fn render(grid: &Grid, spec: &MapSpec, o: &Overlay, scenarios: usize) -> Canvas {
+fn render(grid: &Grid, spec: &MapSpec, o: &Overlay) -> Canvas {
     let (w, h) = image_size(grid);
     let mut c = Canvas::new(w, h, WHITE);
     let f = &o.frame;
@@ -635,7 +637,7 @@ fn render(grid: &Grid, spec: &MapSpec, o: &Overlay, scenarios: usize) -> Canvas 
         1,
         MUTED,
     );
-    legend(&mut c, o, spec, scenarios);
+    legend(&mut c, o, spec);
     let mut y = h as f64 - FOOTER_H as f64 + 14.0;
     for l in text::wrap(crate::CAUTION, 12.0, IMAGE_WIDTH as f64 - 2.0 * MARGIN) {
         text::draw(&mut c, MARGIN, y, 12.0, MUTED, &l);
@@ -665,6 +667,68 @@ pub const NEEDING: [(&str, Needs); 3] = [
     ("map_flip_distance.png", Needs::Track),
 ];
 
+/// Most scenario lines a map draws besides the baseline's: beyond a few dozen the lines merge
+/// into a grey band that hides the field under them.
+pub const MAP_LINES_MAX: usize = 40;
+
+/// The scenarios (other than the baseline) whose rain–snow lines a map draws: all of them up to
+/// `max`; else the outermost offsets (the smallest and largest cross- and along-track offset,
+/// and the largest distance from the baseline, in that order of priority) and then an even
+/// spread over the rest in the order the scenarios are listed (which runs through the offset
+/// plane), in listed order.
+///
+/// ```
+/// use trackswing::scenario::{scenario_product, Axes};
+/// use trackswing::write::maps::drawn_scenarios;
+/// let axes = Axes { cross_km: (-100..=100).map(f64::from).collect(), ..Axes::default() };
+/// let scenarios = scenario_product(&axes);
+/// let baseline = scenarios.iter().position(|s| s.is_baseline()).unwrap();
+/// let drawn = drawn_scenarios(&scenarios, baseline, 40);
+/// assert_eq!(drawn.len(), 40);
+/// assert!(!drawn.contains(&baseline));
+/// // The outermost offsets are among them.
+/// assert!(drawn.iter().any(|&i| scenarios[i].cross_km == -100.0));
+/// assert!(drawn.iter().any(|&i| scenarios[i].cross_km == 100.0));
+/// ```
+pub fn drawn_scenarios(scenarios: &[Scenario], baseline: usize, max: usize) -> Vec<usize> {
+    let others: Vec<usize> = (0..scenarios.len()).filter(|&i| i != baseline).collect();
+    if others.len() <= max {
+        return others;
+    }
+    let by = |key: &dyn Fn(&Scenario) -> f64, largest: bool| -> usize {
+        let pick = others.iter().copied().min_by(|&a, &b| {
+            let (ka, kb) = (key(&scenarios[a]), key(&scenarios[b]));
+            if largest {
+                kb.total_cmp(&ka)
+            } else {
+                ka.total_cmp(&kb)
+            }
+        });
+        pick.expect("more scenarios than max, so some")
+    };
+    let mut chosen: Vec<usize> = Vec::with_capacity(max);
+    for i in [
+        by(&|s| s.cross_km, false),
+        by(&|s| s.cross_km, true),
+        by(&|s| s.along_km, false),
+        by(&|s| s.along_km, true),
+        by(&|s| s.cross_km.hypot(s.along_km), true),
+    ] {
+        if !chosen.contains(&i) && chosen.len() < max {
+            chosen.push(i);
+        }
+    }
+    let rest: Vec<usize> = others
+        .iter()
+        .copied()
+        .filter(|i| !chosen.contains(i))
+        .collect();
+    let want = max - chosen.len();
+    chosen.extend((0..want).map(|k| rest[k * rest.len() / want]));
+    chosen.sort_unstable();
+    chosen
+}
+
 /// Writes the quicklook maps the run can draw: the baseline always, the others where their
 /// inputs are given (`None` where the run could not compute them, see [`NEEDING`]).
 pub fn write_maps(
@@ -679,14 +743,22 @@ pub fn write_maps(
     let u = ctx.units;
     let su = u.snow_unit();
     let frame = Frame::of(&r.grid);
-    // Every scenario's rain–snow line, the baseline's last (drawn on top).
-    let mut lines: Vec<(bool, Vec<Vec<[f64; 2]>>)> = rain_snow
+    // The drawn scenarios' rain–snow lines, the baseline's last (drawn on top).
+    let drawn = drawn_scenarios(&r.scenarios, r.baseline, MAP_LINES_MAX);
+    let mut lines: Vec<(bool, Vec<Vec<[f64; 2]>>)> = drawn
         .iter()
-        .enumerate()
-        .filter(|(i, _)| *i != r.baseline)
-        .map(|(_, l)| (false, l.clone()))
+        .map(|&i| (false, rain_snow[i].clone()))
         .collect();
     lines.push((true, rain_snow[r.baseline].clone()));
+    let others = r.scenarios.len() - 1;
+    let other_lines = match others {
+        0 => None,
+        n if drawn.len() == n => Some(format!("the same line for each of the {n} other scenarios")),
+        n => Some(format!(
+            "the same line for {} of the {n} other scenarios (the outermost offsets and an even spread between; every line is in rain_snow_lines.geojson)",
+            drawn.len()
+        )),
+    };
     let track = r
         .track
         .as_ref()
@@ -715,6 +787,7 @@ pub fn write_maps(
     let overlay = Overlay {
         frame,
         lines,
+        other_lines,
         track,
         centres,
         towns: ranked_towns,
@@ -807,7 +880,7 @@ pub fn write_maps(
     }
     let mut out = Vec::new();
     for spec in &specs {
-        let canvas = render(&r.grid, spec, &overlay, r.scenarios.len());
+        let canvas = render(&r.grid, spec, &overlay);
         let bytes = canvas.to_png();
         write_atomic(dir, spec.file, |tmp| {
             std::fs::write(tmp, &bytes).map_err(|source| WriteError::Io {

@@ -15,6 +15,7 @@ mod physics;
 mod reference;
 mod report;
 mod rerun;
+mod scenario_count;
 mod shards;
 mod support;
 mod timing;

@@ -182,7 +182,8 @@ fn a_run_too_big_for_memory_is_refused_up_front() {
         .arg(case_dir.join("case.toml"))
         .arg("--out")
         .arg(d.path().join("out"))
-        .args(["--cross=-900:900:1", "--along=-500:500:1"])
+        // --force: past the scenario-count limit, to the memory check.
+        .args(["--cross=-900:900:1", "--along=-500:500:1", "--force"])
         .output()
         .unwrap();
     assert_eq!(o.status.code(), Some(3));

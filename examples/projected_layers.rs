@@ -172,6 +172,7 @@ fn main() -> anyhow::Result<()> {
             name: "synthetic-lambert".into(),
             terrain: terrain_path.clone(),
             steps: vec![terrain_path],
+            skipped: Vec::new(),
             track: None,
             format: InputFormat::GeoTiff,
             find_track: false,

@@ -351,6 +351,8 @@ pub struct Member {
     pub terrain: PathBuf,
     /// Step GeoTIFFs in time order (for model files: every file).
     pub steps: Vec<PathBuf>,
+    /// Files of the model folders that are not model output, left out (reported once).
+    pub skipped: Vec<PathBuf>,
     /// Track file.
     pub track: Option<PathBuf>,
     /// How the fields are stored.
@@ -553,6 +555,7 @@ impl Case {
                     name: m.name.clone(),
                     terrain: existing("member[0].terrain", terrain)?,
                     steps,
+                    skipped: Vec::new(),
                     track,
                     format: InputFormat::GeoTiff,
                     find_track,
@@ -563,19 +566,20 @@ impl Case {
                     StepFiles::Pattern(p) => vec![p.clone()],
                     StepFiles::List(l) => l.clone(),
                 };
-                let mut files = Vec::new();
+                let mut found = ModelFiles::default();
                 for (i, item) in items.iter().enumerate() {
                     let field = if items.len() == 1 {
                         "member[0].model".to_string()
                     } else {
                         format!("member[0].model[{i}]")
                     };
-                    files.extend(expand_model(dir, item).map_err(|what| invalid(&field, what))?);
+                    found.extend(expand_model(dir, item).map_err(|what| invalid(&field, what))?);
                 }
                 Member {
                     name: m.name.clone(),
-                    terrain: files[0].clone(),
-                    steps: files,
+                    terrain: found.files[0].clone(),
+                    steps: found.files,
+                    skipped: found.skipped,
                     track,
                     format: model_format,
                     find_track,
@@ -977,37 +981,137 @@ fn expand_pattern(dir: &Path, pattern: &str) -> Result<Vec<PathBuf>, String> {
 
 /// Expands one `model` item: a folder (every regular file in it not starting with '.'), a
 /// pattern with one `*`, or a file; sorted by name.
-fn expand_model(dir: &Path, item: &str) -> Result<Vec<PathBuf>, String> {
+fn expand_model(dir: &Path, item: &str) -> Result<ModelFiles, String> {
     let p = dir.join(item);
     if p.is_dir() {
         let entries =
             std::fs::read_dir(&p).map_err(|e| format!("cannot list '{}': {e}", p.display()))?;
-        let mut files: Vec<PathBuf> = entries
+        let mut all: Vec<PathBuf> = entries
             .filter_map(|e| e.ok())
             .map(|e| e.path())
-            .filter(|f| f.is_file())
             .filter(|f| {
                 f.file_name()
                     .and_then(|n| n.to_str())
                     .is_some_and(|n| !n.starts_with('.'))
             })
             .collect();
-        files.sort();
+        all.sort();
+        // A file is left out only when neither its first octets nor its name say it is model
+        // output: a damaged `step_002.grib2` must be named by the reader, not skipped.
+        let (files, rest): (Vec<PathBuf>, Vec<PathBuf>) = all.into_iter().partition(|f| {
+            f.is_file()
+                && (named_as_model_output(f)
+                    || !matches!(
+                        crate::read::source::magic(f),
+                        Ok(crate::read::source::Magic::Other) | Err(_)
+                    ))
+        });
+        let (folders, skipped): (Vec<PathBuf>, Vec<PathBuf>) =
+            rest.into_iter().partition(|f| f.is_dir());
+        // A case folder (the case file beside one folder of model files, as `make-demo --grib2`
+        // writes it): the one subfolder that holds model output is the model folder.
         if files.is_empty() {
-            return Err(format!("the folder '{}' holds no files", p.display()));
+            let inner: Vec<ModelFiles> = folders
+                .iter()
+                .filter_map(|f| expand_model(Path::new(""), &f.to_string_lossy()).ok())
+                .collect();
+            if let [one] = inner.as_slice() {
+                let mut found = one.clone();
+                found.skipped.splice(0..0, skipped);
+                return Ok(found);
+            }
         }
-        return Ok(files);
+        if files.is_empty() {
+            let names = |v: &[PathBuf], slash: &str| -> String {
+                v.iter()
+                    .filter_map(|f| f.file_name())
+                    .map(|n| format!("{}{slash}", n.to_string_lossy()))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            };
+            let mut what = format!(
+                "the folder '{}' holds no model output (GRIB, NetCDF or TIFF files)",
+                p.display()
+            );
+            if !skipped.is_empty() {
+                what += &format!("; its other files: {}", names(&skipped, ""));
+            }
+            if !folders.is_empty() {
+                what += &format!(
+                    "; its folders: {} (name the one that holds the model files)",
+                    names(&folders, "/")
+                );
+            }
+            return Err(what);
+        }
+        return Ok(ModelFiles { files, skipped });
     }
-    expand_pattern(dir, item)
+    Ok(ModelFiles {
+        files: expand_pattern(dir, item)?,
+        skipped: Vec::new(),
+    })
+}
+
+/// Whether a file's extension is one model output comes with (GRIB, NetCDF, TIFF).
+fn named_as_model_output(f: &Path) -> bool {
+    const EXTENSIONS: [&str; 10] = [
+        "grib2", "grb2", "gb2", "grib", "grb", "nc", "nc4", "netcdf", "tif", "tiff",
+    ];
+    f.extension()
+        .and_then(|e| e.to_str())
+        .is_some_and(|e| EXTENSIONS.iter().any(|x| x.eq_ignore_ascii_case(e)))
+}
+
+/// Model files found in folders, patterns and lists, and the files of those folders that are
+/// not model output (a case file, a track, notes), which are left out.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct ModelFiles {
+    /// The model files, in the order given (each folder's sorted by name).
+    pub files: Vec<PathBuf>,
+    /// Files in the folders that are not GRIB, NetCDF or TIFF, left out.
+    pub skipped: Vec<PathBuf>,
+}
+
+impl ModelFiles {
+    fn extend(&mut self, other: ModelFiles) {
+        self.files.extend(other.files);
+        self.skipped.extend(other.skipped);
+    }
+}
+
+/// One line saying which files of the model folders were left out; `None` when none were.
+pub fn skipped_summary(skipped: &[PathBuf]) -> Option<String> {
+    if skipped.is_empty() {
+        return None;
+    }
+    let names: Vec<String> = skipped
+        .iter()
+        .take(5)
+        .map(|f| {
+            f.file_name()
+                .unwrap_or(f.as_os_str())
+                .to_string_lossy()
+                .into_owned()
+        })
+        .collect();
+    Some(format!(
+        "skipped {} file{} in the model folder{} that {} not model output (not GRIB, NetCDF or TIFF by name or content): {}{}",
+        skipped.len(),
+        if skipped.len() == 1 { "" } else { "s" },
+        if skipped.iter().filter_map(|f| f.parent()).collect::<std::collections::BTreeSet<_>>().len() == 1 { "" } else { "s" },
+        if skipped.len() == 1 { "is" } else { "are" },
+        names.join(", "),
+        if skipped.len() > 5 { format!(" and {} more", skipped.len() - 5) } else { String::new() }
+    ))
 }
 
 /// Model files named on the command line (`trackswing run FILES...`): each a file, a folder or
 /// a pattern, relative to the current folder.
-pub fn expand_model_args(items: &[PathBuf]) -> Result<Vec<PathBuf>, CaseError> {
-    let mut files = Vec::new();
+pub fn expand_model_args(items: &[PathBuf]) -> Result<ModelFiles, CaseError> {
+    let mut found = ModelFiles::default();
     for item in items {
         let text = item.to_string_lossy();
-        files.extend(
+        found.extend(
             expand_model(Path::new(""), &text).map_err(|what| CaseError::Invalid {
                 path: PathBuf::from("command line"),
                 field: text.to_string(),
@@ -1015,7 +1119,7 @@ pub fn expand_model_args(items: &[PathBuf]) -> Result<Vec<PathBuf>, CaseError> {
             })?,
         );
     }
-    Ok(files)
+    Ok(found)
 }
 
 impl Case {
@@ -1028,7 +1132,7 @@ impl Case {
         towns: Option<&Path>,
         over: &Overrides,
     ) -> Result<Self, CaseError> {
-        let files = expand_model_args(files)?;
+        let ModelFiles { files, skipped } = expand_model_args(files)?;
         let abs = |p: &Path| -> String {
             std::path::absolute(p)
                 .unwrap_or_else(|_| p.to_path_buf())
@@ -1080,6 +1184,7 @@ impl Case {
         let mut case = Self::resolve(Path::new("command line"), file, over)?;
         // No case file exists; the manifest hashes `path`, so it names the first model file.
         case.path = files[0].clone();
+        case.member.skipped = skipped;
         Ok(case)
     }
 }

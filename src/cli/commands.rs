@@ -5,16 +5,25 @@ use super::args::TrackArgs;
 use crate::Failure;
 use anyhow::{anyhow, Context};
 use std::path::PathBuf;
-use trackswing::case::expand_model_args;
+use trackswing::case::{expand_model_args, skipped_summary};
 use trackswing::read::source::{magic, Magic};
 
+/// The model files among `inputs`, with a note on stderr of what the folders held besides.
+fn model_files(inputs: &[PathBuf]) -> Result<Vec<PathBuf>, anyhow::Error> {
+    let found = expand_model_args(inputs)?;
+    if let Some(note) = skipped_summary(&found.skipped) {
+        eprintln!("note: {note}");
+    }
+    Ok(found.files)
+}
+
 fn files(inputs: &[PathBuf]) -> Result<Vec<PathBuf>, Failure> {
-    expand_model_args(inputs).map_err(|e| Failure::Input(e.into()))
+    model_files(inputs).map_err(Failure::Input)
 }
 
 /// Prints what the files hold.
 pub fn inspect(inputs: &[PathBuf]) -> Result<(), anyhow::Error> {
-    let files = expand_model_args(inputs)?;
+    let files = model_files(inputs)?;
     let mut all_grib2 = true;
     for f in &files {
         all_grib2 &= magic(f)? == Magic::Grib2;

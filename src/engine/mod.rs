@@ -267,6 +267,9 @@ pub struct Prepared {
 /// Opens the case's model fields, reads the track and towns, checks them against the grid and
 /// lists the scenarios.
 pub fn prepare(case: &Case, progress: &dyn Progress) -> Result<Prepared, EngineError> {
+    if let Some(w) = crate::case::skipped_summary(&case.member.skipped) {
+        progress.warn(&w);
+    }
     let source = open_source(&case.member, &|m: &str| progress.warn(m))?;
     let grid = source.statics().grid.clone();
     let track = case_track(case, source.as_ref(), progress)?;

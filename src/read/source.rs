@@ -112,6 +112,8 @@ pub enum Magic {
     Grib1,
     /// A TIFF header.
     Tiff,
+    /// NetCDF: the classic formats ("CDF" and version 1, 2 or 5) or NetCDF-4's HDF5 signature.
+    NetCdf,
     /// Anything else.
     Other,
 }
@@ -119,6 +121,8 @@ pub enum Magic {
 /// Reads the first octets of `path`.
 pub fn magic(path: &Path) -> Result<Magic, SourceError> {
     let mut head = [0u8; 8];
+    // A short file fills only part of the buffer; `read` may also return less than is there.
+    // Eight octets come in one read from a regular file, which is what model files are.
     let mut f = std::fs::File::open(path).map_err(|source| GribError::Io {
         path: path.to_path_buf(),
         source,
@@ -131,6 +135,11 @@ pub fn magic(path: &Path) -> Result<Magic, SourceError> {
         [b'G', b'R', b'I', b'B', _, _, _, 2, ..] => Magic::Grib2,
         [b'G', b'R', b'I', b'B', _, _, _, 1, ..] => Magic::Grib1,
         [b'I', b'I', 42, 0, ..] | [b'M', b'M', 0, 42, ..] | [b'I', b'I', 43, 0, ..] => Magic::Tiff,
+        // NetCDF Users Guide, "File format specifications": classic "CDF\x01", 64-bit offset
+        // "CDF\x02", CDF-5 "CDF\x05"; NetCDF-4 files are HDF5 ("\x89HDF\r\n\x1a\n").
+        [b'C', b'D', b'F', 1 | 2 | 5, ..] | [0x89, b'H', b'D', b'F', b'\r', b'\n', 0x1a, b'\n'] => {
+            Magic::NetCdf
+        }
         _ => Magic::Other,
     })
 }
@@ -181,7 +190,7 @@ pub fn open_model(files: &[PathBuf], warn: &dyn Fn(&str)) -> Result<Box<dyn Sour
                     what: "a TIFF file among model files; GeoTIFF cases name a terrain file and step files in a case file (with the gdal feature, format = \"gdal\" reads GeoTIFF stacks as model files)".into(),
                 })
             }
-            m @ (Magic::Grib1 | Magic::Other) => {
+            m @ (Magic::Grib1 | Magic::NetCdf | Magic::Other) => {
                 other.get_or_insert((f.clone(), m));
             }
         }
@@ -194,6 +203,8 @@ pub fn open_model(files: &[PathBuf], warn: &dyn Fn(&str)) -> Result<Box<dyn Sour
     }
     let what = if m == Magic::Grib1 {
         "GRIB edition 1"
+    } else if m == Magic::NetCdf {
+        "NetCDF"
     } else {
         "not a GRIB file (it does not start with \"GRIB\")"
     };

@@ -373,23 +373,37 @@ impl Bilinear {
         self.cells.iter().copied().filter(|&(_, w)| w > 0.0)
     }
 
-    /// The weighted sum of `value` over the neighbours that count (NaN when any is NaN).
-    pub fn combine(&self, value: impl Fn(usize) -> f64) -> f64 {
-        self.weighted().map(|(i, w)| w * value(i)).sum()
+    /// The weighted sum of `value(slot, cell)` over the neighbours that count (NaN when any is
+    /// NaN); `slot` is the neighbour's place in [`Bilinear::cells`], `cell` its cell index.
+    pub fn combine(&self, value: impl Fn(usize, usize) -> f64) -> f64 {
+        self.cells
+            .iter()
+            .enumerate()
+            .filter(|(_, &(_, w))| w > 0.0)
+            .map(|(j, &(i, w))| w * value(j, i))
+            .sum()
     }
 
     /// The field's value at the point (NaN when any neighbour that counts is missing).
     pub fn sample(&self, field: &[f32]) -> f32 {
-        self.combine(|i| field[i] as f64) as f32
+        self.combine(|_, i| field[i] as f64) as f32
     }
 
     /// The neighbour of largest weight (the cell centre nearest the point in index space; the
     /// first of equals), for what is a time and not interpolated, such as an onset step.
     pub fn nearest(&self) -> usize {
-        self.cells
-            .iter()
-            .fold(self.cells[0], |a, &b| if b.1 > a.1 { b } else { a })
-            .0
+        self.cells[self.nearest_slot()].0
+    }
+
+    /// The place in [`Bilinear::cells`] of [`Bilinear::nearest`].
+    pub fn nearest_slot(&self) -> usize {
+        (1..4).fold(0, |a, j| {
+            if self.cells[j].1 > self.cells[a].1 {
+                j
+            } else {
+                a
+            }
+        })
     }
 }
 

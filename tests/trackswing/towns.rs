@@ -167,8 +167,8 @@ fn a_town_outside_the_grid_is_left_out_with_a_warning_and_the_others_computed() 
 fn the_sounding_gives_the_towns_table_total_for_the_same_town_and_offset() {
     let d = tempfile::tempdir().unwrap();
     let case = write_case(d.path(), &Synthetic::default(), "");
-    // Off every cell centre: column 20.4, row 14.7 of the synthetic grid.
-    let (lat, lon) = (0.03, 12.04);
+    // Off every cell centre, on the cold side of the synthetic storm: column 20.4, row 8.7.
+    let (lat, lon) = (0.63, 12.04);
     std::fs::write(
         d.path().join("towns.csv"),
         format!("name,lat,lon\nOffside,{lat},{lon}\n"),
@@ -203,7 +203,7 @@ fn the_sounding_gives_the_towns_table_total_for_the_same_town_and_offset() {
     assert_eq!(format!("{snow:.1}"), &row[col], "sounding vs towns.csv");
     let cells = j["cells"].as_array().unwrap();
     let weights: Vec<f64> = cells.iter().map(|c| c["weight"].as_f64().unwrap()).collect();
-    // Column 20.4, row 14.7: weights (1 − fx)(1 − fy) … by hand.
+    // Column 20.4, row 8.7: weights (1 − fx)(1 − fy) … by hand.
     let want = [0.6 * 0.3, 0.4 * 0.3, 0.6 * 0.7, 0.4 * 0.7];
     for (w, h) in weights.iter().zip(want) {
         assert!((w - h).abs() < 1e-9, "{weights:?} vs {want:?}");

@@ -378,7 +378,9 @@ fn the_sounding_reports_the_totals_the_layers_hold() {
     let o = bin()
         .arg("sounding")
         .arg(&case)
-        .args(["--at", &at, "--cross", "20", "--timing", "1.5", "--step", "3", "--json"])
+        .args([
+            "--at", &at, "--cross", "20", "--timing", "1.5", "--step", "3", "--json",
+        ])
         .output()
         .unwrap();
     let j: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();

@@ -75,9 +75,20 @@ fn towns_near_the_antimeridian_interpolate_between_the_last_and_first_column() {
     for (town, lon) in towns.iter().zip([179.0, -179.9]) {
         // Degrees east of the last column's centre, wrapped to 0…360.
         let fx = (lon - 178.75f64).rem_euclid(360.0) / 2.5;
-        let want = bilinear(at(14, nx - 1), at(14, 0), at(15, nx - 1), at(15, 0), fx, 0.5);
+        let want = bilinear(
+            at(14, nx - 1),
+            at(14, 0),
+            at(15, nx - 1),
+            at(15, 0),
+            fx,
+            0.5,
+        );
         let got = town.liquid[r.baseline] as f64;
-        assert!(want > 0.1, "{}: the storm reaches the first column", town.name);
+        assert!(
+            want > 0.1,
+            "{}: the storm reaches the first column",
+            town.name
+        );
         assert!(
             (got - want).abs() <= 1e-5 * want,
             "{}: {got} mm, hand bilinear {want} mm",
@@ -103,7 +114,11 @@ fn a_grid_on_0_to_360_wraps_between_357_5_and_0() {
     // Half way between the two rows (0° and 2.5°S).
     let b = g.bilinear_at(-1.0, -1.25).unwrap();
     let (w, e) = (b.cells[0], b.cells[1]);
-    assert_eq!((w.0, e.0), (143, 0), "between the last and the first column");
+    assert_eq!(
+        (w.0, e.0),
+        (143, 0),
+        "between the last and the first column"
+    );
     // 359°E is 1.5° east of 357.5°: 0.6 of a cell.
     assert!((e.1 - 0.6 * 0.5).abs() < 1e-12 && (w.1 - 0.4 * 0.5).abs() < 1e-12);
     same(g.bilinear_at(359.0, -1.25).unwrap(), b);
@@ -147,14 +162,14 @@ fn a_town_outside_the_grid_is_left_out_with_a_warning_and_the_others_computed() 
     assert_eq!(warned.len(), 1, "{:?}", m["warnings"]);
     assert!(warned[0].contains("outside the grid") && warned[0].contains("lat"));
     let report = std::fs::read_to_string(out.join("report.html")).unwrap();
-    assert!(report.contains("Far Away"), "the report names the town left out");
+    assert!(
+        report.contains("Far Away"),
+        "the report names the town left out"
+    );
     let towns = std::fs::read_to_string(out.join("towns.csv")).unwrap();
     assert!(!towns.contains("Far Away"));
     let mut rows = csv::Reader::from_reader(towns.as_bytes());
-    let names: Vec<String> = rows
-        .records()
-        .map(|r| r.unwrap()[0].to_string())
-        .collect();
+    let names: Vec<String> = rows.records().map(|r| r.unwrap()[0].to_string()).collect();
     assert_eq!(names, ["Midpoint", "Edge"]);
     for r in csv::Reader::from_reader(towns.as_bytes()).records() {
         let r = r.unwrap();
@@ -192,7 +207,14 @@ fn the_sounding_gives_the_towns_table_total_for_the_same_town_and_offset() {
     let o = bin()
         .arg("sounding")
         .arg(&case)
-        .args(["--at", &format!("{lat},{lon}"), "--cross", "20", "--step", "3"])
+        .args([
+            "--at",
+            &format!("{lat},{lon}"),
+            "--cross",
+            "20",
+            "--step",
+            "3",
+        ])
         .arg("--json")
         .output()
         .unwrap();
@@ -202,7 +224,10 @@ fn the_sounding_gives_the_towns_table_total_for_the_same_town_and_offset() {
     assert!(snow > 0.05, "snow at the town: {snow} cm");
     assert_eq!(format!("{snow:.1}"), &row[col], "sounding vs towns.csv");
     let cells = j["cells"].as_array().unwrap();
-    let weights: Vec<f64> = cells.iter().map(|c| c["weight"].as_f64().unwrap()).collect();
+    let weights: Vec<f64> = cells
+        .iter()
+        .map(|c| c["weight"].as_f64().unwrap())
+        .collect();
     // Column 20.4, row 8.7: weights (1 − fx)(1 − fy) … by hand.
     let want = [0.6 * 0.3, 0.4 * 0.3, 0.6 * 0.7, 0.4 * 0.7];
     for (w, h) in weights.iter().zip(want) {
@@ -273,11 +298,16 @@ fn the_sounding_shows_the_wettest_step_by_default() {
         })
         .collect();
     for (got, want) in snd.step_precip_mm.iter().zip(&hand) {
-        assert!((got - want).abs() < 1e-5, "{:?} vs {hand:?}", snd.step_precip_mm);
+        assert!(
+            (got - want).abs() < 1e-5,
+            "{:?} vs {hand:?}",
+            snd.step_precip_mm
+        );
     }
-    let wettest = 1 + (0..hand.len())
-        .max_by(|a, b| hand[*a].total_cmp(&hand[*b]))
-        .unwrap();
+    let wettest = 1
+        + (0..hand.len())
+            .max_by(|a, b| hand[*a].total_cmp(&hand[*b]))
+            .unwrap();
     assert_eq!(wettest, 1);
     assert_eq!((snd.step, snd.step_choice), (wettest, StepChoice::Wettest));
     // Through the binary, the choice is said.
@@ -289,7 +319,10 @@ fn the_sounding_shows_the_wettest_step_by_default() {
         .unwrap();
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let text = String::from_utf8(o.stdout).unwrap();
-    assert!(text.contains("step 1 of 3 (the wettest at this point"), "{text}");
+    assert!(
+        text.contains("step 1 of 3 (the wettest at this point"),
+        "{text}"
+    );
 }
 
 #[test]

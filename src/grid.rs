@@ -354,6 +354,59 @@ pub struct Grid {
     metric: Vec<CellMetric>,
 }
 
+/// The cells around a point and their bilinear weights (see [`Grid::bilinear_at`]): cell
+/// indices (row-major) with weights in 0…1 summing to 1, north-west, north-east, south-west,
+/// south-east. A cell of weight 0 does not count: a point on a cell centre or on the line
+/// between two takes its value from those cells alone.
+///
+/// Missing data: the value at the point is missing (NaN) when any cell of positive weight is
+/// missing — a point is never filled from its neighbours' data alone.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Bilinear {
+    /// (cell index, weight) of the four neighbours.
+    pub cells: [(usize, f64); 4],
+}
+
+impl Bilinear {
+    /// The neighbours that count: those of positive weight.
+    pub fn weighted(&self) -> impl Iterator<Item = (usize, f64)> + '_ {
+        self.cells.iter().copied().filter(|&(_, w)| w > 0.0)
+    }
+
+    /// The weighted sum of `value(slot, cell)` over the neighbours that count (NaN when any is
+    /// NaN); `slot` is the neighbour's place in [`Bilinear::cells`], `cell` its cell index.
+    pub fn combine(&self, value: impl Fn(usize, usize) -> f64) -> f64 {
+        self.cells
+            .iter()
+            .enumerate()
+            .filter(|(_, &(_, w))| w > 0.0)
+            .map(|(j, &(i, w))| w * value(j, i))
+            .sum()
+    }
+
+    /// The field's value at the point (NaN when any neighbour that counts is missing).
+    pub fn sample(&self, field: &[f32]) -> f32 {
+        self.combine(|_, i| field[i] as f64) as f32
+    }
+
+    /// The neighbour of largest weight (the cell centre nearest the point in index space; the
+    /// first of equals), for what is a time and not interpolated, such as an onset step.
+    pub fn nearest(&self) -> usize {
+        self.cells[self.nearest_slot()].0
+    }
+
+    /// The place in [`Bilinear::cells`] of [`Bilinear::nearest`].
+    pub fn nearest_slot(&self) -> usize {
+        (1..4).fold(0, |a, j| {
+            if self.cells[j].1 > self.cells[a].1 {
+                j
+            } else {
+                a
+            }
+        })
+    }
+}
+
 /// Why a grid cannot be used.
 #[derive(Debug, thiserror::Error)]
 pub enum GridError {
@@ -555,13 +608,37 @@ impl Grid {
         &self.metric
     }
 
+    /// True when the grid is on lat/lon and its columns span the full 360° of longitude (a
+    /// global grid, on −180…180° or 0…360°): the last column's eastern neighbour is then the
+    /// first column, and a point between their centres lies inside the grid.
+    ///
+    /// ```
+    /// use trackswing::geotiff::{Crs, Georef};
+    /// let georef = Georef { crs: Crs::Wgs84Geographic, geotransform: [-181.25, 2.5, 0.0, 90.0, 0.0, -2.5] };
+    /// assert!(trackswing::grid::Grid::new(144, 72, georef).unwrap().wraps());
+    /// ```
+    pub fn wraps(&self) -> bool {
+        let dx = self.georef.geotransform[1];
+        // Half a thousandth of a cell: spacings written with a few decimals (0.1°, 0.25°) sum
+        // to 360° within rounding.
+        self.projector.is_none() && (self.nx as f64 * dx - 360.0).abs() < 5e-4 * dx
+    }
+
     /// Fractional (column, row) of a lon/lat point, in cell-centre index space (0.0 is the centre
     /// of the first column). `None` when the point lies outside the cell-centre hull. On a
     /// lat/lon grid, longitudes are taken modulo 360° so a point given as −170° falls on a grid
-    /// running 150°…230°.
+    /// running 150°…230°; on a grid that [wraps](Grid::wraps) the column is in `0 ≤ col < nx`,
+    /// a column past `nx − 1` lying between the last column and the first.
     pub fn index_of(&self, lon: f64, lat: f64) -> Option<(f64, f64)> {
         let gt = self.georef.geotransform;
+        let wraps = self.wraps();
         let (col, row) = match &self.projector {
+            None if wraps => {
+                let col = ((lon - gt[0]) / gt[1] - 0.5).rem_euclid(self.nx as f64);
+                // rem_euclid may round up to nx itself for a point a hair west of column 0.
+                let col = if col >= self.nx as f64 { 0.0 } else { col };
+                (col, (lat - gt[3]) / gt[5] - 0.5)
+            }
             None => {
                 let mut col = (lon - gt[0]) / gt[1] - 0.5;
                 let period = 360.0 / gt[1];
@@ -577,9 +654,45 @@ impl Grid {
                 ((x - gt[0]) / gt[1] - 0.5, (y - gt[3]) / gt[5] - 0.5)
             }
         };
+        let last_col = if wraps { self.nx } else { self.nx - 1 };
         let inside =
-            col >= 0.0 && row >= 0.0 && col <= (self.nx - 1) as f64 && row <= (self.ny - 1) as f64;
+            col >= 0.0 && row >= 0.0 && col <= last_col as f64 && row <= (self.ny - 1) as f64;
         inside.then_some((col, row))
+    }
+
+    /// The four cell centres around a lon/lat point and their bilinear weights: the one rule
+    /// by which every value at a point (towns table, bust table, onsets, sounding) is taken
+    /// from the grid. `None` outside the cell-centre hull; on a grid that [wraps](Grid::wraps)
+    /// a point east of the last column is interpolated between the last and the first column.
+    ///
+    /// ```
+    /// use trackswing::geotiff::{Crs, Georef};
+    /// let georef = Georef { crs: Crs::Wgs84Geographic, geotransform: [0.0, 1.0, 0.0, 2.0, 0.0, -1.0] };
+    /// let grid = trackswing::grid::Grid::new(2, 2, georef).unwrap();
+    /// // Centres at lon 0.5, 1.5 and lat 1.5, 0.5: a quarter of the way east, half way south.
+    /// let b = grid.bilinear_at(0.75, 1.0).unwrap();
+    /// assert_eq!(b.sample(&[0.0, 4.0, 8.0, 12.0]), 5.0);
+    /// ```
+    pub fn bilinear_at(&self, lon: f64, lat: f64) -> Option<Bilinear> {
+        let (c, r) = self.index_of(lon, lat)?;
+        let (nx, ny) = (self.nx, self.ny);
+        let (c0, c1) = if self.wraps() {
+            let c0 = (c.floor() as usize).min(nx - 1);
+            (c0, (c0 + 1) % nx)
+        } else {
+            let c0 = (c.floor() as usize).min(nx - 2);
+            (c0, c0 + 1)
+        };
+        let r0 = (r.floor() as usize).min(ny - 2);
+        let (fx, fy) = (c - c0 as f64, r - r0 as f64);
+        Some(Bilinear {
+            cells: [
+                (r0 * nx + c0, (1.0 - fx) * (1.0 - fy)),
+                (r0 * nx + c1, fx * (1.0 - fy)),
+                ((r0 + 1) * nx + c0, (1.0 - fx) * fy),
+                ((r0 + 1) * nx + c1, fx * fy),
+            ],
+        })
     }
 
     /// Lon/lat of a fractional (column, row) in cell-centre index space.

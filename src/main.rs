@@ -115,15 +115,7 @@ fn run_case(
         min_coverage: common.min_coverage,
         report: with_report || common.report,
     };
-    let case = match plan {
-        Plan::CaseFile(p) => Case::load(p, &over),
-        Plan::ModelFiles {
-            files,
-            track,
-            towns,
-        } => Case::from_model_files(files, track, towns, &over),
-    }
-    .map_err(case_failure)?;
+    let case = load_case(plan, &over)?;
     let threads = common.threads.unwrap_or_else(|| {
         std::thread::available_parallelism()
             .map(|n| n.get())
@@ -233,6 +225,20 @@ fn shard_files(out_dir: &Path) -> anyhow::Result<Vec<PathBuf>> {
     Ok(files)
 }
 
+/// The case a plan names: the case file, or a case made from model files. The one way `run`,
+/// `merge` and `sounding` load what they read.
+fn load_case(plan: Plan<'_>, over: &Overrides) -> Result<Case, Failure> {
+    match plan {
+        Plan::CaseFile(p) => Case::load(p, over),
+        Plan::ModelFiles {
+            files,
+            track,
+            towns,
+        } => Case::from_model_files(files, track, towns, over),
+    }
+    .map_err(case_failure)
+}
+
 /// A case file, or model files with their track and towns.
 fn plan_of(read: &args::Inputs) -> Result<Plan<'_>, Failure> {
     let (inputs, track, towns) = (&read.inputs, read.track.as_deref(), read.towns.as_deref());
@@ -302,7 +308,7 @@ fn sounding(a: &args::SoundingArgs) -> Result<(), Failure> {
         no_dry_air: a.no_dry_air,
         ..Default::default()
     };
-    let case = Case::load(&a.case, &over).map_err(case_failure)?;
+    let case = load_case(plan_of(&a.read)?, &over)?;
     let req = trackswing::sounding::SoundingRequest {
         lat,
         lon,

@@ -1,11 +1,13 @@
-//! The point sounding view: one cell's shifted profile at one step, what every method makes of
-//! it, and the cell's totals up to that step.
+//! The point sounding view: a point's shifted profile at one step, what every method makes of
+//! it, and the point's totals up to that step.
 //!
 //! [`sounding`] runs the engine's own per-cell kernel ([`crate::engine::accumulate_cell`]) for
-//! one cell and one scenario over steps 1…N, so the totals it reports are those the layers hold
-//! for that cell. The cell is the grid cell nearest the requested point (town values in
-//! towns.csv are bilinear between four cells; a sounding is one column). [`Sounding`] prints as
-//! an aligned plain-text table (its `Display`) and serialises to JSON.
+//! each of the four cells around the point and one scenario over steps 1…N, and interpolates
+//! their totals by the grid's one point rule ([`crate::grid::Grid::bilinear_at`]), so the
+//! totals it reports are those of towns.csv for the same point and scenario. The profile shown
+//! is the column of the cell of largest weight. By default the step shown is the one with the
+//! most precipitation at the point. [`Sounding`] prints as an aligned plain-text table (its
+//! `Display`) and serialises to JSON.
 
 use crate::accumulate::Totals;
 use crate::case::Case;
@@ -17,6 +19,7 @@ use crate::engine::{
     accumulate_cell, case_track, cell_column, hours, sample_column, scenario_shift, CellStep,
     EngineError, Sampled, SourceAt, StepWindow,
 };
+use crate::grid::Bilinear;
 use crate::progress::Silent;
 use crate::read::source::open as open_source;
 use crate::scenario::Scenario;
@@ -56,7 +59,7 @@ pub struct SoundingRequest {
     pub lat: f64,
     /// Longitude, degrees east.
     pub lon: f64,
-    /// 1-based step (default: the last).
+    /// 1-based step (default: the step with the most precipitation at the point).
     pub step: Option<usize>,
     /// The scenario.
     pub scenario: Scenario,
@@ -173,6 +176,35 @@ pub struct TotalsToStep {
     pub uncovered_steps: u32,
 }
 
+/// One of the four cells whose totals give the point's (bilinear, [`crate::grid::Grid::bilinear_at`]).
+#[derive(Clone, Debug, Serialize)]
+pub struct NeighbourCell {
+    /// Column and row, 0-based.
+    pub cell: [usize; 2],
+    /// Its centre, degrees.
+    pub lat: f64,
+    /// Its centre, degrees.
+    pub lon: f64,
+    /// Bilinear weight, 0–1 (the four sum to 1; a cell of weight 0 does not count).
+    pub weight: f64,
+    /// Its liquid from step 1 to the step shown, mm (NaN, null in JSON, where missing).
+    pub liquid_mm: f64,
+    /// Its snowfall from step 1 to the step shown, cm.
+    pub snowfall_cm: f64,
+}
+
+/// How the step shown was chosen.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum StepChoice {
+    /// Asked for with `--step`.
+    Requested,
+    /// The step with the most precipitation at the point (weighted over the four cells).
+    Wettest,
+    /// No precipitation at the point at any step: the last step.
+    LastDry,
+}
+
 /// A point sounding.
 #[derive(Clone, Debug, Serialize)]
 pub struct Sounding {
@@ -182,7 +214,9 @@ pub struct Sounding {
     pub lat: f64,
     /// Requested longitude.
     pub lon: f64,
-    /// Nearest cell: column and row, 0-based.
+    /// The four surrounding cells and their weights: the totals are theirs, interpolated.
+    pub cells: Vec<NeighbourCell>,
+    /// The cell whose profile is shown (the one of largest weight): column and row, 0-based.
     pub cell: [usize; 2],
     /// Its centre, degrees.
     pub cell_lat: f64,
@@ -192,6 +226,11 @@ pub struct Sounding {
     pub ground_m: f64,
     /// The step shown, 1-based.
     pub step: usize,
+    /// How it was chosen.
+    pub step_choice: StepChoice,
+    /// Precipitation at the point in every step, mm, as the scenario's fields give it before
+    /// any dry air below the cloud takes its share (NaN, null in JSON, where not covered).
+    pub step_precip_mm: Vec<f64>,
     /// Steps in the case.
     pub steps: usize,
     /// Valid time of the step.
@@ -225,139 +264,251 @@ pub struct Sounding {
     pub totals: TotalsToStep,
 }
 
-/// Makes the sounding for `req` under `case`'s methods.
-pub fn sounding(case: &Case, req: &SoundingRequest) -> Result<Sounding, SoundingError> {
-    let source = open_source(&case.member, &|_: &str| {}).map_err(EngineError::from)?;
-    let statics = source.statics();
-    let grid = statics.grid.clone();
-    let (fc, fr) = grid
-        .index_of(req.lon, req.lat)
-        .ok_or_else(|| SoundingError::Outside {
-            lat: req.lat,
-            lon: req.lon,
-            extent: {
-                let (w, n) = grid.lonlat_of(-0.5, -0.5);
-                let (e, s) = grid.lonlat_of(grid.nx as f64 - 0.5, grid.ny as f64 - 0.5);
-                format!("lon {w:.3}…{e:.3}, lat {s:.3}…{n:.3}")
-            },
-        })?;
-    let (ci, ri) = (fc.round() as usize, fr.round() as usize);
-    let c = ri * grid.nx + ci;
-    let (cell_lon, cell_lat) = grid.lonlat_of(ci as f64, ri as f64);
-    let steps = source.step_count();
-    let step = req.step.unwrap_or(steps);
-    if !(1..=steps).contains(&step) {
-        return Err(SoundingError::Step { step, steps });
-    }
-    let track = case_track(case, source.as_ref(), &Silent)?;
-    let s = req.scenario;
+/// What one pass of the kernel over the four cells leaves.
+struct Pass {
+    /// Totals of the four cells, in [`Bilinear::cells`] order.
+    totals: Totals,
+    /// The shown cell's last column.
+    last: Option<Last>,
+    /// The shown cell's diagnosed profile at its last step.
+    profile: Profile,
+    /// Precipitation at the point per step run, mm.
+    precip: Vec<f64>,
+}
+
+/// Runs the engine's kernel for the four cells of `b` and scenario `s` over steps 1…`upto`.
+fn pass(
+    case: &Case,
+    source: &dyn crate::read::source::Source,
+    track: Option<&crate::read::Track>,
+    b: &Bilinear,
+    shown: usize,
+    s: &Scenario,
+    upto: usize,
+) -> Result<(Pass, Vec<chrono::DateTime<chrono::Utc>>), SoundingError> {
+    let grid = &source.statics().grid;
+    let terrain = &source.statics().terrain;
     let methods = case.methods;
-    let ground = statics.terrain[c];
-    let mut window = StepWindow::new(source.as_ref());
-    let mut totals = Totals::new(1);
+    let mut window = StepWindow::new(source);
+    let mut totals = Totals::new(b.cells.len());
     let mut buf = vec![0.0f32; 0];
     let mut later = vec![0.0f32; 0];
     let mut profile = Profile::empty();
+    let mut scratch = Profile::empty();
     let mut last: Option<Last> = None;
-    for k in 0..step {
+    let mut precip = Vec::with_capacity(upto);
+    for k in 0..upto {
         window.load_through(k)?;
         let at = window.times[k] - hours(s.timing_h);
         let Some(sample) = window.sample(at)? else {
             totals.uncovered_steps += 1;
             last = None;
+            precip.push(f64::NAN);
             continue;
         };
         let file = window.fields(k).path.clone();
-        let shift = scenario_shift(track.as_ref(), &s, at, k, &file)?;
+        let shift = scenario_shift(track, s, at, k, &file)?;
         let layout = window.layout().clone();
         let nvar = layout.nvar();
         buf.resize(nvar, 0.0);
         later.resize(nvar, 0.0);
-        let input = window.scenario_step(k, sample, shift, &s);
-        let mut rows = totals.rows_mut(0, 1);
-        let column = if rows.liquid[0].is_nan() {
-            None
-        } else {
-            match cell_column(
-                &grid,
-                &input,
-                nvar,
-                layout.precip(),
-                c,
-                &case.taper,
-                &mut buf,
-                &mut later,
-            ) {
-                Sampled::Outside => {
-                    rows.set_missing(0);
-                    None
+        let input = window.scenario_step(k, sample, shift, s);
+        let mut falling_at = [f64::NAN; 4];
+        for (j, &(c, _)) in b.cells.iter().enumerate() {
+            let mut rows = totals.rows_mut(j, j + 1);
+            let column = if rows.liquid[0].is_nan() {
+                None
+            } else {
+                match cell_column(
+                    grid,
+                    &input,
+                    nvar,
+                    layout.precip(),
+                    c,
+                    &case.taper,
+                    &mut buf,
+                    &mut later,
+                ) {
+                    Sampled::Outside => {
+                        rows.set_missing(0);
+                        None
+                    }
+                    Sampled::Dry => {
+                        falling_at[j] = 0.0;
+                        // Nothing falls: the totals stand; show the column all the same.
+                        sample_column(grid, &input, nvar, c, &case.taper, &mut buf, &mut later)
+                            .then_some((0.0, None))
+                    }
+                    Sampled::Falling(falling, w) => {
+                        falling_at[j] = falling;
+                        let cell = CellStep {
+                            col: &buf,
+                            falling,
+                            ground_m: terrain[c],
+                            warm_bias_k: s.warm_bias_k,
+                            step: (k + 1) as u32,
+                            source: Some(SourceAt {
+                                input: &input,
+                                w,
+                                nx: grid.nx,
+                            }),
+                        };
+                        let done = accumulate_cell(
+                            &cell,
+                            &layout,
+                            &methods,
+                            &mut rows,
+                            0,
+                            if j == shown {
+                                &mut profile
+                            } else {
+                                &mut scratch
+                            },
+                            &mut SubCloud::empty(),
+                        )
+                        .ok()
+                        .flatten();
+                        Some((falling, done))
+                    }
                 }
-                Sampled::Dry => {
-                    // Nothing falls: the totals stand; show the column all the same.
-                    sample_column(&grid, &input, nvar, c, &case.taper, &mut buf, &mut later)
-                        .then_some((0.0, None))
-                }
-                Sampled::Falling(falling, w) => {
-                    let cell = CellStep {
-                        col: &buf,
-                        falling,
-                        ground_m: ground,
-                        warm_bias_k: s.warm_bias_k,
-                        step: (k + 1) as u32,
-                        source: Some(SourceAt {
-                            input: &input,
-                            w,
-                            nx: grid.nx,
-                        }),
-                    };
-                    let done = accumulate_cell(
-                        &cell,
-                        &layout,
-                        &methods,
-                        &mut rows,
-                        0,
-                        &mut profile,
-                        &mut SubCloud::empty(),
-                    )
-                    .ok()
-                    .flatten();
-                    Some((falling, done))
-                }
+            };
+            if j == shown {
+                last = column.map(|(falling, done)| Last {
+                    at,
+                    falling,
+                    done,
+                    col: buf.clone(),
+                    layout: layout.clone(),
+                });
             }
-        };
-        last = column.map(|(falling, done)| Last {
-            at,
-            falling,
-            done,
-            col: buf.clone(),
-            layout,
-        });
+        }
+        precip.push(b.combine(|j, _| falling_at[j]));
         window.forget_before(sample.index.min(k));
     }
-    let valid_time = rfc3339(window.times[step - 1]);
-    let onset = (totals.onset[0] > 0).then_some(totals.onset[0]);
+    Ok((
+        Pass {
+            totals,
+            last,
+            profile,
+            precip,
+        },
+        window.times.clone(),
+    ))
+}
+
+/// The step with the most precipitation at the point (the first of equals), or `None` when
+/// nothing fell there at any step.
+fn wettest(precip: &[f64]) -> Option<usize> {
+    let mut best: Option<(usize, f64)> = None;
+    for (k, &p) in precip.iter().enumerate() {
+        if p > 0.0 && best.is_none_or(|(_, b)| p > b) {
+            best = Some((k, p));
+        }
+    }
+    best.map(|(k, _)| k + 1)
+}
+
+/// Makes the sounding for `req` under `case`'s methods.
+///
+/// The point's totals are interpolated from those of the four surrounding cells, each run
+/// through the engine's own kernel, by the rule of the towns table
+/// ([`crate::grid::Grid::bilinear_at`]), so the same town and scenario give the same totals
+/// here and in towns.csv. The profile shown is that of the cell of largest weight; the onset is
+/// that cell's, as in towns.csv.
+pub fn sounding(case: &Case, req: &SoundingRequest) -> Result<Sounding, SoundingError> {
+    let source = open_source(&case.member, &|_: &str| {}).map_err(EngineError::from)?;
+    let statics = source.statics();
+    let grid = statics.grid.clone();
+    let b = grid
+        .bilinear_at(req.lon, req.lat)
+        .ok_or_else(|| SoundingError::Outside {
+            lat: req.lat,
+            lon: req.lon,
+            extent: crate::engine::extent(&grid),
+        })?;
+    let shown = b.nearest_slot();
+    let c = b.cells[shown].0;
+    let (ci, ri) = (c % grid.nx, c / grid.nx);
+    let (cell_lon, cell_lat) = grid.lonlat_of(ci as f64, ri as f64);
+    let steps = source.step_count();
+    if let Some(step) = req.step {
+        if !(1..=steps).contains(&step) {
+            return Err(SoundingError::Step { step, steps });
+        }
+    }
+    let track = case_track(case, source.as_ref(), &Silent)?;
+    let s = req.scenario;
+    let methods = case.methods;
+    let ground = statics.terrain[c];
+    let run = |upto| pass(case, source.as_ref(), track.as_ref(), &b, shown, &s, upto);
+    let (step, step_choice, (done, times), step_precip) = match req.step {
+        Some(step) => {
+            let (all, _) = run(steps)?;
+            (step, StepChoice::Requested, run(step)?, all.precip)
+        }
+        None => {
+            let all = run(steps)?;
+            let precip = all.0.precip.clone();
+            match wettest(&precip) {
+                Some(k) if k < steps => (k, StepChoice::Wettest, run(k)?, precip),
+                Some(k) => (k, StepChoice::Wettest, all, precip),
+                None => (steps, StepChoice::LastDry, all, precip),
+            }
+        }
+    };
+    let Pass {
+        totals,
+        last,
+        profile,
+        ..
+    } = done;
+    let valid_time = rfc3339(times[step - 1]);
+    let onset =
+        (!totals.liquid[shown].is_nan() && totals.onset[shown] > 0).then_some(totals.onset[shown]);
     let t = &totals;
+    // As f32 first, as the towns table holds it, so both print the same digits.
+    let at_point = |field: &[f32]| b.combine(|j, _| field[j] as f64) as f32 as f64;
     let totals_out = TotalsToStep {
-        liquid_mm: t.liquid[0] as f64,
-        snow_liquid_mm: t.snow_liquid[0] as f64,
-        snowfall_cm: t.snowfall[0] as f64 / 10.0,
-        ice_pellets_mm: t.ice_pellets[0] as f64,
-        ice_pellet_depth_mm: t.ice_pellet_depth()[0] as f64,
-        freezing_rain_mm: t.freezing_rain[0] as f64,
-        ice_accretion_mm: t.ice_accretion()[0] as f64,
+        liquid_mm: at_point(&t.liquid),
+        snow_liquid_mm: at_point(&t.snow_liquid),
+        snowfall_cm: at_point(&t.snowfall) / 10.0,
+        ice_pellets_mm: at_point(&t.ice_pellets),
+        ice_pellet_depth_mm: at_point(&t.ice_pellet_depth()),
+        freezing_rain_mm: at_point(&t.freezing_rain),
+        ice_accretion_mm: at_point(&t.ice_accretion()),
         onset_step: onset,
-        onset_time: onset.map(|k| rfc3339(window.times[k as usize - 1])),
+        onset_time: onset.map(|k| rfc3339(times[k as usize - 1])),
         uncovered_steps: t.uncovered_steps,
     };
+    let cells = b
+        .cells
+        .iter()
+        .enumerate()
+        .map(|(j, &(i, weight))| {
+            let (col, row) = (i % grid.nx, i / grid.nx);
+            let (lon, lat) = grid.lonlat_of(col as f64, row as f64);
+            NeighbourCell {
+                cell: [col, row],
+                lat,
+                lon,
+                weight,
+                liquid_mm: t.liquid[j] as f64,
+                snowfall_cm: t.snowfall[j] as f64 / 10.0,
+            }
+        })
+        .collect();
     let mut out = Sounding {
         title: case.title.clone(),
         lat: req.lat,
         lon: req.lon,
+        cells,
         cell: [ci, ri],
         cell_lat,
         cell_lon,
         ground_m: ground as f64,
         step,
+        step_choice,
+        step_precip_mm: step_precip,
         steps,
         valid_time,
         sampled_time: last.as_ref().map(|l| rfc3339(l.at)),
@@ -376,7 +527,7 @@ pub fn sounding(case: &Case, req: &SoundingRequest) -> Result<Sounding, Sounding
         dry_air: DryAir {
             enabled: methods.dry_air,
             deficit_mm: f64::NAN,
-            carried_mm: t.carried[0] as f64,
+            carried_mm: t.carried[shown] as f64,
             met: f64::NAN,
         },
         falling_mm: f64::NAN,
@@ -549,18 +700,43 @@ impl fmt::Display for Sounding {
         writeln!(f, "trackswing sounding: {}", self.title)?;
         writeln!(
             f,
-            "point {} {}: nearest cell column {}, row {} ({} {}), ground {:.0} m",
+            "point {} {}: totals bilinear from the four surrounding cell centres (as in towns.csv):",
             ns(self.lat),
             ew(self.lon),
+        )?;
+        for n in &self.cells {
+            writeln!(
+                f,
+                "  column {:>4}, row {:>4} ({} {})  weight {:.3}  liquid {} mm, snowfall {} cm",
+                n.cell[0],
+                n.cell[1],
+                ns(n.lat),
+                ew(n.lon),
+                n.weight,
+                cell(n.liquid_mm, 0, 1).trim(),
+                cell(n.snowfall_cm, 0, 1).trim()
+            )?;
+        }
+        writeln!(
+            f,
+            "profile of the cell of largest weight: column {}, row {} ({} {}), ground {:.0} m",
             self.cell[0],
             self.cell[1],
             ns(self.cell_lat),
             ew(self.cell_lon),
             self.ground_m
         )?;
+        let why = match self.step_choice {
+            StepChoice::Requested => "as asked".to_string(),
+            StepChoice::Wettest => format!(
+                "the wettest at this point, {} mm",
+                cell(self.step_precip_mm[self.step - 1], 0, 1).trim()
+            ),
+            StepChoice::LastDry => "the last: no precipitation at this point at any step".into(),
+        };
         writeln!(
             f,
-            "step {} of {}, valid {}; scenario: {} ({})",
+            "step {} of {} ({why}), valid {}; scenario: {} ({})",
             self.step,
             self.steps,
             self.valid_time,

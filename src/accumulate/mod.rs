@@ -171,18 +171,18 @@ impl Totals {
     }
 }
 
-/// The onset step (1-based) of `totals` at the grid cell nearest a lon/lat point: `None` when
-/// snow never amounted to [`MEASURABLE_LIQUID`] in a step there, the cell is missing, or the
-/// point lies outside the grid. A step is a time, so it is taken from one cell rather than
-/// interpolated.
+/// The onset step (1-based) of `totals` at a lon/lat point: that of the cell of largest weight
+/// among the four that give the point's totals ([`crate::grid::Bilinear::nearest`]). `None`
+/// when snow never amounted to [`MEASURABLE_LIQUID`] in a step there, any of the four cells of
+/// positive weight is missing (as the point's totals are), or the point lies outside the grid.
+/// A step is a time, so it is taken from one cell rather than interpolated.
 pub fn onset_at(totals: &Totals, grid: &crate::grid::Grid, lon: f64, lat: f64) -> Option<u32> {
-    let (c, r) = grid.index_of(lon, lat)?;
-    let i = r.round() as usize * grid.nx + c.round() as usize;
-    if totals.liquid[i].is_nan() || totals.onset[i] == 0 {
-        None
-    } else {
-        Some(totals.onset[i])
+    let b = grid.bilinear_at(lon, lat)?;
+    if b.weighted().any(|(i, _)| totals.liquid[i].is_nan()) {
+        return None;
     }
+    let i = b.nearest();
+    (totals.onset[i] > 0).then_some(totals.onset[i])
 }
 
 /// Least liquid, kg m⁻², for a type share to be defined and for snow to count as having begun

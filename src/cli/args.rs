@@ -236,13 +236,14 @@ pub struct MakeDemoArgs {
 /// `trackswing sounding`.
 #[derive(Args, Debug)]
 pub struct SoundingArgs {
-    /// The case file (TOML).
-    #[arg(value_name = "CASE.toml")]
-    pub case: std::path::PathBuf,
+    /// What to read: a case file or model files, as for `run`.
+    #[command(flatten)]
+    pub read: Inputs,
     /// The point, degrees: latitude,longitude (e.g. 47.76,-29.29).
     #[arg(long, value_name = "LAT,LON", allow_hyphen_values = true)]
     pub at: String,
-    /// Step to show, 1-based (default: the last); totals run from step 1 to it.
+    /// Step to show, 1-based (default: the step with the most precipitation at the point);
+    /// totals run from step 1 to it.
     #[arg(long, value_name = "N")]
     pub step: Option<usize>,
     /// Cross-track offset, km, positive to the left of the motion.

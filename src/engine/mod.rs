@@ -98,20 +98,6 @@ pub enum EngineError {
         /// The grid's extent.
         extent: String,
     },
-    /// A town outside the grid.
-    #[error("{path}: town '{name}' at {lat},{lon} lies outside the grid ({extent})")]
-    TownOutside {
-        /// Towns file.
-        path: PathBuf,
-        /// Town.
-        name: String,
-        /// Latitude.
-        lat: f64,
-        /// Longitude.
-        lon: f64,
-        /// The grid's extent.
-        extent: String,
-    },
     /// Steps out of order or with different levels.
     #[error("{path}: {what}")]
     Steps {
@@ -201,10 +187,20 @@ pub struct Timings {
     pub compute_s: f64,
 }
 
-fn extent(g: &Grid) -> String {
-    let (w, n) = g.lonlat_of(-0.5, -0.5);
-    let (e, s) = g.lonlat_of(g.nx as f64 - 0.5, g.ny as f64 - 0.5);
-    format!("lon {w:.3}…{e:.3}, lat {s:.3}…{n:.3}")
+/// Where a point must lie to have a value: the hull of the cell centres ([`Grid::index_of`]),
+/// the same test the message describes, so a point it refuses never lies inside what it says.
+pub fn extent(g: &Grid) -> String {
+    let (w, n) = g.lonlat_of(0.0, 0.0);
+    let (e, s) = g.lonlat_of(g.nx as f64 - 1.0, g.ny as f64 - 1.0);
+    if g.wraps() {
+        format!(
+            "cell centres at every longitude (the grid wraps around the globe), lat {s:.3}…{n:.3}"
+        )
+    } else if g.is_projected() {
+        format!("cell centres from {w:.3}°E {n:.3}°N at the top-left corner to {e:.3}°E {s:.3}°N at the bottom-right, on {}", g.describe())
+    } else {
+        format!("cell centres lon {w:.3}…{e:.3}, lat {s:.3}…{n:.3}")
+    }
 }
 
 /// Which scenarios a run computes: shard `index` (0-based) of `count` takes the scenarios whose
@@ -287,17 +283,22 @@ pub fn prepare(case: &Case, progress: &dyn Progress) -> Result<Prepared, EngineE
     }
     let towns = match &case.towns {
         Some(p) => {
-            let towns = read_towns(p)?;
-            if let Some(t) = towns.iter().find(|t| grid.index_of(t.lon, t.lat).is_none()) {
-                return Err(EngineError::TownOutside {
-                    path: p.clone(),
-                    name: t.name.clone(),
-                    lat: t.lat,
-                    lon: t.lon,
-                    extent: extent(&grid),
-                });
+            let (inside, outside): (Vec<Town>, Vec<Town>) = read_towns(p)?
+                .into_iter()
+                .partition(|t| grid.index_of(t.lon, t.lat).is_some());
+            // One town off the grid (a list shared between cases, a typo) should not cost the
+            // forecaster every other town: it is left out and named.
+            for t in &outside {
+                progress.warn(&format!(
+                    "{}: town '{}' at {},{} lies outside the grid ({}); it is left out of the towns table and maps",
+                    p.display(),
+                    t.name,
+                    t.lat,
+                    t.lon,
+                    extent(&grid)
+                ));
             }
-            towns
+            inside
         }
         None => Vec::new(),
     };

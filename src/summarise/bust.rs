@@ -26,7 +26,8 @@ pub const SCORE_FLOOR_MM: f64 = 50.0;
 /// Changes of snowfall smaller than this (mm, 1 cm) are not worth a clause in the sentence.
 const NOTABLE_MM: f32 = 10.0;
 
-/// The (up to four) grid cells and bilinear weights that give a town's value.
+/// The (up to four) grid cells and bilinear weights that give a town's value
+/// ([`Grid::bilinear_at`], the rule of the towns table).
 #[derive(Clone, Debug)]
 struct TownPoint {
     cells: Vec<(usize, f32)>,
@@ -34,20 +35,11 @@ struct TownPoint {
 
 impl TownPoint {
     fn new(grid: &Grid, lon: f64, lat: f64) -> Option<Self> {
-        let (c, r) = grid.index_of(lon, lat)?;
-        let (c0, r0) = (c.floor() as usize, r.floor() as usize);
-        let (fx, fy) = ((c - c0 as f64) as f32, (r - r0 as f64) as f32);
-        let mut cells = Vec::with_capacity(4);
-        for (dc, dr, w) in [
-            (0, 0, (1.0 - fx) * (1.0 - fy)),
-            (1, 0, fx * (1.0 - fy)),
-            (0, 1, (1.0 - fx) * fy),
-            (1, 1, fx * fy),
-        ] {
-            if w > 0.0 {
-                cells.push(((r0 + dr) * grid.nx + c0 + dc, w));
-            }
-        }
+        let cells = grid
+            .bilinear_at(lon, lat)?
+            .weighted()
+            .map(|(i, w)| (i, w as f32))
+            .collect();
         Some(Self { cells })
     }
 

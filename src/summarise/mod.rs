@@ -88,18 +88,12 @@ impl TownSummary {
     }
 }
 
-/// Bilinear value of a field at a lon/lat point (NaN when any contributing cell is missing or
-/// the point lies outside the grid).
+/// Value of a field at a lon/lat point by the grid's one point rule ([`Grid::bilinear_at`]:
+/// bilinear from the four surrounding cell centres, wrapping on a global grid; NaN when any
+/// cell of positive weight is missing or the point lies outside the grid).
 pub fn value_at(grid: &Grid, field: &[f32], lon: f64, lat: f64) -> f32 {
-    let Some((c, r)) = grid.index_of(lon, lat) else {
-        return f32::NAN;
-    };
-    let mut out = [0.0f32];
-    if crate::shift::sample_bilinear(field, 1, grid, c as f32, r as f32, &mut out) {
-        out[0]
-    } else {
-        f32::NAN
-    }
+    grid.bilinear_at(lon, lat)
+        .map_or(f32::NAN, |b| b.sample(field))
 }
 
 /// Totals of every scenario at every town.

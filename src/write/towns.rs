@@ -57,6 +57,10 @@ pub fn town_onsets(r: &crate::engine::RunResult) -> Vec<Vec<Option<u32>>> {
         .collect()
 }
 
+/// How a town's values come from the grid, in the words of the towns outputs' descriptions
+/// ([`crate::grid::Grid::bilinear_at`]; `trackswing sounding` follows the same rule).
+pub const POINT_RULE: &str = "A town's totals are bilinear from the four grid cell centres around it (across the antimeridian on a grid that spans 360° of longitude), missing when any of them with weight is missing; its onset is that of the cell of largest weight. Towns outside the grid are left out, with a warning.";
+
 /// Writes `towns.csv` and `towns.geojson`.
 pub fn write_towns(
     dir: &Path,
@@ -187,14 +191,14 @@ pub fn write_towns(
             file: "towns.csv".into(),
             kind: Kind::Table,
             units: format!("snowfall in {u}; lat/lon in degrees; fractions 0–1; onset as RFC 3339 UTC times and 1-based step numbers"),
-            description: "Every town's snowfall for every scenario, with its baseline, smallest, largest and range, and when measurable snow (0.1 mm of liquid in a step) begins in each scenario".into(),
+            description: format!("Every town's snowfall for every scenario, with its baseline, smallest, largest and range, and when measurable snow (0.1 mm of liquid in a step) begins in each scenario. {POINT_RULE}"),
             bands: Vec::new(),
         },
         Written {
             file: "towns.geojson".into(),
             kind: Kind::Vector,
             units: format!("snowfall in {u}"),
-            description: "Towns as points with the same values as towns.csv".into(),
+            description: format!("Towns as points with the same values as towns.csv. {POINT_RULE}"),
             bands: Vec::new(),
         },
     ])

@@ -148,13 +148,6 @@ fn towns_with_a_bad_row() {
 }
 
 #[test]
-fn town_outside_the_grid() {
-    let (d, c) = case("");
-    std::fs::write(d.path().join("towns.csv"), "name,lat,lon\nFar Away,30,11\n").unwrap();
-    fails_cleanly(&c, &[], &["towns.csv", "Far Away", "outside the grid"]);
-}
-
-#[test]
 fn unknown_case_key() {
     let (_d, c) = case("colour = \"red\"");
     fails_cleanly(&c, &[], &["case.toml", "unknown field", "colour"]);

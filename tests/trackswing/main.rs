@@ -20,4 +20,5 @@ mod scenario_count;
 mod shards;
 mod support;
 mod timing;
+mod towns;
 mod usage;

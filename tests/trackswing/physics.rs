@@ -334,7 +334,7 @@ fn the_sounding_reports_the_totals_the_layers_hold() {
     let req = trackswing::sounding::SoundingRequest {
         lat,
         lon,
-        step: None,
+        step: Some(3),
         scenario,
     };
     let snd = trackswing::sounding::sounding(&c, &req).unwrap();
@@ -378,7 +378,9 @@ fn the_sounding_reports_the_totals_the_layers_hold() {
     let o = bin()
         .arg("sounding")
         .arg(&case)
-        .args(["--at", &at, "--cross", "20", "--timing", "1.5", "--json"])
+        .args([
+            "--at", &at, "--cross", "20", "--timing", "1.5", "--step", "3", "--json",
+        ])
         .output()
         .unwrap();
     let j: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();

@@ -4,7 +4,7 @@
 //! Onset timing is in towns.csv (baseline, earliest and latest onset); this table does not
 //! repeat it.
 
-use super::decisions::threshold_text;
+use crate::render::legend::threshold_text;
 use super::towns::spreadsheet_safe;
 use super::{Kind, WriteError, Written};
 use crate::case::Units;

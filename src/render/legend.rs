@@ -223,7 +223,10 @@ mod tests {
 
     #[test]
     fn words_and_hex() {
-        assert_eq!(probability_label("snowfall", 10.0, "cm"), "P(snowfall ≥ 10 cm)");
+        assert_eq!(
+            probability_label("snowfall", 10.0, "cm"),
+            "P(snowfall ≥ 10 cm)"
+        );
         assert_eq!(
             probability_words("snowfall", 0.5, "in"),
             "probability of 0.5 in or more of snowfall"

@@ -8,8 +8,8 @@
 use super::{write_atomic, Kind, WriteError, Written};
 use crate::case::Units;
 use crate::engine::RunResult;
-use crate::render::legend;
 use crate::geotiff::{write_cog, BandSpec, CogOptions, SampleEncoding, WriteOptions};
+use crate::render::legend;
 use crate::summarise::coverage::PriorCoverage;
 use crate::summarise::ice::ice_accretion;
 use crate::summarise::quantiles::{distribution, DistributionLayers};

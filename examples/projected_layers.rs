@@ -17,12 +17,13 @@ use std::path::{Path, PathBuf};
 use std::time::Instant;
 
 use trackswing::accumulate::Totals;
-use trackswing::case::{Case, InputFormat, Member, RasterType, Units, DEFAULT_BANDS_CM};
+use trackswing::case::{Case, InputFormat, Member, RasterType, Units};
 use trackswing::diagnose::{Methods, PtypeMethod, SlrMethod};
 use trackswing::engine::{RunResult, Timings};
 use trackswing::geotiff::*;
 use trackswing::grid::Grid;
 use trackswing::read::{StepLayout, Town};
+use trackswing::render::legend;
 use trackswing::scenario::Scenario;
 use trackswing::shift::Taper;
 
@@ -197,14 +198,14 @@ fn main() -> anyhow::Result<()> {
         out_dir: out.clone(),
         units: Units::Metric,
         raster_type,
-        snowfall_bands: DEFAULT_BANDS_CM.to_vec(),
+        snowfall_bands: legend::default_snow_thresholds(Units::Metric),
         prior: trackswing::summarise::weights::TrackPrior::Gaussian {
             cross_sigma_km: 50.0,
             along_sigma_km: 50.0,
         },
         min_coverage: trackswing::summarise::coverage::DEFAULT_MIN_COVERAGE,
-        snow_thresholds: Units::Metric.default_snow_thresholds(),
-        ice_thresholds: Units::Metric.default_ice_thresholds(),
+        snow_thresholds: legend::default_snow_thresholds(Units::Metric),
+        ice_thresholds: legend::default_ice_thresholds(Units::Metric),
         report: false,
         force: true,
     };

@@ -146,7 +146,7 @@ pub struct OutputFile {
     pub units: Option<String>,
     /// `float32` (default) or `int16` (scaled, about half the size).
     pub raster_type: Option<String>,
-    /// Snowfall isoband thresholds in the output units, increasing.
+    /// Snowfall isoband thresholds in the output units, increasing (default: `thresholds`).
     pub snowfall_bands: Option<Vec<f64>>,
     /// Snowfall thresholds for the exceedance probabilities, in the output units.
     pub thresholds: Option<Vec<f64>>,
@@ -286,21 +286,6 @@ impl Units {
             Self::Us => v * 25.4,
         }
     }
-    /// Default snowfall thresholds in this unit: common round amounts, not a standard.
-    pub fn default_snow_thresholds(&self) -> Vec<f64> {
-        match self {
-            Self::Metric => vec![2.5, 5.0, 10.0, 15.0, 20.0, 30.0],
-            Self::Us => vec![1.0, 2.0, 4.0, 6.0, 8.0, 12.0],
-        }
-    }
-    /// Default ice-accretion thresholds in this unit (a quarter and a half inch of ice are
-    /// widely used damage criteria, common practice).
-    pub fn default_ice_thresholds(&self) -> Vec<f64> {
-        match self {
-            Self::Metric => vec![1.0, 2.5, 6.0, 12.0, 25.0],
-            Self::Us => vec![0.05, 0.1, 0.25, 0.5, 1.0],
-        }
-    }
 }
 
 /// How a member's fields are stored.
@@ -335,12 +320,6 @@ impl RasterType {
         }
     }
 }
-
-/// Default snowfall isoband thresholds, cm (common practice for snowfall maps: about 1, 2, 4,
-/// 6, 8 and 12 inches in round centimetres).
-pub const DEFAULT_BANDS_CM: [f64; 6] = [2.5, 5.0, 10.0, 15.0, 20.0, 30.0];
-/// Default snowfall isoband thresholds, inches (common practice).
-pub const DEFAULT_BANDS_IN: [f64; 6] = [1.0, 2.0, 4.0, 6.0, 8.0, 12.0];
 
 /// One member with its files resolved and checked to exist.
 #[derive(Clone, Debug)]
@@ -436,7 +415,8 @@ pub struct Case {
     pub force: bool,
     /// Sample type of the GeoTIFF layers.
     pub raster_type: RasterType,
-    /// Snowfall isoband thresholds in the output units, increasing.
+    /// Snowfall isoband thresholds in the output units, increasing (the snowfall thresholds unless
+    /// the case gives its own).
     pub snowfall_bands: Vec<f64>,
     /// The prior over track offsets.
     pub prior: TrackPrior,
@@ -750,11 +730,9 @@ impl Case {
                 format!("'{type_text}': expected float32 or int16"),
             )
         })?;
+        // The isobands follow the decision thresholds unless the case asks for other bands.
         let snowfall_bands = match &file.output.snowfall_bands {
-            None => match units {
-                Units::Metric => DEFAULT_BANDS_CM.to_vec(),
-                Units::Us => DEFAULT_BANDS_IN.to_vec(),
-            },
+            None => None,
             Some(b) => {
                 let increasing = b.windows(2).all(|w| w[0] < w[1]);
                 if b.is_empty() || !increasing || b.iter().any(|v| !(v.is_finite() && *v > 0.0)) {
@@ -763,7 +741,7 @@ impl Case {
                         format!("{b:?}: expected positive, finite, strictly increasing thresholds in {}", units.snow_unit()),
                     ));
                 }
-                b.clone()
+                Some(b.clone())
             }
         };
         let thresholds = |field: &str, given: &Option<Vec<f64>>, default: Vec<f64>| {
@@ -787,12 +765,13 @@ impl Case {
         let snow_thresholds = thresholds(
             "output.thresholds",
             &file.output.thresholds,
-            units.default_snow_thresholds(),
+            crate::render::legend::default_snow_thresholds(units),
         )?;
+        let snowfall_bands = snowfall_bands.unwrap_or_else(|| snow_thresholds.clone());
         let ice_thresholds = thresholds(
             "output.ice_thresholds",
             &file.output.ice_thresholds,
-            units.default_ice_thresholds(),
+            crate::render::legend::default_ice_thresholds(units),
         )?;
         let prior = resolve_prior(dir, &file.weights, over)
             .map_err(|(field, what)| invalid(&field, what))?;
@@ -1320,14 +1299,15 @@ snow_ratio = "max-column-temperature"
         let (_d, p) = setup(GOOD);
         let c = Case::load(&p, &Overrides::default()).unwrap();
         assert_eq!(c.prior, TrackPrior::default());
-        assert_eq!(c.snow_thresholds, vec![2.5, 5.0, 10.0, 15.0, 20.0, 30.0]);
+        assert_eq!(c.snow_thresholds, vec![1.0, 2.0, 5.0, 10.0, 20.0, 50.0]);
+        assert_eq!(c.snowfall_bands, c.snow_thresholds);
         let over = Overrides {
             units: Some("us".into()),
             cross_sigma: Some(30.0),
             ..Default::default()
         };
         let c = Case::load(&p, &over).unwrap();
-        assert_eq!(c.snow_thresholds, vec![1.0, 2.0, 4.0, 6.0, 8.0, 12.0]);
+        assert_eq!(c.snow_thresholds, vec![0.5, 1.0, 2.0, 5.0, 10.0, 20.0]);
         assert_eq!(
             c.prior,
             TrackPrior::Gaussian {

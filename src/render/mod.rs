@@ -5,6 +5,7 @@
 //! Coordinates are pixels with (0, 0) the top-left corner of the top-left pixel; a pixel's
 //! centre is at (x + 0.5, y + 0.5).
 
+pub mod legend;
 pub mod ramp;
 pub mod text;
 

@@ -2,7 +2,7 @@
 //! rank by, and one plain-language sentence computed from the numbers.
 //!
 //! **Bust score** = (P90 − P10) / max(baseline, 5 cm), both in snow depth. P90 − P10 is the
-//! spread of the likely outcomes under the track-error prior: weighted, so the most extreme
+//! spread of the outcomes under the track-error prior: weighted, so the most extreme
 //! offsets (which set min and max) do not dominate. Dividing by the modelled amount expresses
 //! the spread as a share of what is being forecast: 20 cm of spread on a 5 cm forecast is a
 //! bust, on a 60 cm forecast a detail. The 5 cm floor ([`SCORE_FLOOR_MM`]) keeps places with a

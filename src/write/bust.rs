@@ -4,10 +4,10 @@
 //! Onset timing is in towns.csv (baseline, earliest and latest onset); this table does not
 //! repeat it.
 
-use super::decisions::threshold_text;
 use super::towns::spreadsheet_safe;
 use super::{Kind, WriteError, Written};
 use crate::case::Units;
+use crate::render::legend::threshold_text;
 use crate::scenario::Scenario;
 use crate::summarise::bust::{sentence, TownDecision};
 use crate::summarise::sensitivity::{FlipKind, FlipSearch};

@@ -9,6 +9,7 @@ use super::{write_atomic, Kind, WriteError, Written};
 use crate::case::Units;
 use crate::engine::RunResult;
 use crate::geotiff::{write_cog, BandSpec, CogOptions, SampleEncoding, WriteOptions};
+use crate::render::legend;
 use crate::summarise::coverage::PriorCoverage;
 use crate::summarise::ice::ice_accretion;
 use crate::summarise::quantiles::{distribution, DistributionLayers};
@@ -43,11 +44,6 @@ pub struct DecisionSettings<'a> {
     pub scope: Scope,
     /// The period the totals cover, in words.
     pub period: &'a str,
-}
-
-/// A threshold as written in band descriptions and column names: `2.5`, `10`.
-pub fn threshold_text(v: f64) -> String {
-    format!("{v}")
 }
 
 struct Band {
@@ -151,10 +147,10 @@ fn write_family(
         .iter()
         .zip(d.exceedance)
         .map(|(t, data)| Band {
-            description: format!("P({what} ≥ {} {unit})", threshold_text(*t)),
+            description: legend::probability_label(what, *t, unit),
             data,
             metadata: vec![
-                ("threshold".into(), threshold_text(*t)),
+                ("threshold".into(), legend::threshold_text(*t)),
                 ("threshold_units".into(), unit.into()),
                 ("units".into(), "1".into()),
             ],
@@ -166,7 +162,10 @@ fn write_family(
         meta,
         &format!("{stem}_exceedance.tif"),
         "1",
-        &format!("Probability (0–1, weighted by the track-error prior) that {what} reaches each threshold; one band per threshold; totals over {period}"),
+        &format!(
+            "Probability (0–1, weighted by the track-error prior) of each threshold or more of {what} ({} {unit}); one band per threshold; totals over {period}",
+            thresholds.iter().map(|t| legend::threshold_text(*t)).collect::<Vec<_>>().join(", ")
+        ),
         bands,
     )?);
     let [_, _, p90] = d.quantiles;

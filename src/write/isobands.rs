@@ -4,13 +4,15 @@
 //! One MultiPolygon feature per band `[lower, upper)` of the case's thresholds (in the output
 //! units), the last band open above. Bands are contoured with linear interpolation between cell
 //! centres and clipped to the cells with data (`polygons.rs`), so adjacent bands share their
-//! boundaries and no band covers a missing cell.
+//! boundaries and no band covers a missing cell. Each feature carries the `fill` colour and the
+//! `label` of its class in the maps' snowfall legend (`render/legend.rs`), for styling in a GIS.
 
 use super::polygons::{band, to_lonlat, Padded};
 use super::zones::{collection, feature};
 use super::{write_text_atomic, Kind, WriteError, Written};
 use crate::case::Units;
 use crate::grid::Grid;
+use crate::render::legend;
 use geojson::{Feature, JsonObject};
 use rayon::prelude::*;
 use std::path::Path;
@@ -25,6 +27,8 @@ pub fn isobands(
     let data = Padded::mask(grid, |i| !field[i].is_nan()).at_least(0.5)?;
     let below = thresholds.first().copied().unwrap_or(0.0) - 1.0;
     let padded = Padded::new(grid, field, below);
+    // Band k is class k + 1 of the maps' snowfall legend (class 0 is "under the first").
+    let classes = legend::snow_classes(thresholds, unit);
     thresholds
         .par_iter()
         .enumerate()
@@ -39,10 +43,11 @@ pub fn isobands(
             );
             props.insert("units".into(), unit.into());
             let label = match upper {
-                Some(u) => format!("{lower}–{u} {unit}"),
-                None => format!("{lower} {unit} or more"),
+                Some(_) => classes.labels[k + 1].clone(),
+                None => format!("{} {unit} or more", legend::threshold_text(lower)),
             };
             props.insert("label".into(), label.into());
+            props.insert("fill".into(), legend::hex(classes.colours[k + 1]).into());
             Ok(feature(&to_lonlat(grid, &area), props))
         })
         .collect()

@@ -8,12 +8,12 @@
 //! right; a header of [`HEADER_H`] px and a footer of [`FOOTER_H`] px frame both. The height is
 //! `HEADER_H + max(panel height, LEGEND_MIN_H) + FOOTER_H`. North is up.
 
-use super::decisions::{threshold_text, MapInputs};
+use super::decisions::MapInputs;
 use super::{write_atomic, Kind, WriteError, Written};
 use crate::case::Units;
 use crate::engine::RunResult;
 use crate::grid::{km_per_degree, Grid};
-use crate::render::ramp::{self, Ramp};
+use crate::render::legend::{self, Classes};
 use crate::render::{text, Canvas, Rgb};
 use crate::scenario::Scenario;
 use crate::summarise::bust::TownDecision;
@@ -167,100 +167,6 @@ pub fn image_size(grid: &Grid) -> (usize, usize) {
         IMAGE_WIDTH,
         HEADER_H + (f.h as usize).max(LEGEND_MIN_H) + FOOTER_H,
     )
-}
-
-/// Colour classes of a map.
-struct Classes {
-    /// Class k holds values in [bounds[k−1], bounds[k]) (or (…, …] when `upper_inclusive`).
-    bounds: Vec<f64>,
-    colours: Vec<Rgb>,
-    labels: Vec<String>,
-    upper_inclusive: bool,
-}
-
-impl Classes {
-    fn of(&self, v: f64) -> usize {
-        self.bounds
-            .iter()
-            .filter(|b| {
-                if self.upper_inclusive {
-                    v > **b
-                } else {
-                    v >= **b
-                }
-            })
-            .count()
-    }
-}
-
-/// Rounds to two significant figures (class bounds beyond the thresholds stay readable).
-fn two_figures(v: f64) -> f64 {
-    if v <= 0.0 {
-        return v;
-    }
-    let p = 10f64.powf(v.log10().floor() - 1.0);
-    (v / p).round() * p
-}
-
-/// Snow classes: below the first threshold, between thresholds, and up to three more steps of
-/// a third of the last threshold each (to two figures) when the field goes beyond it.
-fn amount_classes(thresholds: &[f64], max: f64, unit: &str, ramp: &Ramp) -> Classes {
-    let mut bounds = thresholds.to_vec();
-    let last = *bounds.last().expect("thresholds are never empty");
-    for k in 1..=3 {
-        if bounds.last().is_some_and(|b| *b < max) {
-            bounds.push(two_figures(last * (1.0 + k as f64 / 3.0)));
-        }
-    }
-    let t = |v: f64| threshold_text((v * 100.0).round() / 100.0);
-    let mut labels = vec![format!("under {} {unit}", t(bounds[0]))];
-    for w in bounds.windows(2) {
-        labels.push(format!("{} – {} {unit}", t(w[0]), t(w[1])));
-    }
-    labels.push(format!(
-        "{} {unit} or more",
-        t(*bounds.last().expect("not empty"))
-    ));
-    Classes {
-        colours: ramp.classes(labels.len()),
-        bounds,
-        labels,
-        upper_inclusive: false,
-    }
-}
-
-/// Flip-distance classes: steps of 25, 50 or 100 km up to the farthest offset.
-fn distance_classes(max_km: f64, ramp: &Ramp, units: Units) -> Classes {
-    let step = if max_km <= 150.0 {
-        25.0
-    } else if max_km <= 400.0 {
-        50.0
-    } else {
-        100.0
-    };
-    let n = ((max_km / step).ceil() as usize).clamp(1, 12);
-    let bounds: Vec<f64> = (1..n).map(|k| k as f64 * step).collect();
-    let mut labels = Vec::new();
-    let mut lo = 0.0;
-    for k in 0..n {
-        let hi = (k + 1) as f64 * step;
-        labels.push(match (k, units) {
-            (0, _) => format!("within {}", units.distance(hi)),
-            (_, Units::Metric) => format!("{lo:.0} – {hi:.0} km"),
-            (_, Units::Us) => format!(
-                "{lo:.0} – {hi:.0} km ({:.0} – {:.0} mi)",
-                lo / 1.609_344,
-                hi / 1.609_344
-            ),
-        });
-        lo = hi;
-    }
-    Classes {
-        colours: ramp.classes(n),
-        bounds,
-        labels,
-        upper_inclusive: true,
-    }
 }
 
 /// The value of a field at a fractional (column, row): bilinear where the four cells are
@@ -814,19 +720,12 @@ pub fn write_maps(
     let baseline = to_unit(&r.totals[r.baseline].snowfall);
     let p90 = inputs.snow_p90.as_deref().map(to_unit);
     let range = snow_range_mm.map(to_unit);
-    let fmax = |v: &[f32]| {
-        v.iter()
-            .filter(|x| x.is_finite())
-            .fold(0.0f32, |a, b| a.max(*b)) as f64
-    };
-    let top = fmax(&baseline).max(p90.as_deref().map_or(0.0, fmax));
-    let amounts = amount_classes(ctx.snow_thresholds, top, su, &ramp::snow());
     let mut specs = vec![MapSpec {
         file: "map_baseline.png",
         title: "Snowfall as modelled".into(),
         legend_title: format!("Total snowfall ({su}), track as modelled"),
         field: &baseline,
-        classes: amounts,
+        classes: legend::snow_classes(ctx.snow_thresholds, su),
         nearest_only: false,
         unit_words: snow_words.clone(),
         never: None,
@@ -834,12 +733,10 @@ pub fn write_maps(
     if let Some(p90) = &p90 {
         specs.push(MapSpec {
             file: "map_p90.png",
-            title: "Snowfall if the track error goes the snowy way (P90)".into(),
-            legend_title: format!(
-                "Snowfall ({su}) exceeded with 1-in-10 chance under the track-error prior (P90)"
-            ),
+            title: legend::P90_TITLE.into(),
+            legend_title: format!("P90 snowfall ({su}): {}", legend::P90_MEANING),
             field: p90,
-            classes: amount_classes(ctx.snow_thresholds, top, su, &ramp::snow()),
+            classes: legend::snow_classes(ctx.snow_thresholds, su),
             nearest_only: false,
             unit_words: snow_words.clone(),
             never: None,
@@ -851,7 +748,7 @@ pub fn write_maps(
             title: "How much the snowfall depends on the track".into(),
             legend_title: format!("Largest minus smallest snowfall over the scenarios ({su})"),
             field: range,
-            classes: amount_classes(ctx.snow_thresholds, fmax(range), su, &ramp::spread()),
+            classes: legend::spread_classes(ctx.snow_thresholds, su),
             nearest_only: false,
             unit_words: snow_words.clone(),
             never: None,
@@ -869,7 +766,7 @@ pub fn write_maps(
                 }
             ),
             field: &flip.distance_km,
-            classes: distance_classes(far, &ramp::flip(), u),
+            classes: legend::distance_classes(far, u),
             nearest_only: true,
             unit_words: match u {
                 Units::Metric => "track shift in km".into(),
@@ -909,31 +806,6 @@ pub fn write_maps(
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    #[test]
-    fn classes_follow_the_thresholds() {
-        let c = amount_classes(&[2.5, 5.0, 10.0], 25.0, "cm", &ramp::snow());
-        // 10 → 13, 17, 20 added (thirds of 10, two figures); 25 > 20 so all three.
-        assert_eq!(c.bounds, [2.5, 5.0, 10.0, 13.0, 17.0, 20.0]);
-        assert_eq!(c.labels[0], "under 2.5 cm");
-        assert_eq!(c.labels[3], "10 – 13 cm");
-        assert_eq!(c.labels.last().unwrap(), "20 cm or more");
-        assert_eq!(c.of(0.0), 0);
-        assert_eq!(c.of(2.5), 1);
-        assert_eq!(c.of(99.0), 6);
-        let d = distance_classes(100.0, &ramp::flip(), Units::Metric);
-        assert_eq!(
-            d.labels,
-            ["within 25 km", "25 – 50 km", "50 – 75 km", "75 – 100 km"]
-        );
-        // US units: the miles follow (25 km = 15.5 mi, 50 km = 31 mi, 75 km = 47 mi).
-        let d = distance_classes(100.0, &ramp::flip(), Units::Us);
-        assert_eq!(d.labels[0], "within 25 km (16 mi)");
-        assert_eq!(d.labels[1], "25 – 50 km (16 – 31 mi)");
-        assert_eq!(d.of(25.0), 0);
-        assert_eq!(d.of(25.1), 1);
-        assert_eq!(d.of(100.0), 3);
-    }
 
     #[test]
     fn nice_lengths() {

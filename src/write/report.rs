@@ -18,7 +18,7 @@ pub const REPORT: &str = "report.html";
 /// The quicklook maps, in the order the report shows them, with what each shows.
 pub const MAPS: [(&str, &str); 4] = [
     ("map_baseline.png", "Snowfall as modelled, with the rain–snow line of every track offset (bold: as modelled)."),
-    ("map_p90.png", "The snowy end of the likely outcomes: P90 of snowfall under the track-error prior."),
+    ("map_p90.png", crate::render::legend::P90_CAPTION),
     ("map_range.png", "Largest minus smallest snowfall over all track offsets: where the total depends on the track."),
     ("map_flip_distance.png", "How far the low must shift before the main precipitation type changes or the snowfall halves or doubles."),
 ];
@@ -120,12 +120,13 @@ fn key_numbers(dir: &Path, su: &str) -> Result<Vec<(String, String)>, ReportErro
             .fold(f32::NAN, |a, b| if a.is_nan() { *b } else { a.max(*b) })
     };
     let mut out = Vec::new();
+    let p90_words = format!(
+        "Largest P90 snowfall ({})",
+        crate::render::legend::P90_MEANING
+    );
     for (file, words) in [
         ("snowfall_baseline.tif", "Largest snowfall as modelled"),
-        (
-            "snowfall_p90.tif",
-            "Largest P90 snowfall (the snowy end of the likely outcomes)",
-        ),
+        ("snowfall_p90.tif", p90_words.as_str()),
         (
             "snowfall_range.tif",
             "Largest swing of snowfall over the track offsets",
@@ -584,7 +585,26 @@ pub fn write_report(dir: &Path) -> Result<PathBuf, ReportError> {
 
     h.push_str("<section><h2>How to read this</h2><ul>\
 <li><strong>P10 / P50 / P90</strong>: weighted percentiles of snowfall over the track offsets, each offset weighted by the track-error prior (weighted empirical distribution, linear between scenario values). One outcome in ten is expected below P10 and one in ten above P90 — if the prior matches the real track error.</li>\
-<li><strong>Flip distance</strong>: the smallest track shift (√(cross² + along²)) at which the main precipitation type changes, or the snowfall halves or doubles (comparing amounts of at least 1 cm).</li>\
+");
+    let thresholds: Vec<f64> = field("decisions")?["snow_thresholds"]
+        .as_array()
+        .map(|a| a.iter().filter_map(Value::as_f64).collect())
+        .unwrap_or_default();
+    let listed: Vec<String> = thresholds
+        .iter()
+        .map(|t| crate::render::legend::threshold_text(*t))
+        .collect();
+    let _ = write!(
+        h,
+        "<li><strong>Threshold probabilities</strong> (snowfall_exceedance.tif; the p_snow_ge_… columns of towns_bust.csv), at this run's thresholds {} {su}: for each, the share of the prior's weight on the scenarios with that much snow or more — for example the {}. The same thresholds are the breaks of the map legends and of the snowfall bands.</li>",
+        escape(&listed.join(", ")),
+        escape(&crate::render::legend::probability_words(
+            "snowfall",
+            thresholds.first().copied().unwrap_or(f64::NAN),
+            su
+        ))
+    );
+    h.push_str("<li><strong>Flip distance</strong>: the smallest track shift (√(cross² + along²)) at which the main precipitation type changes, or the snowfall halves or doubles (comparing amounts of at least 1 cm).</li>\
 <li><strong>Bust score</strong>: (P90 − P10) ÷ the snowfall as modelled (at least 5 cm). 1 means the likely range is as wide as the forecast itself.</li>\
 <li>The prior's σ should come from your own verification of track error at this lead time; the defaults are examples, not a climatology.</li>\
 </ul></section>\n");

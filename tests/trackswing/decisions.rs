@@ -71,9 +71,9 @@ fn three_scenarios_with_explicit_weights_match_the_closed_form() {
         .map(|p| band(&out.join(format!("snowfall_{p}.tif")), 0))
         .collect();
     let ex = read_geotiff(&out.join("snowfall_exceedance.tif")).unwrap();
-    let thresholds = [2.5, 5.0, 10.0, 15.0, 20.0, 30.0];
+    let thresholds = [1.0, 2.0, 5.0, 10.0, 20.0, 50.0];
     assert_eq!(ex.bands.len(), 6);
-    assert_eq!(ex.descriptions[2], "P(snowfall ≥ 10 cm)");
+    assert_eq!(ex.descriptions[2], "P(snowfall ≥ 5 cm)");
     let mut checked = 0;
     let mut interior = 0;
     for i in 0..mean.len() {
@@ -213,7 +213,7 @@ fn bust_table_is_ranked_spreadsheet_safe_and_points_agree() {
     let out = d.path().join("out");
     let mut rdr = csv::Reader::from_path(out.join("towns_bust.csv")).unwrap();
     let h = rdr.headers().unwrap().clone();
-    assert!(h.iter().any(|c| c == "p90_in") && h.iter().any(|c| c == "p_snow_ge_12in"));
+    assert!(h.iter().any(|c| c == "p90_in") && h.iter().any(|c| c == "p_snow_ge_20in"));
     let col = |k: &str| h.iter().position(|x| x == k).unwrap();
     let rows: Vec<csv::StringRecord> = rdr.records().map(Result::unwrap).collect();
     assert_eq!(rows.len(), 4);

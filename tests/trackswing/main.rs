@@ -10,6 +10,7 @@ mod fuzz;
 mod gdal_source;
 mod geotiff_gdal;
 mod grib;
+mod legend;
 mod model_folder;
 mod not_computed;
 mod physics;

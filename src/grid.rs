@@ -743,6 +743,69 @@ impl Grid {
         }
     }
 
+    /// True on a lat/lon grid whose columns go once around the Earth (0…360° or −180…180°):
+    /// its last column's east neighbour is its first column.
+    pub fn spans_globe(&self) -> bool {
+        let gt = self.georef.geotransform;
+        !self.is_projected() && (self.nx as f64 * gt[1] - 360.0).abs() < gt[1] * 1e-3
+    }
+
+    /// The block of `rows` rows from `first_row` and `cols` columns from `first_col` as a grid
+    /// of its own, with the geotransform moved to the block's corner. On a grid that
+    /// [`Grid::spans_globe`], columns past the last continue with the first, their longitudes
+    /// 360° on, and every longitude is moved by `lon_shift` (a multiple of 360°), so the block's
+    /// longitudes increase monotonically (170…190 across the antimeridian). Coordinates and
+    /// metric are copied from this grid, not recomputed, so a cell's numbers are the same bits
+    /// in the block as in the whole grid.
+    pub fn window(
+        &self,
+        first_row: usize,
+        rows: usize,
+        first_col: usize,
+        cols: usize,
+        lon_shift: f64,
+    ) -> Result<Grid, GridError> {
+        let gt = self.georef.geotransform;
+        let geotransform = [
+            gt[0] + first_col as f64 * gt[1] + lon_shift,
+            gt[1],
+            0.0,
+            gt[3] + first_row as f64 * gt[5],
+            0.0,
+            gt[5],
+        ];
+        check_shape(cols, rows, geotransform)?;
+        let n = rows * cols;
+        let (mut lon, mut lat, mut metric) = (
+            Vec::with_capacity(n),
+            Vec::with_capacity(n),
+            Vec::with_capacity(n),
+        );
+        for row in first_row..first_row + rows {
+            for j in 0..cols {
+                let c = first_col + j;
+                let (c, turn) = (c % self.nx, (c / self.nx) as f64 * 360.0);
+                let i = row * self.nx + c;
+                lon.push(self.lon[i] + turn + lon_shift);
+                lat.push(self.lat[i]);
+                metric.push(self.metric[i]);
+            }
+        }
+        Ok(Self {
+            nx: cols,
+            ny: rows,
+            georef: Georef {
+                crs: self.georef.crs,
+                geotransform,
+            },
+            projection: self.projection.clone(),
+            projector: self.projector.clone(),
+            lon,
+            lat,
+            metric,
+        })
+    }
+
     /// The lon/lat box of the cell centres, (west, south, east, north), degrees.
     pub fn lonlat_bounds(&self) -> (f64, f64, f64, f64) {
         let fold = |a: (f64, f64, f64, f64), (lo, la): (&f64, &f64)| {

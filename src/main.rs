@@ -69,6 +69,20 @@ fn engine_failure(e: trackswing::engine::EngineError) -> Failure {
     if too_many {
         Failure::Usage(e)
     } else {
+        stopped(e)
+    }
+}
+
+/// A run that stopped: a `--region` that misses the model grid is a bad command line (2), as
+/// its value could not be checked before the grid was read; anything else a bad input (3).
+fn stopped(e: anyhow::Error) -> Failure {
+    let bad_flag = e.chain().any(|c| {
+        c.downcast_ref::<trackswing::read::region::RegionError>()
+            .is_some_and(|r| r.from_flag())
+    });
+    if bad_flag {
+        Failure::Usage(e)
+    } else {
         Failure::Input(e)
     }
 }
@@ -114,6 +128,7 @@ fn run_case(
         along_sigma: common.along_sigma,
         min_coverage: common.min_coverage,
         report: with_report || common.report,
+        region: common.region.clone(),
     };
     let case = load_case(plan, &over)?;
     let threads = common.threads.unwrap_or_else(|| {
@@ -147,7 +162,7 @@ fn run_case(
                 .map_err(|e| Failure::Input(e.into()))?
                 .install(|| trackswing::shard::assemble(&case, &progress, &paths))
                 .map_err(|e| {
-                    Failure::Input(
+                    stopped(
                         anyhow::Error::from(e).context("the merge stopped; nothing was written"),
                     )
                 })?
@@ -192,9 +207,9 @@ fn run_shard(
                 e if failed_write => Failure::Output(
                     anyhow::Error::from(e).context(format!("writing shard {}", shard.label())),
                 ),
-                e => Failure::Input(
-                    anyhow::Error::from(e).context("the run stopped; nothing was written"),
-                ),
+                e => {
+                    stopped(anyhow::Error::from(e).context("the run stopped; nothing was written"))
+                }
             }
         })?;
     if !quiet {
@@ -306,6 +321,7 @@ fn sounding(a: &args::SoundingArgs) -> Result<(), Failure> {
         precip_type: a.precip_type.clone(),
         snow_ratio: a.snow_ratio.clone(),
         no_dry_air: a.no_dry_air,
+        region: a.region.clone(),
         ..Default::default()
     };
     let case = load_case(plan_of(&a.read)?, &over)?;
@@ -321,7 +337,7 @@ fn sounding(a: &args::SoundingArgs) -> Result<(), Failure> {
             warm_bias_k: a.warm_bias,
         },
     };
-    let s = trackswing::sounding::sounding(&case, &req).map_err(|e| Failure::Input(e.into()))?;
+    let s = trackswing::sounding::sounding(&case, &req).map_err(|e| stopped(e.into()))?;
     if a.json {
         println!(
             "{}",

@@ -697,6 +697,7 @@ fn assemble_recorded(
             })
             .collect(),
         warnings: Vec::new(),
+        window: source.window().cloned(),
     })
 }
 

@@ -416,7 +416,8 @@ fn wettest(precip: &[f64]) -> Option<usize> {
 /// here and in towns.csv. The profile shown is that of the cell of largest weight; the onset is
 /// that cell's, as in towns.csv.
 pub fn sounding(case: &Case, req: &SoundingRequest) -> Result<Sounding, SoundingError> {
-    let source = open_source(&case.member, &|_: &str| {}).map_err(EngineError::from)?;
+    let source = open_source(&case.member, case.region.as_ref(), &|_: &str| {})
+        .map_err(EngineError::from)?;
     let statics = source.statics();
     let grid = statics.grid.clone();
     let b = grid

@@ -5,6 +5,7 @@
 //! A case lists its model runs as `[[member]]` tables; this version runs one member per case.
 
 use crate::diagnose::{Methods, PtypeMethod, SlrMethod};
+use crate::read::region::{Region, RegionError};
 use crate::scenario::{parse_offsets, Axes, OffsetError};
 use crate::shift::Taper;
 use crate::summarise::coverage::{check_min_coverage, DEFAULT_MIN_COVERAGE};
@@ -178,6 +179,8 @@ pub struct CaseFile {
     pub title: String,
     /// Towns CSV (`name,lat,lon`).
     pub towns: Option<String>,
+    /// Read and compute only this lon/lat box of the model grid: `[W, S, E, N]`, degrees.
+    pub region: Option<[f64; 4]>,
     /// The model runs.
     pub member: Vec<MemberFile>,
     /// Offsets to explore.
@@ -376,6 +379,8 @@ pub struct Overrides {
     pub min_coverage: Option<f64>,
     /// `--report` (and `demo`): write report.html with the set.
     pub report: bool,
+    /// `--region W,S,E,N`.
+    pub region: Option<String>,
 }
 
 /// A case ready to run.
@@ -429,6 +434,9 @@ pub struct Case {
     pub ice_thresholds: Vec<f64>,
     /// Write report.html with the set.
     pub report: bool,
+    /// The lon/lat box of the model grid to read, and where it was given (`--region`, or the
+    /// case file and `region`), for messages.
+    pub region: Option<(Region, String)>,
 }
 
 /// Default core radius, km: the displacement is complete over the low's circulation and
@@ -577,6 +585,23 @@ impl Case {
             .as_deref()
             .map(|t| existing("towns", t))
             .transpose()?;
+        let bad_region = |e: RegionError| match e {
+            RegionError::Bad {
+                field, text, what, ..
+            } => invalid(&field, format!("{text}: {what}")),
+            other => invalid("region", other.to_string()),
+        };
+        let region = match (&over.region, &file.region) {
+            (Some(text), _) => Some((
+                Region::parse(text, "--region").map_err(bad_region)?,
+                "--region".to_string(),
+            )),
+            (None, Some(edges)) => Some((
+                Region::new(*edges, "region").map_err(bad_region)?,
+                format!("{}: region", path.display()),
+            )),
+            (None, None) => None,
+        };
 
         let axis = |field: &str,
                     flag: &str,
@@ -831,6 +856,7 @@ impl Case {
             snow_thresholds,
             ice_thresholds,
             report: over.report,
+            region,
         })
     }
 
@@ -1134,6 +1160,7 @@ impl Case {
                 }
             ),
             towns: towns.map(abs),
+            region: None,
             member: vec![MemberFile {
                 name,
                 terrain: None,

@@ -116,6 +116,11 @@ pub struct Common {
     /// Also write report.html (always written by `demo`).
     #[arg(long)]
     pub report: bool,
+    /// Read and compute only this lon/lat box of the model grid, degrees west,south,east,north
+    /// (e.g. -80,35,-60,50; west > east crosses the antimeridian: 170,40,-170,60). Overrides
+    /// the case's `region`.
+    #[arg(long, value_name = "W,S,E,N", allow_hyphen_values = true)]
+    pub region: Option<String>,
     /// Print nothing but errors.
     #[arg(long, short)]
     pub quiet: bool,
@@ -290,6 +295,10 @@ pub struct SoundingArgs {
     /// No evaporation into dry air below the cloud.
     #[arg(long)]
     pub no_dry_air: bool,
+    /// Read only this lon/lat box of the model grid, W,S,E,N degrees (default: the case's
+    /// `region`, else the whole grid).
+    #[arg(long, value_name = "W,S,E,N", allow_hyphen_values = true)]
+    pub region: Option<String>,
     /// Print JSON instead of the table.
     #[arg(long)]
     pub json: bool,

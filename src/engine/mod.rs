@@ -163,6 +163,8 @@ pub struct RunResult {
     pub shards: Vec<ShardUsed>,
     /// What the run warned about, in order: the layers' manifest and report carry them.
     pub warnings: Vec<String>,
+    /// The window of the model grid the run read, when the case gives a region.
+    pub window: Option<crate::read::region::Window>,
 }
 
 /// A shard file a run's totals came from, for the manifest.
@@ -266,7 +268,9 @@ pub fn prepare(case: &Case, progress: &dyn Progress) -> Result<Prepared, EngineE
     if let Some(w) = crate::case::skipped_summary(&case.member.skipped) {
         progress.warn(&w);
     }
-    let source = open_source(&case.member, &|m: &str| progress.warn(m))?;
+    let source = open_source(&case.member, case.region.as_ref(), &|m: &str| {
+        progress.warn(m)
+    })?;
     let grid = source.statics().grid.clone();
     let track = case_track(case, source.as_ref(), progress)?;
     if let Some(t) = &track {
@@ -543,6 +547,7 @@ pub fn run_prepared(
         timings,
         shards: Vec::new(),
         warnings: Vec::new(),
+        window: source.window().cloned(),
     })
 }
 

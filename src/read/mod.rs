@@ -1,7 +1,8 @@
 //! Stage 1, read: model fields per time step, the storm track and the towns.
 //!
 //! Model fields come through a [`source::Source`]: GeoTIFF ([`fields`]), GRIB2 ([`grib`]) or,
-//! with the `gdal` feature, any raster GDAL reads (`gdal`). A
+//! with the `gdal` feature, any raster GDAL reads (`gdal`), cut to a [`region`] when the case
+//! asks for one. A
 //! track can also be found from the model's sea-level pressure ([`track_finder`]).
 
 pub mod accumulation;
@@ -9,6 +10,7 @@ pub mod fields;
 #[cfg(feature = "gdal")]
 pub mod gdal;
 pub mod grib;
+pub mod region;
 pub mod source;
 pub mod towns;
 pub mod track;

@@ -9,6 +9,7 @@
 
 use super::fields::{read_static, read_step, FieldError, StaticFields, StepFields};
 use super::grib::{GribError, GribSource};
+use super::region::{Region, RegionError, RegionSource, Window};
 use crate::case::{InputFormat, Member};
 use crate::geotiff::read_geotiff;
 use chrono::{DateTime, Utc};
@@ -28,6 +29,10 @@ pub enum SourceError {
     #[cfg(feature = "gdal")]
     #[error(transparent)]
     Gdal(#[from] super::gdal::GdalError),
+    /// The region to read does not fit the grid. Its message names the region, so the chain of
+    /// causes carries it for the binary to tell a bad option from a bad case.
+    #[error("{0}")]
+    Region(#[from] RegionError),
     /// A file of a format this build does not read.
     #[error("{path}: {what}")]
     Format {
@@ -58,6 +63,10 @@ pub trait Source: Sync {
     fn mslp(&self, k: usize) -> Result<Option<Vec<f32>>, SourceError>;
     /// Every file read, for the manifest.
     fn inputs(&self) -> Vec<PathBuf>;
+    /// The window of the model grid this source hands out, when it reads a region of it.
+    fn window(&self) -> Option<&Window> {
+        None
+    }
 }
 
 /// GeoTIFF files: one terrain file and one file per step.
@@ -144,8 +153,23 @@ pub fn magic(path: &Path) -> Result<Magic, SourceError> {
     })
 }
 
-/// Opens a member's fields. `warn` receives one summary line of what was not used.
-pub fn open(member: &Member, warn: &dyn Fn(&str)) -> Result<Box<dyn Source>, SourceError> {
+/// Opens a member's fields, cut to `region` (the box and where it was given, `--region` or the
+/// case file's `region`) when there is one. `warn` receives one summary line of what was not
+/// used.
+pub fn open(
+    member: &Member,
+    region: Option<&(Region, String)>,
+    warn: &dyn Fn(&str),
+) -> Result<Box<dyn Source>, SourceError> {
+    let whole = open_whole(member, warn)?;
+    Ok(match region {
+        None => whole,
+        Some((r, field)) => Box::new(RegionSource::new(whole, *r, field)?),
+    })
+}
+
+/// A member's fields on the whole model grid.
+fn open_whole(member: &Member, warn: &dyn Fn(&str)) -> Result<Box<dyn Source>, SourceError> {
     match member.format {
         InputFormat::GeoTiff => Ok(Box::new(GeoTiffSource::open(
             &member.terrain,

@@ -117,6 +117,10 @@ struct Manifest<'a> {
     written_utc: String,
     crs: CrsEntry,
     grid: serde_json::Value,
+    /// The lon/lat box read (`--region` or the case's `region`), the window of the model grid
+    /// that covers it (rows and columns) and the model grid it was cut from.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    region: Option<&'a crate::read::region::Window>,
     units: crate::case::Units,
     raster_type: crate::case::RasterType,
     snowfall_bands: &'a [f64],
@@ -281,6 +285,7 @@ pub fn write_manifest(
         written_utc: chrono::Utc::now().to_rfc3339_opts(chrono::SecondsFormat::Secs, true),
         crs: grid_crs(),
         grid: serde_json::json!({"columns": r.grid.nx, "rows": r.grid.ny, "geotransform": gt}),
+        region: r.window.as_ref(),
         units: case.units,
         raster_type: case.raster_type,
         snowfall_bands: &case.snowfall_bands,

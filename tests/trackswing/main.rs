@@ -15,6 +15,7 @@ mod model_folder;
 mod not_computed;
 mod physics;
 mod reference;
+mod region;
 mod report;
 mod rerun;
 mod scenario_count;

@@ -208,6 +208,7 @@ fn main() -> anyhow::Result<()> {
         ice_thresholds: legend::default_ice_thresholds(Units::Metric),
         report: false,
         force: true,
+        region: None,
     };
     let expected = expected_cells(&grid, &totals, baseline);
     let result = RunResult {
@@ -227,6 +228,7 @@ fn main() -> anyhow::Result<()> {
         },
         shards: Vec::new(),
         warnings: Vec::new(),
+        window: None,
     };
     let started = Instant::now();
     let files = trackswing::write::write_all(&case, &result)?.files;

@@ -38,18 +38,12 @@ pub enum RegionError {
         what: String,
     },
     /// The box holds no cell centre of the grid, or too few.
-    #[error("{field} {region}: {what}; the model grid is {grid}, cell centres lon {w:.3}…{e:.3}, lat {s:.3}…{n:.3}", w = extent.0, s = extent.1, e = extent.2, n = extent.3)]
+    #[error("{field} {what}")]
     Misses {
         /// Where it was given.
         field: String,
-        /// The box.
-        region: Region,
-        /// What the box covers.
+        /// The box, what it covers, and the grid's size and cell-centre extent.
         what: String,
-        /// The grid, described.
-        grid: String,
-        /// The grid's cell-centre lon/lat box (west, south, east, north).
-        extent: (f64, f64, f64, f64),
     },
     /// The window could not be made a grid.
     #[error("{field}: {source}")]
@@ -223,12 +217,15 @@ pub struct Window {
 impl Window {
     /// The window of `grid` that covers `region`; `field` names where the region was given.
     pub fn of(region: Region, grid: &Grid, field: &str) -> Result<Self, RegionError> {
-        let misses = |what: String| RegionError::Misses {
-            field: field.into(),
-            region,
-            what,
-            grid: grid.describe(),
-            extent: grid.lonlat_bounds(),
+        let misses = |what: String| {
+            let (w, so, e, n) = grid.lonlat_bounds();
+            RegionError::Misses {
+                field: field.into(),
+                what: format!(
+                    "{region}: {what}; the model grid is {}, cell centres lon {w:.3}…{e:.3}, lat {so:.3}…{n:.3}",
+                    grid.describe()
+                ),
+            }
         };
         let gt = grid.georef.geotransform;
         let (first_row, rows, first_col, cols, lon_shift) = if grid.is_projected() {

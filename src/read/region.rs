@@ -521,4 +521,60 @@ mod tests {
             "{text}"
         );
     }
+
+    #[test]
+    fn projected_window_is_the_bounding_block_of_the_centres_in_the_box() {
+        use crate::grid::{Earth, MapKind, MapProjection};
+        let map = MapProjection {
+            kind: MapKind::LambertConformal {
+                lat_1: 40.0,
+                lat_2: 55.0,
+                lat_0: 45.0,
+                lon_0: -20.0,
+            },
+            earth: Earth {
+                a: 6_371_229.0,
+                b: 6_371_229.0,
+            },
+        };
+        let gt = [-1_250_000.0, 25_000.0, 0.0, 1_000_000.0, 0.0, -25_000.0];
+        let g = Grid::projected(100, 80, gt, map).unwrap();
+        let r = Region::parse("-25,42,-15,48", "--region").unwrap();
+        let w = Window::of(r, &g, "--region").unwrap();
+        let inside = |i: usize| r.holds(g.lon()[i], g.lat()[i]);
+        let rows = w.first_row..w.first_row + w.rows;
+        let cols = w.first_col..w.first_col + w.cols;
+        // Every centre in the box is in the block, and every edge row and column of the block
+        // holds one.
+        for i in (0..g.len()).filter(|&i| inside(i)) {
+            assert!(
+                rows.contains(&(i / g.nx)) && cols.contains(&(i % g.nx)),
+                "cell {i}"
+            );
+        }
+        for row in [rows.start, rows.end - 1] {
+            assert!(cols.clone().any(|c| inside(row * g.nx + c)), "row {row}");
+        }
+        for col in [cols.start, cols.end - 1] {
+            assert!(rows.clone().any(|r| inside(r * g.nx + col)), "col {col}");
+        }
+        // The projection's origin (20°W, 45°N) is x = y = 0 m by the definition of lat_0 and
+        // lon_0 (Snyder 1987, eq. 15-1 to 15-4): between columns 49 and 50 and rows 39 and 40.
+        assert!(
+            cols.contains(&49) && cols.contains(&50) && rows.contains(&39) && rows.contains(&40)
+        );
+        let sub = g
+            .window(w.first_row, w.rows, w.first_col, w.cols, w.lon_shift_deg)
+            .unwrap();
+        assert_eq!(
+            sub.georef.geotransform[0],
+            gt[0] + w.first_col as f64 * gt[1]
+        );
+        let first = w.first_row * g.nx + w.first_col;
+        assert_eq!(
+            (sub.lon()[0], sub.lat()[0]),
+            (g.lon()[first], g.lat()[first])
+        );
+        assert_eq!(sub.metric()[0], g.metric()[first]);
+    }
 }

@@ -4,7 +4,8 @@
 # package on PyPI (version 2.1.8, fetched by its fixed address and checked by SHA-256).
 #
 # Usage: scripts/real_global.sh TRACKSWING_BINARY WORK_DIR
-# Runs inspect and run on the file, then tests/ref/check_real_global.py compares the layers with
+# Runs inspect and run on the file (whole, and two --region windows), then
+# tests/ref/check_real_global.py compares the layers with
 # GDAL's own decoding of the same file (needs Debian's python3-gdal at /usr/bin/python3).
 set -euo pipefail
 bin=$(realpath "$1")
@@ -27,3 +28,10 @@ model="$work/model/global-2p5.grib2"
 grep -q "144×73 cells on lat/lon, 2.5° × 2.5°" "$work/inspect.txt" || { cat "$work/inspect.txt"; exit 1; }
 "$bin" run "$model" --cross 0 --along 0 --no-dry-air --out "$work/run" --quiet
 /usr/bin/python3 "$here/tests/ref/check_real_global.py" "$model" "$work/run"
+# Windows of the same file (`--region`): across the antimeridian (120°E…90°W, one raster with
+# longitudes 118.75…271.25) and over a continent; each checked against GDAL the same way, cell
+# by cell through the model cell under each output cell.
+"$bin" run "$model" --cross 0 --along 0 --no-dry-air --region=120,-75,-90,75 --out "$work/run-across" --quiet
+/usr/bin/python3 "$here/tests/ref/check_real_global.py" "$model" "$work/run-across"
+"$bin" run "$model" --cross 0 --along 0 --no-dry-air --region=-140,20,-50,75 --out "$work/run-continent" --quiet
+/usr/bin/python3 "$here/tests/ref/check_real_global.py" "$model" "$work/run-continent"

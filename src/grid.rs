@@ -743,16 +743,9 @@ impl Grid {
         }
     }
 
-    /// True on a lat/lon grid whose columns go once around the Earth (0…360° or −180…180°):
-    /// its last column's east neighbour is its first column.
-    pub fn spans_globe(&self) -> bool {
-        let gt = self.georef.geotransform;
-        !self.is_projected() && (self.nx as f64 * gt[1] - 360.0).abs() < gt[1] * 1e-3
-    }
-
     /// The block of `rows` rows from `first_row` and `cols` columns from `first_col` as a grid
     /// of its own, with the geotransform moved to the block's corner. On a grid that
-    /// [`Grid::spans_globe`], columns past the last continue with the first, their longitudes
+    /// [`Grid::wraps`], columns past the last continue with the first, their longitudes
     /// 360° on, and every longitude is moved by `lon_shift` (a multiple of 360°), so the block's
     /// longitudes increase monotonically (170…190 across the antimeridian). Coordinates and
     /// metric are copied from this grid, not recomputed, so a cell's numbers are the same bits

@@ -178,6 +178,37 @@ impl Region {
     }
 }
 
+/// True when a lat/lon cell centred at `lat` with rows `dlat` apart reaches past a pole: a row
+/// centred at ±90° on a global grid, whose cells no GeoTIFF can place (their edge would lie at
+/// ±91.25° on a 2.5° grid) and which are one point each.
+pub fn passes_pole(lat: f64, dlat: f64) -> bool {
+    lat.abs() + dlat.abs() / 2.0 > 90.0 + 1e-9
+}
+
+/// Rows of a lat/lon grid whose cells reach past a pole; 0 on projected grids.
+pub fn pole_rows(grid: &Grid) -> usize {
+    if grid.is_projected() {
+        return 0;
+    }
+    let gt = grid.georef.geotransform;
+    (0..grid.ny)
+        .filter(|&r| passes_pole(gt[3] + (r as f64 + 0.5) * gt[5], gt[5]))
+        .count()
+}
+
+/// The box a lat/lon grid covers, edges of its cells, for a window of the whole grid.
+pub fn whole(grid: &Grid) -> Option<Region> {
+    if grid.is_projected() {
+        return None;
+    }
+    let gt = grid.georef.geotransform;
+    Region::new(
+        [gt[0], -90.0, gt[0] + grid.nx as f64 * gt[1], 90.0],
+        "the model grid",
+    )
+    .ok()
+}
+
 /// The model grid a window was cut from, for the manifest.
 #[derive(Clone, Debug, PartialEq, serde::Serialize)]
 pub struct ModelGrid {
@@ -243,6 +274,7 @@ impl Window {
             let centre_lat = |r: usize| gt[3] + (r as f64 + 0.5) * gt[5];
             let in_rows: Vec<usize> = (0..grid.ny)
                 .filter(|&r| (region.south..=region.north).contains(&centre_lat(r)))
+                .filter(|&r| !passes_pole(centre_lat(r), gt[5]))
                 .collect();
             let (Some(&first_row), Some(&last_row)) = (in_rows.first(), in_rows.last()) else {
                 return Err(misses(
@@ -250,7 +282,7 @@ impl Window {
                 ));
             };
             let centre_lon = |c: usize| gt[0] + (c as f64 + 0.5) * gt[1];
-            let (first_col, cols, lon_shift) = if grid.spans_globe() {
+            let (first_col, cols, lon_shift) = if grid.wraps() {
                 // Every column's distance east of the west edge, modulo 360°: the columns in
                 // the box run on from the one nearest the west edge, around the seam if need be.
                 let east_of_west = |c: usize| (centre_lon(c) - region.west).rem_euclid(360.0);

@@ -162,9 +162,28 @@ pub fn open(
     warn: &dyn Fn(&str),
 ) -> Result<Box<dyn Source>, SourceError> {
     let whole = open_whole(member, warn)?;
-    Ok(match region {
-        None => whole,
-        Some((r, field)) => Box::new(RegionSource::new(whole, *r, field)?),
+    let grid = &whole.statics().grid;
+    let poles = super::region::pole_rows(grid);
+    if poles > 0 {
+        let gt = grid.georef.geotransform;
+        let edge = (0..grid.ny)
+            .map(|r| (gt[3] + (r as f64 + 0.5) * gt[5]).abs() + gt[5].abs() / 2.0)
+            .filter(|e| *e <= 90.0 + 1e-9)
+            .fold(0.0, f64::max);
+        warn(&format!(
+            "the model grid's {poles} row(s) centred at the poles are left out: their cells would \
+             reach past ±90° (to ±{:.4}°), which a GeoTIFF cannot hold, and each is one point; \
+             the layers reach ±{edge:.4}°",
+            90.0 + gt[5].abs() / 2.0,
+        ));
+    }
+    Ok(match (region, poles) {
+        (Some((r, field)), _) => Box::new(RegionSource::new(whole, *r, field)?),
+        (None, 0) => whole,
+        (None, _) => match super::region::whole(grid) {
+            Some(r) => Box::new(RegionSource::new(whole, r, "the model grid")?),
+            None => whole,
+        },
     })
 }
 

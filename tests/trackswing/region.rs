@@ -347,3 +347,68 @@ fn copy_dir(from: &Path, to: &Path) {
         }
     }
 }
+
+/// Regression, [trust] item 9: a global grid with rows centred at ±90° (2.5°, 144×73, as global
+/// models write them) gave GeoTIFFs reaching ±91.25°. The pole rows are left out of every layer,
+/// with a warning, and the other rows are the model's own cells. GeoTIFF's raster space: the
+/// geotransform's origin is the outer corner of the top-left cell (OGC 19-008r4, §B.4).
+#[test]
+fn pole_rows_of_a_global_grid_are_left_out_so_layers_stay_within_90_degrees() {
+    let d = tempfile::tempdir().unwrap();
+    let s = Synthetic {
+        nx: 144,
+        ny: 73,
+        lon0: -180.0,
+        lat0: 90.0,
+        d: 2.5,
+        ..Default::default()
+    };
+    let case = write_case(&d.path().join("case"), &s, "");
+    let out = d.path().join("out");
+    ok(&run(&case, &out, &["--cross", "0", "--along", "0"]));
+    let snow = read_geotiff(&out.join("liquid_baseline.tif")).unwrap();
+    assert_eq!((snow.width, snow.height), (144, 71));
+    let gt = snow.georef.geotransform;
+    // Rows centred 87.5…−87.5 with edges 88.75…−88.75.
+    assert_eq!(gt[3], 88.75);
+    assert_eq!(gt[3] + 71.0 * gt[5], -88.75);
+    let m = manifest(&out);
+    assert_eq!(m["region"]["first_row"], 1);
+    assert_eq!(m["region"]["rows"], 71);
+    let warned = m["warnings"].as_array().unwrap().iter().any(|w| {
+        w.as_str()
+            .unwrap()
+            .starts_with("the model grid's 2 row(s) centred at the poles are left out")
+    });
+    assert!(warned, "{:?}", m["warnings"]);
+    // The kept rows are the model's rows 1…71: the liquid (mm) is the sum of the steps'
+    // precipitation (kg m⁻² = mm) of the same cell.
+    let mut sum = vec![0.0f64; 144 * 73];
+    for k in 0..s.steps {
+        let step = read_geotiff(&d.path().join(format!("case/f/s_{k:02}.tif"))).unwrap();
+        let b = step
+            .descriptions
+            .iter()
+            .position(|n| n == "precipitation_amount")
+            .expect("the synthetic step holds its precipitation");
+        for (t, v) in sum.iter_mut().zip(&step.bands[b]) {
+            *t += f64::from(*v);
+        }
+    }
+    let liquid = &snow.bands[0];
+    let mut wet = 0;
+    for r in 0..71 {
+        for c in 0..144 {
+            let (w, f) = (f64::from(liquid[r * 144 + c]), sum[(r + 1) * 144 + c]);
+            assert!(
+                (w - f).abs() < 1e-3,
+                "row {r} col {c}: {w} mm, the model {f} mm"
+            );
+            wet += usize::from(w > 0.1);
+        }
+    }
+    assert!(
+        wet > 20,
+        "the synthetic storm is on the grid: {wet} wet cells"
+    );
+}

@@ -155,7 +155,7 @@ fn bust_prone_towns(out: &mut String, dir: &std::path::Path, su: &str) {
     }
     let _ = writeln!(
         out,
-        "bust-prone towns, ranked by bust score as in towns_bust.csv and report.html (likely range P90 − P10 over the snowfall as modelled, floored at 5 cm; {su}):"
+        "bust-prone towns, ranked by bust score as in towns_bust.csv and report.html (P90 − P10 spread over the snowfall as modelled, floored at 5 cm; {su}):"
     );
     let _ = writeln!(
         out,

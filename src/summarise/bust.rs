@@ -295,7 +295,7 @@ fn nearest_reaching(
 /// if the low tracks 40 km left; turns mostly to rain with the low 40 km left; 0.5–24 cm over
 /// all offsets run." The low and high clauses name the nearest offset that brings the town to
 /// its P10 (or below) and its P90 (or above): how little track error it takes to reach the
-/// ends of the likely range.
+/// ends of the P10–P90 spread.
 pub fn sentence(t: &TownDecision, scenarios: &[Scenario], units: Units) -> String {
     let (Some(s), Some(x)) = (t.snow, t.extremes) else {
         return "Missing in some track offsets (near the grid edge or where the model has no data), so no spread is given.".to_string();

@@ -411,7 +411,7 @@ pub fn write_report(dir: &Path) -> Result<PathBuf, ReportError> {
     if let Some(why) = not_computed_why("towns_bust.csv") {
         let _ = writeln!(h, "<p>Not computed: {}.</p></section>", escape(&why));
     } else {
-        h.push_str("<p class=\"note\">Ranked by bust score: the likely range P90 − P10 as a share of the snowfall as modelled (floored at 5 cm). Click a column heading to sort.</p>\n");
+        h.push_str("<p class=\"note\">Ranked by bust score: the P10–P90 spread as a share of the snowfall as modelled (floored at 5 cm). Click a column heading to sort.</p>\n");
         let cpath = dir.join("towns_bust.csv");
         let csv_bytes = read(&cpath)?;
         let mut rdr = csv::Reader::from_reader(csv_bytes.as_slice());
@@ -605,7 +605,7 @@ pub fn write_report(dir: &Path) -> Result<PathBuf, ReportError> {
         ))
     );
     h.push_str("<li><strong>Flip distance</strong>: the smallest track shift (√(cross² + along²)) at which the main precipitation type changes, or the snowfall halves or doubles (comparing amounts of at least 1 cm).</li>\
-<li><strong>Bust score</strong>: (P90 − P10) ÷ the snowfall as modelled (at least 5 cm). 1 means the likely range is as wide as the forecast itself.</li>\
+<li><strong>Bust score</strong>: (P90 − P10) ÷ the snowfall as modelled (at least 5 cm). 1 means the P10–P90 spread is as wide as the forecast itself.</li>\
 <li>The prior's σ should come from your own verification of track error at this lead time; the defaults are examples, not a climatology.</li>\
 </ul></section>\n");
     let _ = writeln!(

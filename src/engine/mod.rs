@@ -10,7 +10,8 @@
 //! threads. (Reading, hashing and writing run in parallel too, each in its own module, on data
 //! that no other task writes.)
 //!
-//! The rooms: this file orchestrates (prepare, run, the run's result and warnings); [`window`]
+//! The rooms: this file orchestrates (prepare, run); [`result`] what a run computed; [`error`]
+//! why one failed; [`warnings`] what it warns about once the totals are in; [`window`]
 //! the held steps and the read-ahead; [`wet`] the wet-cell index and the dry screen; [`kernel`]
 //! the per-cell physics; [`moisture`] the dry air below the cloud; [`track`] the storm's track
 //! and each scenario's displacement; [`budget`] whether a run fits in memory and in reasonable time.
@@ -26,168 +27,30 @@ use crate::case::Case;
 use crate::grid::Grid;
 use crate::progress::Progress;
 use crate::read::source::{open as open_source, Source};
-use crate::read::track_finder::FinderError;
-use crate::read::{
-    read_towns, FieldError, SourceError, StepLayout, Town, TownsError, Track, TrackError,
-};
+use crate::read::{read_towns, Town, Track};
 use crate::scenario::{scenario_product, Scenario, TimeSample};
-use chrono::{DateTime, Duration, Utc};
-use std::path::PathBuf;
+use chrono::Duration;
 
 pub mod budget;
+pub mod error;
 pub mod kernel;
 pub mod moisture;
+pub mod result;
 pub mod track;
+pub mod warnings;
 pub mod wet;
 pub mod window;
 pub use budget::{fits_in_memory, memory_estimate, scenario_budget, Budget};
+pub use error::EngineError;
 pub use kernel::{
     accumulate_cell, cell_column, sample_column, step_all_scenarios, BlockCounts, CellStep,
     Sampled, ScenarioStep, SourceAt,
 };
+pub use result::{RunResult, ShardUsed, Timings};
 pub use track::{case_track, scenario_shift};
+pub use warnings::{step_gap_warning, warn_about_totals};
 pub use wet::{GridReach, WetRows};
 pub use window::{fetch, StepWindow};
-
-/// Why a run failed. Nothing is written when a run fails.
-#[derive(Debug, thiserror::Error)]
-pub enum EngineError {
-    /// Model fields.
-    #[error(transparent)]
-    Field(#[from] FieldError),
-    /// Model fields from any source.
-    #[error(transparent)]
-    Source(#[from] SourceError),
-    /// Model fields of one time step.
-    #[error("step {step}: {source}")]
-    StepField {
-        /// Step number (1-based).
-        step: usize,
-        /// What is wrong with its file (boxed: it is large and rare).
-        source: Box<SourceError>,
-    },
-    /// The track could not be found from sea-level pressure.
-    #[error("{path}: finding the track: {source}")]
-    Finder {
-        /// The first model file.
-        path: PathBuf,
-        /// The cause.
-        source: FinderError,
-    },
-    /// The track.
-    #[error(transparent)]
-    Track(#[from] TrackError),
-    /// The towns.
-    #[error(transparent)]
-    Towns(#[from] TownsError),
-    /// The track does not cover a step.
-    #[error("{path}: {what}; the track must cover every step when offsets other than 0 are run")]
-    TrackTooShort {
-        /// Track file.
-        path: PathBuf,
-        /// Which step it misses.
-        what: String,
-    },
-    /// The track never enters the grid.
-    #[error(
-        "{path}: no track position lies inside the grid ({extent}); is the track for this case?"
-    )]
-    TrackOutsideGrid {
-        /// Track file.
-        path: PathBuf,
-        /// The grid's extent.
-        extent: String,
-    },
-    /// Steps out of order or with different levels.
-    #[error("{path}: {what}")]
-    Steps {
-        /// Step file.
-        path: PathBuf,
-        /// What is wrong.
-        what: String,
-    },
-    /// The run would not fit in memory.
-    #[error("the run needs about {need_mib} MiB ({scenarios} scenarios × {cells} cells) but only {avail_mib} MiB of memory is available; run fewer offsets, a coarser range, or run the case in shards (`run --shard K/N` for K = 1…N, each holding an N-th of the scenarios, then `merge`)")]
-    TooBig {
-        /// Estimated need, MiB.
-        need_mib: u64,
-        /// Available, MiB.
-        avail_mib: u64,
-        /// Scenarios.
-        scenarios: usize,
-        /// Cells.
-        cells: usize,
-    },
-    /// More scenarios than a run takes without `--force`.
-    #[error("{count} scenarios requested, more than the {limit} a run takes without --force: {cost}; {advice}; give --force to run them all anyway")]
-    TooManyScenarios {
-        /// Scenarios requested.
-        count: usize,
-        /// The limit.
-        limit: usize,
-        /// The estimated time and memory, in words.
-        cost: String,
-        /// What would make it smaller, in words.
-        advice: String,
-    },
-    /// The thread pool could not be built.
-    #[error("cannot start {0} worker threads")]
-    Threads(usize),
-}
-
-/// Everything a run computed, ready to summarise and write.
-pub struct RunResult {
-    /// The grid.
-    pub grid: Grid,
-    /// Terrain, m.
-    pub terrain: Vec<f32>,
-    /// Scenarios, in band order; index 0..n.
-    pub scenarios: Vec<Scenario>,
-    /// Index of the baseline (0, 0) in `scenarios`.
-    pub baseline: usize,
-    /// Totals per scenario.
-    pub totals: Vec<Totals>,
-    /// Valid time of every step.
-    pub valid_times: Vec<DateTime<Utc>>,
-    /// The modelled low centre (lon, lat) at every step, where the track covers it.
-    pub centres: Vec<Option<(f64, f64)>>,
-    /// Towns.
-    pub towns: Vec<Town>,
-    /// The track, if the case has one.
-    pub track: Option<Track>,
-    /// The layout of the step fields (levels found).
-    pub layout: StepLayout,
-    /// Where the time went.
-    pub timings: Timings,
-    /// The shard files the totals were merged from (none for a run in one piece).
-    pub shards: Vec<ShardUsed>,
-    /// What the run warned about, in order: the layers' manifest and report carry them.
-    pub warnings: Vec<String>,
-    /// The window of the model grid the run read, when the case gives a region.
-    pub window: Option<crate::read::region::Window>,
-}
-
-/// A shard file a run's totals came from, for the manifest.
-#[derive(Clone, Debug, PartialEq, serde::Serialize)]
-pub struct ShardUsed {
-    /// The file as given.
-    pub file: String,
-    /// Which shard, `K/N`.
-    pub shard: String,
-    /// CRC-32 of the file's totals, hex.
-    pub body_crc32: String,
-}
-
-/// Wall time of the engine's stages, seconds.
-#[derive(Clone, Copy, Debug, Default, PartialEq)]
-pub struct Timings {
-    /// Waiting for the inputs to be read and checked: the first step, any step read ahead of
-    /// time for a timing offset, and whatever part of the next step's read the previous step's
-    /// scenarios did not cover (steps are read beside the engine).
-    pub read_s: f64,
-    /// Shifting, diagnosing and accumulating every scenario.
-    pub compute_s: f64,
-}
 
 /// Where a point must lie to have a value: the hull of the cell centres ([`Grid::index_of`]),
 /// the same test the message describes, so a point it refuses never lies inside what it says.
@@ -551,88 +414,6 @@ pub fn run_prepared(
     })
 }
 
-/// Warns about cells sampled beyond the grid edge, cells a method could not diagnose and steps
-/// a timing offset left uncovered (scenarios with empty totals, outside a shard, are left out).
-pub fn warn_about_totals(
-    case: &Case,
-    scenarios: &[Scenario],
-    totals: &[Totals],
-    steps: usize,
-    n: usize,
-    progress: &dyn Progress,
-) {
-    let run = totals.iter().filter(|t| !t.is_empty()).count();
-    let cell_steps = (n * steps) as f64;
-    // In shares of the map's cells the scenario's band lacks (not of cell-steps): what a user
-    // opening the band sees. The summaries' share is the prior-coverage warning's.
-    let edge: Vec<(usize, usize)> = totals
-        .iter()
-        .enumerate()
-        .filter(|(_, t)| t.outside > 0)
-        .map(|(i, t)| (i, t.snowfall.iter().filter(|v| v.is_nan()).count()))
-        .collect();
-    if let Some(&(worst, cells)) = edge.iter().max_by_key(|e| e.1) {
-        progress.warn(&format!(
-            "{} of {} scenarios took some values from beyond the grid edge (up to {:.1} % of the map's cells, at {}); those cells are nodata in those scenarios' bands",
-            edge.len(),
-            run,
-            100.0 * cells as f64 / n.max(1) as f64,
-            scenarios[worst].label()
-        ));
-    }
-    let undefined: u64 = totals.iter().map(|t| t.undefined).sum();
-    if undefined > 0 {
-        progress.warn(&format!(
-            "the {} method is undefined at {undefined} cell-steps over all scenarios ({:.2} %; e.g. ground above 850 hPa for partial thickness, where no 850–700 or 1000–500 hPa thickness exists); those cells are nodata in those scenarios",
-            case.methods.ptype.name(),
-            100.0 * undefined as f64 / (cell_steps * run as f64)
-        ));
-    }
-    for h in distinct(scenarios.iter().map(|s| s.timing_h)) {
-        if let Some(t) = scenarios
-            .iter()
-            .zip(totals)
-            .find(|(s, t)| s.timing_h == h && !t.is_empty())
-            .map(|(_, t)| t)
-            .filter(|t| t.uncovered_steps > 0)
-        {
-            progress.warn(&format!(
-                "timing {h:+} h: {} of {} steps sample a time {} the model's steps; nothing is counted for them, so those scenarios' totals cover a shorter window",
-                t.uncovered_steps,
-                steps,
-                if h > 0.0 { "before" } else { "after" }
-            ));
-        }
-    }
-}
-
-/// A warning when a step is longer than the one before it: a step file left out of the case
-/// (or a glob that missed one) loses that file's precipitation from every total without any
-/// other sign, so a forecaster should look. Models that change their output interval (hourly,
-/// then three-hourly) also trigger it, once, which is worth a glance too.
-pub fn step_gap_warning(times: &[DateTime<Utc>]) -> Option<String> {
-    let gaps: Vec<String> = times
-        .windows(3)
-        .enumerate()
-        .filter(|(_, w)| w[2] - w[1] > w[1] - w[0])
-        .map(|(i, w)| {
-            format!(
-                "step {} ({}) comes {} h after the step before it, the steps before it {} h apart",
-                i + 3,
-                w[2].format("%Y-%m-%dT%H:%MZ"),
-                (w[2] - w[1]).num_minutes() as f64 / 60.0,
-                (w[1] - w[0]).num_minutes() as f64 / 60.0
-            )
-        })
-        .collect();
-    (!gaps.is_empty()).then(|| {
-        format!(
-            "{}; if a step file is missing, its precipitation is missing from every total",
-            gaps.join("; ")
-        )
-    })
-}
-
 /// A duration of `h` hours, to the millisecond.
 pub fn hours(h: f64) -> Duration {
     Duration::milliseconds((h * 3_600_000.0).round() as i64)
@@ -647,22 +428,4 @@ fn distinct(values: impl Iterator<Item = f64>) -> Vec<f64> {
         }
     }
     out
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn a_longer_step_is_reported() {
-        let t = |h: i64| DateTime::<Utc>::from_timestamp(h * 3600, 0).unwrap();
-        assert_eq!(step_gap_warning(&[t(0), t(2), t(4), t(6)]), None);
-        // Steps that get shorter are fine; a longer one is named with its lengths.
-        assert_eq!(step_gap_warning(&[t(0), t(3), t(4), t(5)]), None);
-        let w = step_gap_warning(&[t(0), t(2), t(4), t(8), t(10)]).unwrap();
-        assert!(
-            w.starts_with("step 4 (1970-01-01T08:00Z) comes 4 h after the step before it, the steps before it 2 h apart"),
-            "{w}"
-        );
-    }
 }

@@ -1,0 +1,62 @@
+//! What a run computed, shared by the run in one piece and the merge of shards: the totals per
+//! scenario and everything the summaries and writers need beside them.
+
+use crate::accumulate::Totals;
+use crate::grid::Grid;
+use crate::read::{StepLayout, Town, Track};
+use crate::scenario::Scenario;
+use chrono::{DateTime, Utc};
+
+/// Everything a run computed, ready to summarise and write.
+pub struct RunResult {
+    /// The grid.
+    pub grid: Grid,
+    /// Terrain, m.
+    pub terrain: Vec<f32>,
+    /// Scenarios, in band order; index 0..n.
+    pub scenarios: Vec<Scenario>,
+    /// Index of the baseline (0, 0) in `scenarios`.
+    pub baseline: usize,
+    /// Totals per scenario.
+    pub totals: Vec<Totals>,
+    /// Valid time of every step.
+    pub valid_times: Vec<DateTime<Utc>>,
+    /// The modelled low centre (lon, lat) at every step, where the track covers it.
+    pub centres: Vec<Option<(f64, f64)>>,
+    /// Towns.
+    pub towns: Vec<Town>,
+    /// The track, if the case has one.
+    pub track: Option<Track>,
+    /// The layout of the step fields (levels found).
+    pub layout: StepLayout,
+    /// Where the time went.
+    pub timings: Timings,
+    /// The shard files the totals were merged from (none for a run in one piece).
+    pub shards: Vec<ShardUsed>,
+    /// What the run warned about, in order: the layers' manifest and report carry them.
+    pub warnings: Vec<String>,
+    /// The window of the model grid the run read, when the case gives a region.
+    pub window: Option<crate::read::region::Window>,
+}
+
+/// A shard file a run's totals came from, for the manifest.
+#[derive(Clone, Debug, PartialEq, serde::Serialize)]
+pub struct ShardUsed {
+    /// The file as given.
+    pub file: String,
+    /// Which shard, `K/N`.
+    pub shard: String,
+    /// CRC-32 of the file's totals, hex.
+    pub body_crc32: String,
+}
+
+/// Wall time of the engine's stages, seconds.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct Timings {
+    /// Waiting for the inputs to be read and checked: the first step, any step read ahead of
+    /// time for a timing offset, and whatever part of the next step's read the previous step's
+    /// scenarios did not cover (steps are read beside the engine).
+    pub read_s: f64,
+    /// Shifting, diagnosing and accumulating every scenario.
+    pub compute_s: f64,
+}

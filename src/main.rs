@@ -100,7 +100,7 @@ enum Plan<'a> {
 /// What a run writes: the layers, one shard's totals, or the layers from shards' totals.
 enum Mode<'a> {
     Layers,
-    Shard(trackswing::engine::Shard),
+    Shard(trackswing::shard::Shard),
     Merge(&'a [PathBuf]),
 }
 
@@ -190,7 +190,7 @@ fn run_shard(
     case: &Case,
     threads: usize,
     progress: &console::Bar,
-    shard: trackswing::engine::Shard,
+    shard: trackswing::shard::Shard,
     quiet: bool,
 ) -> Result<(), Failure> {
     let started = std::time::Instant::now();
@@ -280,7 +280,7 @@ fn run_plan(a: &args::RunArgs) -> Result<(), Failure> {
     let plan = plan_of(&a.read)?;
     let mode = match &a.shard {
         None => Mode::Layers,
-        Some(text) => Mode::Shard(trackswing::engine::Shard::parse(text).ok_or_else(|| {
+        Some(text) => Mode::Shard(trackswing::shard::Shard::parse(text).ok_or_else(|| {
             Failure::Usage(anyhow::anyhow!(
                 "--shard '{text}': expected K/N with 1 ≤ K ≤ N, e.g. 2/4 for the second of four shards"
             ))

@@ -93,7 +93,7 @@ fn run_line(
 pub fn shard_summary(
     case: &Case,
     r: &RunResult,
-    shard: trackswing::engine::Shard,
+    shard: trackswing::shard::Shard,
     path: &std::path::Path,
     bar: &Bar,
     took: std::time::Duration,

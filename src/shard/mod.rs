@@ -26,7 +26,7 @@
 
 use crate::accumulate::Totals;
 use crate::case::Case;
-use crate::engine::{self, EngineError, Prepared, RunResult, Shard, ShardUsed, Timings};
+use crate::engine::{self, EngineError, Prepared, RunResult, ShardUsed, Timings};
 use crate::progress::Progress;
 use crate::read::StepLayout;
 use crate::scenario::Scenario;
@@ -35,6 +35,9 @@ use rayon::prelude::*;
 use sha2::{Digest, Sha256};
 use std::io::{BufReader, BufWriter, Read, Seek, SeekFrom, Write};
 use std::path::{Path, PathBuf};
+
+pub mod select;
+pub use select::Shard;
 
 /// The first line of a shard file.
 pub const MAGIC: &[u8] = b"trackswing shard 1\n";

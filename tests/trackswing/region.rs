@@ -6,7 +6,7 @@
 //! Reference: the run on the whole model grid, read back with the crate's GeoTIFF reader (whose
 //! output is checked against GDAL in the geotiff module's tests).
 
-use super::support::{bin, write_case, Synthetic};
+use super::support::{bin, copy_dir, write_case, Synthetic};
 use std::path::{Path, PathBuf};
 use trackswing::geotiff::read_geotiff;
 
@@ -333,19 +333,6 @@ fn region_case(line: &str) -> String {
 fn copy_demo(to: &Path) {
     let from = demo_case().parent().unwrap().to_path_buf();
     copy_dir(&from, to);
-}
-
-fn copy_dir(from: &Path, to: &Path) {
-    std::fs::create_dir_all(to).unwrap();
-    for e in std::fs::read_dir(from).unwrap() {
-        let p = e.unwrap().path();
-        let q = to.join(p.file_name().unwrap());
-        if p.is_dir() {
-            copy_dir(&p, &q);
-        } else {
-            std::fs::copy(&p, &q).unwrap();
-        }
-    }
 }
 
 /// Regression, [trust] item 9: a global grid with rows centred at ±90° (2.5°, 144×73, as global

@@ -207,6 +207,20 @@ folder = "out"
     case
 }
 
+/// Copies a folder and everything under it.
+pub fn copy_dir(from: &Path, to: &Path) {
+    std::fs::create_dir_all(to).unwrap();
+    for e in std::fs::read_dir(from).unwrap() {
+        let p = e.unwrap().path();
+        let q = to.join(p.file_name().unwrap());
+        if p.is_dir() {
+            copy_dir(&p, &q);
+        } else {
+            std::fs::copy(&p, &q).unwrap();
+        }
+    }
+}
+
 pub fn bin() -> std::process::Command {
     std::process::Command::new(env!("CARGO_BIN_EXE_trackswing"))
 }

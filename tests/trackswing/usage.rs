@@ -2,7 +2,7 @@
 //! the right column, where `demo` finds its case, and what the vector layers and map captions
 //! say. Regression tests for [trust] item 9 (each fails on the code before its fix).
 
-use super::support::bin;
+use super::support::{bin, copy_dir};
 use std::path::Path;
 
 fn demo_case() -> std::path::PathBuf {
@@ -118,19 +118,6 @@ fn demo_is_found_beside_the_binary_or_named_where_it_was_looked_for() {
         .unwrap();
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     assert!(elsewhere.join("demo-out/manifest.json").is_file());
-}
-
-fn copy_dir(from: &Path, to: &Path) {
-    std::fs::create_dir_all(to).unwrap();
-    for e in std::fs::read_dir(from).unwrap() {
-        let p = e.unwrap().path();
-        let q = to.join(p.file_name().unwrap());
-        if p.is_dir() {
-            copy_dir(&p, &q);
-        } else {
-            std::fs::copy(&p, &q).unwrap();
-        }
-    }
 }
 
 /// Regression, [trust] item 9: every scenario axis is a numeric property of the vector layers

@@ -231,7 +231,8 @@ fn main() -> anyhow::Result<()> {
         window: None,
     };
     let started = Instant::now();
-    let files = trackswing::write::write_all(&case, &result)?.files;
+    let summary = trackswing::summarise::summary::summarise(&case, &result)?;
+    let files = trackswing::write::write_all(&case, &result, &summary)?.files;
     let secs = started.elapsed().as_secs_f64();
     std::fs::write(
         expected_path(&out),

@@ -169,7 +169,10 @@ fn run_case(
         }
     };
     let clock = std::time::Instant::now();
-    let outcome = trackswing::write::write_all(&case, &result)
+    let summary = trackswing::summarise::summary::summarise(&case, &result)
+        .with_context(|| format!("{}: the track-error weights", case.path.display()))
+        .map_err(Failure::Input)?;
+    let outcome = trackswing::write::write_all(&case, &result, &summary)
         .with_context(|| format!("writing the layers into {}", case.out_dir.display()))
         .map_err(Failure::Output)?;
     if !common.quiet {

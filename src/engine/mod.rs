@@ -47,7 +47,7 @@ pub use kernel::{
     accumulate_cell, cell_column, sample_column, step_all_scenarios, BlockCounts, CellStep,
     Sampled, ScenarioStep, SourceAt,
 };
-pub use result::{RunResult, ShardUsed, Timings};
+pub use result::{Computed, RunResult, ShardUsed, Timings};
 pub use track::{case_track, scenario_shift};
 pub use warnings::{step_gap_warning, warn_about_totals};
 pub use wet::{GridReach, WetRows};
@@ -351,26 +351,22 @@ pub fn run_prepared(
     let valid_times = std::mem::take(&mut window.times);
     let layout = window.layout.take().expect("a case has at least one step");
     drop(window);
-    if let Some(w) = step_gap_warning(&valid_times) {
-        progress.warn(&w);
-    }
-    warn_about_totals(case, &scenarios, &totals, valid_times.len(), n, progress);
-    Ok(RunResult {
-        grid,
-        terrain: statics.terrain.clone(),
+    let prepared = Prepared {
+        source,
+        track,
+        towns,
         scenarios,
         baseline,
+    };
+    let computed = Computed {
         totals,
         valid_times,
         centres,
-        towns,
-        track,
         layout,
         timings,
         shards: Vec::new(),
-        warnings: Vec::new(),
-        window: source.window().cloned(),
-    })
+    };
+    Ok(RunResult::assemble(case, prepared, computed, progress))
 }
 
 /// A duration of `h` hours, to the millisecond.

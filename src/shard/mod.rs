@@ -26,7 +26,7 @@
 
 use crate::accumulate::Totals;
 use crate::case::Case;
-use crate::engine::{self, EngineError, Prepared, RunResult, ShardUsed, Timings};
+use crate::engine::{self, Computed, EngineError, Prepared, RunResult, ShardUsed, Timings};
 use crate::progress::Progress;
 use crate::read::StepLayout;
 use crate::scenario::Scenario;
@@ -662,23 +662,7 @@ fn assemble_recorded(
         .into_iter()
         .map(|t| t.expect("coverage checked"))
         .collect();
-    if let Some(w) = engine::step_gap_warning(&valid_times) {
-        progress.warn(&w);
-    }
-    engine::warn_about_totals(case, scenarios, &totals, valid_times.len(), n, progress);
-    let Prepared {
-        source,
-        track,
-        towns,
-        scenarios,
-        baseline,
-    } = prepared;
-    let statics = source.statics();
-    Ok(RunResult {
-        grid: statics.grid.clone(),
-        terrain: statics.terrain.clone(),
-        scenarios,
-        baseline,
+    let computed = Computed {
         totals,
         valid_times,
         centres: first
@@ -686,8 +670,6 @@ fn assemble_recorded(
             .iter()
             .map(|c| c.map(|[a, b]| (a, b)))
             .collect(),
-        towns,
-        track,
         layout: StepLayout::new(first.levels_pa.clone()),
         timings,
         shards: paths
@@ -699,9 +681,8 @@ fn assemble_recorded(
                 body_crc32: format!("{:08x}", h.body_crc32),
             })
             .collect(),
-        warnings: Vec::new(),
-        window: source.window().cloned(),
-    })
+    };
+    Ok(RunResult::assemble(case, prepared, computed, progress))
 }
 
 #[cfg(test)]

@@ -16,6 +16,8 @@ pub mod ice;
 pub mod quantiles;
 pub mod scope;
 pub mod sensitivity;
+pub mod summary;
+pub mod types;
 pub mod weights;
 
 use crate::accumulate::Totals;

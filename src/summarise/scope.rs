@@ -85,27 +85,6 @@ impl Scope {
             _ => None,
         }
     }
-
-    /// Writes a layer through `write` when the run can compute it; otherwise records it in
-    /// `skipped` and returns `None`.
-    pub fn gate<T, E>(
-        &self,
-        n: Needs,
-        layer: &str,
-        skipped: &mut Vec<NotComputed>,
-        write: impl FnOnce() -> Result<T, E>,
-    ) -> Result<Option<T>, E> {
-        match self.missing(n) {
-            Some(reason) => {
-                skipped.push(NotComputed {
-                    layer: layer.into(),
-                    reason: reason.into(),
-                });
-                Ok(None)
-            }
-            None => write().map(Some),
-        }
-    }
 }
 
 #[cfg(test)]
@@ -120,12 +99,6 @@ mod tests {
         for n in [Needs::Cross, Needs::Along, Needs::Track, Needs::Comparison] {
             assert!(s.missing(n).is_some(), "{n:?}");
         }
-        let mut skipped = Vec::new();
-        let wrote: Result<Option<u8>, ()> = s.gate(Needs::Track, "x.tif", &mut skipped, || {
-            panic!("not written")
-        });
-        assert_eq!(wrote, Ok(None));
-        assert_eq!(skipped[0].layer, "x.tif");
         let full = Scope::of(&scenario_set(&[-10.0, 0.0, 10.0], &[-10.0, 0.0, 10.0]));
         for n in [Needs::Cross, Needs::Along, Needs::Track, Needs::Comparison] {
             assert!(full.missing(n).is_none(), "{n:?}");

@@ -1,49 +1,30 @@
 //! Decision layers (GeoTIFF): the weighted mean, P10/P50/P90 and threshold probabilities of
 //! snowfall and ice accretion, the sensitivity to the track, and the flip distance.
 //!
-//! Memory: each family of layers is computed from the totals in place (one cell's scenario
-//! values at a time), written, and dropped before the next; only what the quicklook maps need
-//! (P90 and the flip layers) is handed back.
+//! The layers are computed by the summarise stage ([`crate::summarise::summary`]); this module
+//! converts them to the output units and writes them.
 
 use super::{write_atomic, Kind, WriteError, Written};
 use crate::case::Units;
 use crate::engine::RunResult;
 use crate::geotiff::{write_cog, BandSpec, CogOptions, SampleEncoding, WriteOptions};
 use crate::render::legend;
-use crate::summarise::coverage::PriorCoverage;
-use crate::summarise::ice::ice_accretion;
-use crate::summarise::quantiles::{distribution, DistributionLayers};
-use crate::summarise::scope::{Needs, NotComputed, Scope};
-use crate::summarise::sensitivity::{flip_layers, sensitivity_layer, Axis, FlipLayers, PER_KM};
+use crate::summarise::quantiles::DistributionLayers;
+use crate::summarise::scope::{Needs, NotComputed};
+use crate::summarise::sensitivity::PER_KM;
+use crate::summarise::summary::Summary;
 use std::path::Path;
-
-/// What the decision layers hand on to the quicklook maps (`None` where the run could not
-/// compute them).
-pub struct MapInputs {
-    /// Snowfall P90, mm.
-    pub snow_p90: Option<Vec<f32>>,
-    /// Flip layers.
-    pub flip: Option<FlipLayers>,
-}
 
 /// Settings of the decision layers.
 pub struct DecisionSettings<'a> {
     /// Output units.
     pub units: Units,
-    /// Normalised weight per scenario.
-    pub weights: &'a [f64],
-    /// Where the prior is known well enough to summarise.
-    pub coverage: &'a PriorCoverage,
     /// Snowfall thresholds, output snow units.
     pub snow_thresholds: &'a [f64],
     /// Ice thresholds, output liquid units.
     pub ice_thresholds: &'a [f64],
     /// Dataset metadata for every GeoTIFF.
     pub meta: &'a [(String, String)],
-    /// Which axes the run varied.
-    pub scope: Scope,
-    /// The period the totals cover, in words.
-    pub period: &'a str,
 }
 
 struct Band {
@@ -106,7 +87,7 @@ fn one(description: String, data: Vec<f32>, units: &str) -> Band {
     }
 }
 
-/// Writes the mean / P10 / P50 / P90 / exceedance family of one quantity; returns P90 (mm).
+/// Writes the mean / P10 / P50 / P90 / exceedance family of one quantity.
 #[allow(clippy::too_many_arguments)]
 fn write_family(
     dir: &Path,
@@ -118,9 +99,9 @@ fn write_family(
     unit: &str,
     to_unit: impl Fn(f32) -> f32,
     thresholds: &[f64],
-    d: DistributionLayers,
+    d: &DistributionLayers,
     out: &mut Vec<Written>,
-) -> Result<Vec<f32>, WriteError> {
+) -> Result<(), WriteError> {
     let conv = |v: &[f32]| v.iter().map(|x| to_unit(*x)).collect::<Vec<f32>>();
     out.push(write_bands(
         dir,
@@ -145,10 +126,10 @@ fn write_family(
     }
     let bands = thresholds
         .iter()
-        .zip(d.exceedance)
+        .zip(&d.exceedance)
         .map(|(t, data)| Band {
             description: legend::probability_label(what, *t, unit),
-            data,
+            data: data.clone(),
             metadata: vec![
                 ("threshold".into(), legend::threshold_text(*t)),
                 ("threshold_units".into(), unit.into()),
@@ -168,26 +149,27 @@ fn write_family(
         ),
         bands,
     )?);
-    let [_, _, p90] = d.quantiles;
-    Ok(p90)
+    Ok(())
 }
 
-/// Writes every decision raster the run can compute; returns what was written, what the maps
-/// need, and what was not computed (with the reason).
+/// Writes every decision raster the run computed; returns what was written and what was not
+/// computed (with the reason).
 pub fn write_decision_rasters(
     dir: &Path,
     r: &RunResult,
+    sum: &Summary,
     s: &DecisionSettings,
-) -> Result<(Vec<Written>, MapInputs, Vec<NotComputed>), WriteError> {
+) -> Result<(Vec<Written>, Vec<NotComputed>), WriteError> {
     let u = s.units;
     let (su, lu) = (u.snow_unit(), u.liquid_unit());
     let mut out = Vec::new();
     let mut skipped = Vec::new();
-    let min = s.coverage.min;
+    let min = sum.coverage.min;
 
-    if let Some(reason) = s.scope.missing(Needs::Track) {
+    let Some(d) = &sum.decisions else {
         // No track offsets: the prior has nothing to weigh, and every layer below is about
         // track error.
+        let reason = sum.scope.missing(Needs::Track).unwrap_or_default();
         for layer in [
             "prior_coverage.tif",
             "snowfall_mean.tif",
@@ -209,14 +191,10 @@ pub fn write_decision_rasters(
                 reason: reason.into(),
             });
         }
-        let none = MapInputs {
-            snow_p90: None,
-            flip: None,
-        };
-        return Ok((out, none, skipped));
-    }
+        return Ok((out, skipped));
+    };
 
-    let share: Vec<f32> = s.coverage.share.iter().map(|v| *v as f32).collect();
+    let share: Vec<f32> = sum.coverage.share.iter().map(|v| *v as f32).collect();
     let what = format!("Share (0–1) of the track-error prior's weight carried by the scenarios with a total at each cell (the others took values from beyond the grid edge); the weighted summaries and min/max/range are computed over those scenarios, weights renormalised, where it is at least {min}, and are nodata below");
     let mut band = one("share of the prior's weight with data".into(), share, "1");
     band.metadata.push(("min_coverage".into(), min.to_string()));
@@ -230,76 +208,69 @@ pub fn write_decision_rasters(
         vec![band],
     )?);
 
-    let snow_mm: Vec<f64> = s.snow_thresholds.iter().map(|t| u.snow_to_mm(*t)).collect();
-    let d = distribution(&r.totals, s.weights, |t, i| t.snowfall[i], &snow_mm, min);
-    let snow_p90 = write_family(
+    let period = sum.period_words.as_str();
+    write_family(
         dir,
         r,
         s.meta,
-        s.period,
+        period,
         "snowfall",
         "snowfall",
         su,
         |v| u.snow(v),
         s.snow_thresholds,
-        d,
+        &d.snow,
         &mut out,
     )?;
-
-    let ice_mm: Vec<f64> = s
-        .ice_thresholds
-        .iter()
-        .map(|t| u.liquid_to_mm(*t))
-        .collect();
-    let d = distribution(&r.totals, s.weights, ice_accretion, &ice_mm, min);
     write_family(
         dir,
         r,
         s.meta,
-        s.period,
+        period,
         "ice_accretion",
         "ice accretion",
         lu,
         |v| u.liquid(v),
         s.ice_thresholds,
-        d,
+        &d.ice,
         &mut out,
     )?;
 
     let per = format!("{su} per {PER_KM} km");
-    for (axis, needs, file, words) in [
+    for (layer, needs, file, words) in [
         (
-            Axis::Cross,
+            &d.sensitivity_cross,
             Needs::Cross,
             "snowfall_sensitivity_cross.tif",
             "across the track (positive: more snow if the low tracks further left)",
         ),
         (
-            Axis::Along,
+            &d.sensitivity_along,
             Needs::Along,
             "snowfall_sensitivity_along.tif",
             "along the track (positive: more snow if the low runs ahead)",
         ),
     ] {
-        let written = s.scope.gate(needs, file, &mut skipped, || {
-            let layer = sensitivity_layer(&r.totals, &r.scenarios, r.baseline, axis, |t, i| {
-                t.snowfall[i]
+        let Some(layer) = layer else {
+            skipped.push(NotComputed {
+                layer: file.into(),
+                reason: sum.scope.missing(needs).unwrap_or_default().into(),
             });
-            let data = layer.iter().map(|v| u.snow(*v)).collect();
-            write_bands(
-                dir,
-                r,
-                s.meta,
-                file,
-                &per,
-                &format!("Change of snowfall per {PER_KM} km of track shift at the model as issued, {words}; totals over {}", s.period),
-                vec![one(format!("snowfall change per {PER_KM} km, {words}"), data, &per)],
-            )
-        })?;
-        out.extend(written);
+            continue;
+        };
+        let data = layer.iter().map(|v| u.snow(*v)).collect();
+        out.push(write_bands(
+            dir,
+            r,
+            s.meta,
+            file,
+            &per,
+            &format!("Change of snowfall per {PER_KM} km of track shift at the model as issued, {words}; totals over {period}"),
+            vec![one(format!("snowfall change per {PER_KM} km, {words}"), data, &per)],
+        )?);
     }
 
-    let flip = flip_layers(&r.totals, &r.scenarios, r.baseline);
+    let flip = &d.flip;
     let km = |d: &str, v: &[f32]| one(d.into(), v.to_vec(), "km");
     let mut kind = one(
         "what flips: 1 dominant type changes, 2 snowfall halves, 3 snowfall doubles, 0 nothing within the offsets run".into(),
@@ -316,7 +287,7 @@ pub fn write_decision_rasters(
         s.meta,
         "flip_distance.tif",
         "km",
-        &format!("Smallest track shift (√(cross² + along²), km) at which the dominant precipitation type changes or the snowfall halves or doubles (each floored at 1 cm); band 2/3 give that shift's cross/along offset, band 4 what flips; nodata where nothing flips within the offsets run; totals over {}", s.period),
+        &format!("Smallest track shift (√(cross² + along²), km) at which the dominant precipitation type changes or the snowfall halves or doubles (each floored at 1 cm); band 2/3 give that shift's cross/along offset, band 4 what flips; nodata where nothing flips within the offsets run; totals over {period}"),
         vec![
             km("flip distance, km", &flip.distance_km),
             km("cross-track offset of the flip, km (positive left)", &flip.cross_km),
@@ -324,9 +295,5 @@ pub fn write_decision_rasters(
             kind,
         ],
     )?);
-    let maps = MapInputs {
-        snow_p90: Some(snow_p90),
-        flip: Some(flip),
-    };
-    Ok((out, maps, skipped))
+    Ok((out, skipped))
 }

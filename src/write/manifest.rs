@@ -99,6 +99,8 @@ pub struct About<'a> {
     pub not_computed: &'a [NotComputed],
     /// The period the totals cover.
     pub period: Option<&'a Period>,
+    /// Normalised weight per scenario.
+    pub weights: &'a [f64],
 }
 
 #[derive(Serialize)]
@@ -171,7 +173,6 @@ pub fn write_manifest(
             })
         })
         .collect::<Result<Vec<Input>, WriteError>>()?;
-    let weights = crate::summarise::weights::scenario_weights(&case.prior, &r.scenarios)?;
     let decisions = serde_json::json!({
         "track_error_prior": &case.prior,
         "track_error_prior_note": "σ (or the explicit weights) should come from the user's own verification of track error at this lead time; the defaults are examples, not a climatology",
@@ -305,7 +306,7 @@ pub fn write_manifest(
                 warm_bias_k: s.warm_bias_k,
                 label: s.label(),
                 baseline: s.is_baseline(),
-                weight: weights[i],
+                weight: about.weights[i],
             })
             .collect(),
         files: entries,

@@ -8,7 +8,6 @@
 //! right; a header of [`HEADER_H`] px and a footer of [`FOOTER_H`] px frame both. The height is
 //! `HEADER_H + max(panel height, LEGEND_MIN_H) + FOOTER_H`. North is up.
 
-use super::decisions::MapInputs;
 use super::{write_atomic, Kind, WriteError, Written};
 use crate::case::Units;
 use crate::engine::RunResult;
@@ -18,6 +17,7 @@ use crate::render::{text, Canvas, Rgb};
 use crate::scenario::Scenario;
 use crate::summarise::bust::TownDecision;
 use crate::summarise::scope::Needs;
+use crate::summarise::summary::Decisions;
 use std::path::Path;
 
 /// Width of every map image, px.
@@ -641,7 +641,7 @@ pub fn write_maps(
     dir: &Path,
     r: &RunResult,
     ctx: &MapContext,
-    inputs: &MapInputs,
+    decisions: Option<&Decisions>,
     snow_range_mm: Option<&[f32]>,
     ranked_towns: &[TownDecision],
     rain_snow: &[Vec<Vec<[f64; 2]>>],
@@ -718,7 +718,7 @@ pub fn write_maps(
     );
     let to_unit = |v: &[f32]| v.iter().map(|x| u.snow(*x)).collect::<Vec<f32>>();
     let baseline = to_unit(&r.totals[r.baseline].snowfall);
-    let p90 = inputs.snow_p90.as_deref().map(to_unit);
+    let p90 = decisions.map(|d| to_unit(&d.snow.quantiles[2]));
     let range = snow_range_mm.map(to_unit);
     let mut specs = vec![MapSpec {
         file: "map_baseline.png",
@@ -754,7 +754,7 @@ pub fn write_maps(
             never: None,
         });
     }
-    if let Some(flip) = &inputs.flip {
+    if let Some(flip) = decisions.map(|d| &d.flip) {
         specs.push(MapSpec {
             file: "map_flip_distance.png",
             title: "How far the track must shift before the forecast flips".into(),

@@ -18,8 +18,8 @@ pub mod report;
 pub mod towns;
 pub mod zones;
 
-use crate::accumulate::period::Period;
-use crate::summarise::scope::{Needs, NotComputed, Scope};
+use crate::summarise::scope::{Needs, NotComputed};
+use crate::summarise::summary::Summary;
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
@@ -40,9 +40,6 @@ pub enum WriteError {
     /// report.html could not be built.
     #[error(transparent)]
     Report(Box<report::ReportError>),
-    /// The track-error weights do not fit the run's scenarios.
-    #[error("track-error weights: {0}")]
-    Weights(#[from] crate::summarise::weights::WeightsError),
     /// Contouring failed.
     #[error("contouring the rain–snow line failed: {0}")]
     Contour(String),
@@ -163,45 +160,45 @@ pub fn prior_words(p: &crate::summarise::weights::TrackPrior) -> String {
     }
 }
 
+/// Dataset metadata of every GeoTIFF: version, case, caution and the accumulation period
+/// (ISO 8601 interval).
+pub fn meta(case: &crate::case::Case, sum: &Summary) -> Vec<(String, String)> {
+    let mut meta = vec![
+        (
+            "trackswing_version".to_string(),
+            env!("CARGO_PKG_VERSION").to_string(),
+        ),
+        ("case_title".to_string(), case.title.clone()),
+        ("caution".to_string(), crate::CAUTION.to_string()),
+    ];
+    if let Some(p) = &sum.period {
+        meta.push(("accumulation_period".to_string(), p.iso()));
+    }
+    meta
+}
+
 /// The decision products: weighted layers, sensitivity and flip rasters, the bust-prone towns
 /// and the quicklook maps.
 fn write_decision_products(
     dir: &Path,
     case: &crate::case::Case,
     r: &crate::engine::RunResult,
-    shared: &Shared,
+    sum: &Summary,
     rain_snow: &[Vec<Vec<[f64; 2]>>],
     skipped: &mut Vec<NotComputed>,
 ) -> Result<Vec<Written>, WriteError> {
-    let weights = &shared.weights;
-    let mut meta = shared.meta(case);
+    let mut meta = meta(case, sum);
     meta.push(("track_error_prior".to_string(), prior_words(&case.prior)));
     let settings = decisions::DecisionSettings {
         units: case.units,
-        weights,
-        coverage: &shared.coverage,
         snow_thresholds: &case.snow_thresholds,
         ice_thresholds: &case.ice_thresholds,
         meta: &meta,
-        scope: shared.scope,
-        period: &shared.period_words,
     };
-    let (mut files, map_inputs, not) = decisions::write_decision_rasters(dir, r, &settings)?;
+    let (mut files, not) = decisions::write_decision_rasters(dir, r, sum, &settings)?;
     skipped.extend(not);
-    let snow_mm: Vec<f64> = case
-        .snow_thresholds
-        .iter()
-        .map(|t| case.units.snow_to_mm(*t))
-        .collect();
-    let ice_mm: Vec<f64> = case
-        .ice_thresholds
-        .iter()
-        .map(|t| case.units.liquid_to_mm(*t))
-        .collect();
-    let ranked =
-        crate::summarise::bust::town_decisions(r, weights, shared.coverage.min, &snow_mm, &ice_mm);
     // A table of bust scores from a run without track offsets would rank every town 0.
-    if let Some(reason) = shared.scope.missing(Needs::Track) {
+    if let Some(reason) = sum.scope.missing(Needs::Track) {
         for layer in bust::FILES {
             skipped.push(NotComputed {
                 layer: layer.into(),
@@ -211,7 +208,7 @@ fn write_decision_products(
     } else {
         files.extend(bust::write_towns_bust(
             dir,
-            &ranked,
+            &sum.ranked,
             &r.scenarios,
             case.units,
             &case.snow_thresholds,
@@ -223,90 +220,27 @@ fn write_decision_products(
         units: case.units,
         snow_thresholds: &case.snow_thresholds,
         prior_words: prior_words(&case.prior),
-        period: &shared.period_words,
+        period: &sum.period_words,
     };
     for (file, needs) in maps::NEEDING {
-        if let Some(reason) = shared.scope.missing(needs) {
+        if let Some(reason) = sum.scope.missing(needs) {
             skipped.push(NotComputed {
                 layer: file.into(),
                 reason: reason.into(),
             });
         }
     }
-    let range = shared.compared().map(|s| s.range.as_slice());
+    let range = sum.compared().map(|s| s.range.as_slice());
     files.extend(maps::write_maps(
         dir,
         r,
         &ctx,
-        &map_inputs,
+        sum.decisions.as_ref(),
         range,
-        &ranked,
+        &sum.ranked,
         rain_snow,
     )?);
     Ok(files)
-}
-
-/// What several layer families share, computed once per set: the prior's weights, the
-/// coverage of every cell, the snowfall's min/max/range under the coverage rule (mm), which
-/// axes the run varied and the period the totals cover.
-pub struct Shared {
-    /// Normalised weight per scenario.
-    pub weights: Vec<f64>,
-    /// Where the prior is known well enough to summarise.
-    pub coverage: crate::summarise::coverage::PriorCoverage,
-    /// Snowfall over the scenarios with data, mm.
-    pub snow_spread: crate::summarise::Spread,
-    /// Which axes the scenarios vary.
-    pub scope: Scope,
-    /// The period the totals cover (`None` for a run without steps).
-    pub period: Option<Period>,
-    /// The period in words, for descriptions and captions.
-    pub period_words: String,
-}
-
-impl Shared {
-    /// The weights, coverage and spread of a run under the case's prior and minimum coverage.
-    pub fn of(case: &crate::case::Case, r: &crate::engine::RunResult) -> Result<Self, WriteError> {
-        let weights = crate::summarise::weights::scenario_weights(&case.prior, &r.scenarios)?;
-        let coverage =
-            crate::summarise::coverage::PriorCoverage::of(&r.totals, &weights, case.min_coverage);
-        let snowfall: Vec<&[f32]> = r.totals.iter().map(|t| t.snowfall.as_slice()).collect();
-        let snow_spread = crate::summarise::spread(&snowfall, &coverage);
-        let period = Period::of(&r.valid_times);
-        Ok(Self {
-            weights,
-            coverage,
-            snow_spread,
-            scope: Scope::of(&r.scenarios),
-            period,
-            period_words: period.map_or_else(|| "no steps".into(), |p| p.words()),
-        })
-    }
-
-    /// The snowfall's min/max/range when the run has scenarios to compare.
-    pub fn compared(&self) -> Option<&crate::summarise::Spread> {
-        self.scope
-            .missing(Needs::Comparison)
-            .is_none()
-            .then_some(&self.snow_spread)
-    }
-
-    /// Dataset metadata of every GeoTIFF: version, case, caution and the accumulation period
-    /// (ISO 8601 interval).
-    pub fn meta(&self, case: &crate::case::Case) -> Vec<(String, String)> {
-        let mut meta = vec![
-            (
-                "trackswing_version".to_string(),
-                env!("CARGO_PKG_VERSION").to_string(),
-            ),
-            ("case_title".to_string(), case.title.clone()),
-            ("caution".to_string(), crate::CAUTION.to_string()),
-        ];
-        if let Some(p) = &self.period {
-            meta.push(("accumulation_period".to_string(), p.iso()));
-        }
-        meta
-    }
 }
 
 /// What [`write_all`] wrote, and every warning of the run and of the writing (the manifest and
@@ -327,12 +261,12 @@ pub struct Outcome {
 pub fn write_all(
     case: &crate::case::Case,
     r: &crate::engine::RunResult,
+    sum: &Summary,
 ) -> Result<Outcome, WriteError> {
-    let shared = Shared::of(case, r)?;
     let staging = folder::Staging::begin(&case.out_dir, &case.inputs(), case.force)?;
     let mut warnings = r.warnings.clone();
-    if shared.scope.track() {
-        warnings.extend(shared.coverage.warning());
+    if sum.scope.track() {
+        warnings.extend(sum.coverage.warning());
     }
     let carried = staging.carried();
     if !carried.is_empty() {
@@ -353,7 +287,7 @@ pub fn write_all(
             }
         ));
     }
-    match write_set(staging.dir(), case, r, &shared, &warnings) {
+    match write_set(staging.dir(), case, r, sum, &warnings) {
         Ok((files, not_computed)) => {
             staging.commit()?;
             Ok(Outcome {
@@ -373,17 +307,17 @@ fn write_set(
     dir: &Path,
     case: &crate::case::Case,
     r: &crate::engine::RunResult,
-    shared: &Shared,
+    sum: &Summary,
     warnings: &[String],
 ) -> Result<(Vec<Written>, Vec<NotComputed>), WriteError> {
-    let meta = shared.meta(case);
+    let meta = meta(case, sum);
     let settings = rasters::RasterSettings {
         units: case.units,
         raster_type: case.raster_type,
     };
     let mut skipped = Vec::new();
-    let compared = shared.compared();
-    if let Some(reason) = shared.scope.missing(Needs::Comparison) {
+    let compared = sum.compared();
+    if let Some(reason) = sum.scope.missing(Needs::Comparison) {
         for layer in [
             "snowfall_min.tif",
             "snowfall_max.tif",
@@ -397,13 +331,12 @@ fn write_set(
             });
         }
     }
-    let mut files =
-        rasters::write_rasters(dir, r, &settings, &meta, compared, &shared.period_words)?;
+    let mut files = rasters::write_rasters(dir, r, &settings, &meta, compared, &sum.period_words)?;
     let rain_snow = lines::rain_snow_lines(r)?;
     files.push(lines::write_rain_snow_lines(dir, r, &rain_snow)?);
     files.push(zones::write_transition_zones(dir, r)?);
-    if compared.is_some() {
-        files.push(zones::write_flip_zone(dir, r)?);
+    if let Some(cells) = &sum.type_flips {
+        files.push(zones::write_flip_zone(dir, r, cells)?);
     }
     let mut bands = vec![(
         "snowfall_bands_baseline.geojson",
@@ -428,16 +361,14 @@ fn write_set(
             &case.snowfall_bands,
         )?);
     }
-    let towns = crate::summarise::towns(r);
-    let onsets = towns::town_onsets(r);
     files.extend(towns::write_towns(
         dir,
-        &towns,
+        &sum.towns,
         &r.scenarios,
         r.baseline,
         case.units,
         &towns::Onsets {
-            steps: &onsets,
+            steps: &sum.onsets,
             valid_times: &r.valid_times,
         },
     )?);
@@ -445,7 +376,7 @@ fn write_set(
         dir,
         case,
         r,
-        shared,
+        sum,
         &rain_snow,
         &mut skipped,
     )?);
@@ -458,7 +389,8 @@ fn write_set(
     let about = manifest::About {
         warnings,
         not_computed: &skipped,
-        period: shared.period.as_ref(),
+        period: sum.period.as_ref(),
+        weights: &sum.weights,
     };
     manifest::write_manifest(dir, case, r, &files, &about)?;
     let mut all = files;

@@ -44,19 +44,6 @@ pub struct Onsets<'a> {
     pub valid_times: &'a [chrono::DateTime<chrono::Utc>],
 }
 
-/// Every town's onset step in every scenario (see [`crate::accumulate::onset_at`]).
-pub fn town_onsets(r: &crate::engine::RunResult) -> Vec<Vec<Option<u32>>> {
-    r.towns
-        .iter()
-        .map(|t| {
-            r.totals
-                .iter()
-                .map(|tot| crate::accumulate::onset_at(tot, &r.grid, t.lon, t.lat))
-                .collect()
-        })
-        .collect()
-}
-
 /// How a town's values come from the grid, in the words of the towns outputs' descriptions
 /// ([`crate::grid::Grid::bilinear_at`]; `trackswing sounding` follows the same rule).
 pub const POINT_RULE: &str = "A town's totals are bilinear from the four grid cell centres around it (across the antimeridian on a grid that spans 360° of longitude), missing when any of them with weight is missing; its onset is that of the cell of largest weight. Towns outside the grid are left out, with a warning.";

@@ -15,17 +15,14 @@
 
 use super::polygons::{band, to_lonlat, Padded};
 use super::{write_text_atomic, Kind, WriteError, Written};
-use crate::accumulate::MEASURABLE_LIQUID;
 use crate::engine::RunResult;
+use crate::summarise::types::{Pattern, TypeFlip, TYPES};
 use geojson::{Feature, FeatureCollection, Geometry, JsonObject};
 use rayon::prelude::*;
 use std::path::Path;
 
 /// Snow fraction bounds of the transition zone.
 pub const TRANSITION: (f64, f64) = (0.1, 0.9);
-
-/// Precipitation types in the order ties are broken (the first largest wins).
-pub const TYPES: [&str; 4] = ["snow", "ice_pellets", "freezing_rain", "rain"];
 
 pub(crate) fn feature(geometry: &geo::MultiPolygon<f64>, props: JsonObject) -> Feature {
     Feature {
@@ -75,59 +72,12 @@ pub fn write_transition_zones(dir: &Path, r: &RunResult) -> Result<Written, Writ
     })
 }
 
-/// Dominant type of one cell of one scenario: `Some(index into TYPES)`, `None` when less than
-/// measurable fell; `Err(())` when the cell is missing.
-fn dominant(t: &crate::accumulate::Totals, i: usize) -> Result<Option<usize>, ()> {
-    let liquid = t.liquid[i];
-    if liquid.is_nan() {
-        return Err(());
-    }
-    if liquid < MEASURABLE_LIQUID {
-        return Ok(None);
-    }
-    let (snow, ip, fzra) = (t.snow_liquid[i], t.ice_pellets[i], t.freezing_rain[i]);
-    let parts = [snow, ip, fzra, (liquid - snow - ip - fzra).max(0.0)];
-    let mut best = 0;
-    for k in 1..4 {
-        if parts[k] > parts[best] {
-            best = k;
-        }
-    }
-    Ok(Some(best))
-}
-
-/// Per-cell flip pattern: (baseline type, 0..=3 or 4 for none; bit set of types occurring) and
-/// the count of scenarios of each type, for cells where at least two types occur.
-type Pattern = (usize, u8);
-
-fn flip_cells(r: &RunResult) -> Vec<Option<(Pattern, [u16; 4])>> {
-    (0..r.grid.len())
-        .into_par_iter()
-        .map(|i| {
-            let mut counts = [0u16; 4];
-            for t in &r.totals {
-                match dominant(t, i) {
-                    Err(()) => return None,
-                    Ok(Some(k)) => counts[k] += 1,
-                    Ok(None) => {}
-                }
-            }
-            let set = (0..4).fold(0u8, |s, k| if counts[k] > 0 { s | 1 << k } else { s });
-            if set.count_ones() < 2 {
-                return None;
-            }
-            let base = dominant(&r.totals[r.baseline], i)
-                .ok()
-                .flatten()
-                .unwrap_or(4);
-            Some(((base, set), counts))
-        })
-        .collect()
-}
-
 /// Writes `flip_zone.geojson` (see the module notes for the design).
-pub fn write_flip_zone(dir: &Path, r: &RunResult) -> Result<Written, WriteError> {
-    let cells = flip_cells(r);
+pub fn write_flip_zone(
+    dir: &Path,
+    r: &RunResult,
+    cells: &[Option<TypeFlip>],
+) -> Result<Written, WriteError> {
     let mut patterns: Vec<Pattern> = cells.iter().flatten().map(|(p, _)| *p).collect();
     patterns.sort_unstable();
     patterns.dedup();

@@ -17,15 +17,20 @@ use std::path::{Path, PathBuf};
 use std::time::Instant;
 
 use trackswing::accumulate::Totals;
-use trackswing::case::{Case, InputFormat, Member, RasterType, Units};
+use trackswing::case::{
+    Case, InputFormat, Inputs, Member, OutputSettings, Physics, SummarySettings,
+};
 use trackswing::diagnose::{Methods, PtypeMethod, SlrMethod};
 use trackswing::engine::{RunResult, Timings};
 use trackswing::geotiff::*;
 use trackswing::grid::Grid;
 use trackswing::read::{StepLayout, Town};
 use trackswing::render::legend;
+use trackswing::scenario::Axes;
 use trackswing::scenario::Scenario;
 use trackswing::shift::Taper;
+use trackswing::units::Units;
+use trackswing::write::raster_type::RasterType;
 
 fn main() -> anyhow::Result<()> {
     let args: Vec<String> = std::env::args().skip(1).collect();
@@ -169,46 +174,53 @@ fn main() -> anyhow::Result<()> {
     let case = Case {
         path: case_path,
         title: "Synthetic run on a Lambert conformal grid (invented)".into(),
-        member: Member {
-            name: "synthetic-lambert".into(),
-            terrain: terrain_path.clone(),
-            steps: vec![terrain_path],
-            skipped: Vec::new(),
-            track: None,
-            format: InputFormat::GeoTiff,
-            find_track: false,
+        inputs: Inputs {
+            member: Member {
+                name: "synthetic-lambert".into(),
+                terrain: terrain_path.clone(),
+                steps: vec![terrain_path],
+                skipped: Vec::new(),
+                track: None,
+                format: InputFormat::GeoTiff,
+                find_track: false,
+            },
+            towns: Some(towns_path),
+            region: None,
         },
-        towns: Some(towns_path),
-        cross_km: cross_km.clone(),
-        along_km: vec![0.0],
-        timing_h: vec![0.0],
-        intensity: vec![1.0],
-        warm_bias_k: vec![0.0],
-        taper: Taper {
-            core_radius_km: 500.0,
-            outer_radius_km: 1500.0,
+        axes: Axes {
+            cross_km: cross_km.clone(),
+            ..Axes::default()
         },
-        methods: Methods {
-            ptype: PtypeMethod::EnergyArea,
-            slr: SlrMethod::Fixed(10.0),
-            lapse_rate_k_per_m: 0.0065,
-            dry_air: false,
+        physics: Physics {
+            taper: Taper {
+                core_radius_km: 500.0,
+                outer_radius_km: 1500.0,
+            },
+            methods: Methods {
+                ptype: PtypeMethod::EnergyArea,
+                slr: SlrMethod::Fixed(10.0),
+                lapse_rate_k_per_m: 0.0065,
+                dry_air: false,
+            },
+            fixed_ratio: 10.0,
         },
-        fixed_ratio: 10.0,
-        out_dir: out.clone(),
-        units: Units::Metric,
-        raster_type,
-        snowfall_bands: legend::default_snow_thresholds(Units::Metric),
-        prior: trackswing::summarise::weights::TrackPrior::Gaussian {
-            cross_sigma_km: 50.0,
-            along_sigma_km: 50.0,
+        summary: SummarySettings {
+            prior: trackswing::summarise::weights::TrackPrior::Gaussian {
+                cross_sigma_km: 50.0,
+                along_sigma_km: 50.0,
+            },
+            min_coverage: trackswing::summarise::coverage::DEFAULT_MIN_COVERAGE,
+            snow_thresholds: legend::default_snow_thresholds(Units::Metric),
+            ice_thresholds: legend::default_ice_thresholds(Units::Metric),
         },
-        min_coverage: trackswing::summarise::coverage::DEFAULT_MIN_COVERAGE,
-        snow_thresholds: legend::default_snow_thresholds(Units::Metric),
-        ice_thresholds: legend::default_ice_thresholds(Units::Metric),
-        report: false,
+        output: OutputSettings {
+            out_dir: out.clone(),
+            units: Units::Metric,
+            raster_type,
+            snowfall_bands: legend::default_snow_thresholds(Units::Metric),
+            report: false,
+        },
         force: true,
-        region: None,
     };
     let expected = expected_cells(&grid, &totals, baseline);
     let result = RunResult {

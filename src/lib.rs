@@ -27,6 +27,7 @@ pub mod shard;
 pub mod shift;
 pub mod sounding;
 pub mod summarise;
+pub mod units;
 pub mod write;
 
 /// The caution every output and help text carries.

@@ -151,7 +151,7 @@ fn run_case(
         Mode::Shard(shard) => return run_shard(&case, threads, &progress, shard, common.quiet),
         Mode::Merge(given) => {
             let paths = if given.is_empty() {
-                shard_files(&case.out_dir).map_err(Failure::Input)?
+                shard_files(&case.output.out_dir).map_err(Failure::Input)?
             } else {
                 given.to_vec()
             };
@@ -173,7 +173,7 @@ fn run_case(
         .with_context(|| format!("{}: the track-error weights", case.path.display()))
         .map_err(Failure::Input)?;
     let outcome = trackswing::write::write_all(&case, &result, &summary)
-        .with_context(|| format!("writing the layers into {}", case.out_dir.display()))
+        .with_context(|| format!("writing the layers into {}", case.output.out_dir.display()))
         .map_err(Failure::Output)?;
     if !common.quiet {
         let write_s = clock.elapsed().as_secs_f64();
@@ -197,7 +197,7 @@ fn run_shard(
     quiet: bool,
 ) -> Result<(), Failure> {
     let started = std::time::Instant::now();
-    let folder = trackswing::shard::default_folder(&case.out_dir);
+    let folder = trackswing::shard::default_folder(&case.output.out_dir);
     let (result, path) = trackswing::shard::run_and_write(case, threads, progress, shard, &folder)
         .map_err(|e| {
             let failed_write = matches!(

@@ -120,12 +120,12 @@ impl Scenario {
     /// Plain words, e.g. `40 km left, 50 km behind, 3 h later, 20 % wetter, 1 K warmer aloft`
     /// or `as modelled`.
     pub fn in_words(&self) -> String {
-        self.in_words_in(crate::case::Units::Metric)
+        self.in_words_in(crate::units::Units::Metric)
     }
 
     /// [`Scenario::in_words`] with distances as `units` writes them (km, and in US units the
     /// miles too: `40 km (25 mi) left`).
-    pub fn in_words_in(&self, units: crate::case::Units) -> String {
+    pub fn in_words_in(&self, units: crate::units::Units) -> String {
         let mut parts = Vec::new();
         if self.cross_km != 0.0 {
             let side = if self.cross_km > 0.0 { "left" } else { "right" };
@@ -484,7 +484,7 @@ mod tests {
         assert_eq!(s.label(), "cross +40 km, along -50 km");
         assert_eq!(Scenario::BASELINE.in_words(), "as modelled");
         assert_eq!(
-            s.in_words_in(crate::case::Units::Us),
+            s.in_words_in(crate::units::Units::Us),
             "40 km (25 mi) left, 50 km (31 mi) behind"
         );
         let t = Scenario {

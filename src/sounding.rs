@@ -21,7 +21,7 @@ use crate::engine::{
 };
 use crate::grid::Bilinear;
 use crate::progress::Silent;
-use crate::read::source::open as open_source;
+use crate::read::open_member as open_source;
 use crate::scenario::Scenario;
 use serde::Serialize;
 use std::fmt;
@@ -288,7 +288,7 @@ fn pass(
 ) -> Result<(Pass, Vec<chrono::DateTime<chrono::Utc>>), SoundingError> {
     let grid = &source.statics().grid;
     let terrain = &source.statics().terrain;
-    let methods = case.methods;
+    let methods = case.physics.methods;
     let mut window = StepWindow::new(source);
     let mut totals = Totals::new(b.cells.len());
     let mut buf = vec![0.0f32; 0];
@@ -325,7 +325,7 @@ fn pass(
                     nvar,
                     layout.precip(),
                     c,
-                    &case.taper,
+                    &case.physics.taper,
                     &mut buf,
                     &mut later,
                 ) {
@@ -336,8 +336,16 @@ fn pass(
                     Sampled::Dry => {
                         falling_at[j] = 0.0;
                         // Nothing falls: the totals stand; show the column all the same.
-                        sample_column(grid, &input, nvar, c, &case.taper, &mut buf, &mut later)
-                            .then_some((0.0, None))
+                        sample_column(
+                            grid,
+                            &input,
+                            nvar,
+                            c,
+                            &case.physics.taper,
+                            &mut buf,
+                            &mut later,
+                        )
+                        .then_some((0.0, None))
                     }
                     Sampled::Falling(falling, w) => {
                         falling_at[j] = falling;
@@ -416,8 +424,12 @@ fn wettest(precip: &[f64]) -> Option<usize> {
 /// here and in towns.csv. The profile shown is that of the cell of largest weight; the onset is
 /// that cell's, as in towns.csv.
 pub fn sounding(case: &Case, req: &SoundingRequest) -> Result<Sounding, SoundingError> {
-    let source = open_source(&case.member, case.region.as_ref(), &|_: &str| {})
-        .map_err(EngineError::from)?;
+    let source = open_source(
+        &case.inputs.member,
+        case.inputs.region.as_ref(),
+        &|_: &str| {},
+    )
+    .map_err(EngineError::from)?;
     let statics = source.statics();
     let grid = statics.grid.clone();
     let b = grid
@@ -439,7 +451,7 @@ pub fn sounding(case: &Case, req: &SoundingRequest) -> Result<Sounding, Sounding
     }
     let track = case_track(case, source.as_ref(), &Silent)?;
     let s = req.scenario;
-    let methods = case.methods;
+    let methods = case.physics.methods;
     let ground = statics.terrain[c];
     let run = |upto| pass(case, source.as_ref(), track.as_ref(), &b, shown, &s, upto);
     let (step, step_choice, (done, times), step_precip) = match req.step {
@@ -663,7 +675,7 @@ fn describe(
         .collect();
     let fixed = match methods.slr {
         SlrMethod::Fixed(r) => r,
-        _ => case.fixed_ratio,
+        _ => case.physics.fixed_ratio,
     };
     out.snow_ratio = [
         SlrMethod::Fixed(fixed),

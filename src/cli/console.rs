@@ -193,7 +193,7 @@ pub fn summary(
     use std::fmt::Write as _;
     use std::io::Write as _;
     let mut out = String::new();
-    let u = case.units;
+    let u = case.output.units;
     let _ = writeln!(out, "trackswing: {}", case.title);
     if let Some(shards) = merged_from {
         let _ = writeln!(
@@ -234,11 +234,11 @@ pub fn summary(
             .collect();
         let _ = writeln!(out, "not computed: {reason}: {}", layers.join(", "));
     }
-    let _ = writeln!(out, "layers written to {}:", case.out_dir.display());
+    let _ = writeln!(out, "layers written to {}:", case.output.out_dir.display());
     for f in &outcome.files {
         let _ = writeln!(out, "  {:<38} {}", f.file, f.description);
     }
-    bust_prone_towns(&mut out, &case.out_dir, u.snow_unit());
+    bust_prone_towns(&mut out, &case.output.out_dir, u.snow_unit());
     let _ = writeln!(out, "{}", trackswing::CAUTION);
     // A closed pipe (e.g. `| head`) is not an error worth a panic.
     let _ = std::io::stdout().lock().write_all(out.as_bytes());

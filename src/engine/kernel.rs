@@ -39,6 +39,18 @@ pub struct ScenarioStep<'a> {
     pub moisture: [Option<&'a LevelMoisture>; 2],
 }
 
+impl<'a> ScenarioStep<'a> {
+    /// The model columns this scenario step samples, for the sub-cloud moisture.
+    pub fn columns(&self) -> moisture::Columns<'a> {
+        moisture::Columns {
+            now: self.now,
+            next: self.next.map(|(cols, w, _)| (cols, w)),
+            memo: self.moisture,
+            warm_bias_k: self.warm_bias_k,
+        }
+    }
+}
+
 /// One step for every scenario: the parallel seam. `inputs[s]` is `None` for a scenario that
 /// skips this step. A cell whose `terrain` is missing must already be missing in `totals`
 /// ([`super::run`] marks them): a cell the dry screen passes over is not looked at. `step` is the 1-based output step, recorded as the onset of snow. Returns,
@@ -237,7 +249,7 @@ fn step_block(
     let mut sub = SubCloud::empty();
     let ip = layout.precip();
     let mut counts = BlockCounts::default();
-    let mut screen = DryScreen::new(grid, reach, input);
+    let mut screen = DryScreen::new(grid, reach, input.wet, &input.shift);
     let nx = grid.nx;
     let end = start + rows.liquid.len();
     // Row by row, only the columns the screen's first stage cannot pass over: a dry cell-step
@@ -345,7 +357,7 @@ pub fn accumulate_cell(
     let carried = rows.carried[i] as f64;
     let mut source = cell
         .source
-        .map(|a| moisture::AtSource::new(a.input, layout, a.nx, a.w));
+        .map(|a| moisture::AtSource::new(a.input.columns(), layout, a.nx, a.w));
     match step_column(
         cell.col,
         layout,
@@ -444,7 +456,7 @@ mod tests {
                 wet: [Some(&wet), between.then_some(&later_wet)],
                 moisture: [None, None],
             };
-            let mut screen = DryScreen::new(&grid, &reach_of, &input);
+            let mut screen = DryScreen::new(&grid, &reach_of, input.wet, &input.shift);
             for c in 0..grid.len() {
                 checked += 1;
                 // A plain sample of the precipitation at the source point.

@@ -26,10 +26,11 @@ use crate::accumulate::Totals;
 use crate::case::Case;
 use crate::grid::Grid;
 use crate::progress::Progress;
-use crate::read::source::{open as open_source, Source};
+use crate::read::open_member as open_source;
+use crate::read::source::Source;
 use crate::read::{read_towns, Town, Track};
 use crate::scenario::{scenario_product, Scenario, TimeSample};
-use crate::shard::Shard;
+use crate::shard::select::Shard;
 use chrono::Duration;
 
 pub mod budget;
@@ -87,12 +88,14 @@ pub struct Prepared {
 /// Opens the case's model fields, reads the track and towns, checks them against the grid and
 /// lists the scenarios.
 pub fn prepare(case: &Case, progress: &dyn Progress) -> Result<Prepared, EngineError> {
-    if let Some(w) = crate::case::skipped_summary(&case.member.skipped) {
+    if let Some(w) = crate::case::skipped_summary(&case.inputs.member.skipped) {
         progress.warn(&w);
     }
-    let source = open_source(&case.member, case.region.as_ref(), &|m: &str| {
-        progress.warn(m)
-    })?;
+    let source = open_source(
+        &case.inputs.member,
+        case.inputs.region.as_ref(),
+        &|m: &str| progress.warn(m),
+    )?;
     let grid = source.statics().grid.clone();
     let track = case_track(case, source.as_ref(), progress)?;
     if let Some(t) = &track {
@@ -107,7 +110,7 @@ pub fn prepare(case: &Case, progress: &dyn Progress) -> Result<Prepared, EngineE
             });
         }
     }
-    let towns = match &case.towns {
+    let towns = match &case.inputs.towns {
         Some(p) => {
             let (inside, outside): (Vec<Town>, Vec<Town>) = read_towns(p)?
                 .into_iter()
@@ -128,7 +131,7 @@ pub fn prepare(case: &Case, progress: &dyn Progress) -> Result<Prepared, EngineE
         }
         None => Vec::new(),
     };
-    let scenarios = scenario_product(&case.axes());
+    let scenarios = scenario_product(&case.axes);
     let baseline = scenarios
         .iter()
         .position(Scenario::is_baseline)
@@ -183,7 +186,7 @@ pub fn run_prepared(
         .collect();
     let n = grid.len();
     let run = computed.iter().filter(|c| **c).count();
-    let budget = scenario_budget(&case.axes(), n, source.step_count(), threads);
+    let budget = scenario_budget(&case.axes, n, source.step_count(), threads);
     if budget.scenarios > budget::SCENARIOS_REFUSE && !case.force {
         return Err(EngineError::TooManyScenarios {
             count: budget.scenarios,
@@ -279,7 +282,7 @@ pub fn run_prepared(
             timings.read_s += clock.elapsed().as_secs_f64();
             let clock = std::time::Instant::now();
             let path = window.fields(k).path.clone();
-            if case.methods.dry_air {
+            if case.physics.methods.dry_air {
                 // Memos are filled in parallel: on the run's threads.
                 pool.install(|| {
                     for (_, s) in scenarios.iter().enumerate().filter(|(i, _)| computed[*i]) {
@@ -324,8 +327,8 @@ pub fn run_prepared(
                     &statics.terrain,
                     &layout,
                     &inputs,
-                    &case.taper,
-                    &case.methods,
+                    &case.physics.taper,
+                    &case.physics.methods,
                     (k + 1) as u32,
                     &mut totals,
                 )

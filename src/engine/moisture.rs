@@ -23,7 +23,6 @@
 //! to the same bits too. A column interpolates all its levels in one pass ([`AtSource`]) the
 //! first time its sub-cloud layer asks for one.
 
-use super::kernel::ScenarioStep;
 use crate::diagnose::profile::PROFILE_TOP_PA;
 use crate::diagnose::thermo::isobaric_wet_bulb_deficit_humidity;
 use crate::read::StepLayout;
@@ -235,10 +234,23 @@ fn step_levels(
     })
 }
 
+/// The model columns one scenario step samples.
+#[derive(Clone, Copy)]
+pub struct Columns<'a> {
+    /// The step at or before the sampled time.
+    pub now: &'a [f32],
+    /// The next step and its weight (0–1), when the sampled time lies between steps.
+    pub next: Option<(&'a [f32], f32)>,
+    /// The memos of `now` and `next` at this warm bias, when the window holds them.
+    pub memo: [Option<&'a LevelMoisture>; 2],
+    /// Warm-layer bias, K.
+    pub warm_bias_k: f64,
+}
+
 /// The isobaric levels' sub-cloud moisture at one column's source point, worked out on first
 /// use.
 pub struct AtSource<'a> {
-    input: &'a ScenarioStep<'a>,
+    input: Columns<'a>,
     layout: &'a StepLayout,
     nx: usize,
     w: Weights,
@@ -248,7 +260,7 @@ pub struct AtSource<'a> {
 
 impl<'a> AtSource<'a> {
     /// For the column sampled at `w` in `input`.
-    pub fn new(input: &'a ScenarioStep<'a>, layout: &'a StepLayout, nx: usize, w: Weights) -> Self {
+    pub fn new(input: Columns<'a>, layout: &'a StepLayout, nx: usize, w: Weights) -> Self {
         Self {
             input,
             layout,
@@ -269,9 +281,9 @@ impl<'a> AtSource<'a> {
         let v: [f32; 3] = if k < self.levels {
             let (layout, nx, w, levels) = (self.layout, self.nx, self.w, self.levels);
             let all = self.values.get_or_insert_with(|| {
-                let mut v = step_levels(input.now, input.moisture[0], layout, nx, w, levels, bias);
-                if let Some((next, wt, _)) = input.next {
-                    let later = step_levels(next, input.moisture[1], layout, nx, w, levels, bias);
+                let mut v = step_levels(input.now, input.memo[0], layout, nx, w, levels, bias);
+                if let Some((next, wt)) = input.next {
+                    let later = step_levels(next, input.memo[1], layout, nx, w, levels, bias);
                     for i in 0..levels * PER_LEVEL {
                         v[i] += wt * (later[i] - v[i]);
                     }
@@ -290,7 +302,7 @@ impl<'a> AtSource<'a> {
                 })
             };
             let mut v = one(input.now);
-            if let Some((next, wt, _)) = input.next {
+            if let Some((next, wt)) = input.next {
                 let later = one(next);
                 for i in 0..3 {
                     v[i] += wt * (later[i] - v[i]);
@@ -343,7 +355,7 @@ mod tests {
     }
 
     fn level(step: &ScenarioStep<'_>, l: &StepLayout, w: Weights, k: usize) -> Option<[f64; 3]> {
-        AtSource::new(step, l, 3, w).level(k)
+        AtSource::new(step.columns(), l, 3, w).level(k)
     }
 
     #[test]

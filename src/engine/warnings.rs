@@ -42,7 +42,7 @@ pub fn warn_about_totals(
     if undefined > 0 {
         progress.warn(&format!(
             "the {} method is undefined at {undefined} cell-steps over all scenarios ({:.2} %; e.g. ground above 850 hPa for partial thickness, where no 850–700 or 1000–500 hPa thickness exists); those cells are nodata in those scenarios",
-            case.methods.ptype.name(),
+            case.physics.methods.ptype.name(),
             100.0 * undefined as f64 / (cell_steps * run as f64)
         ));
     }

@@ -2,7 +2,6 @@
 //! step ([`WetRows`]) and, per scenario step, the dry screen (`DryScreen`) that skips cells
 //! whose source point cannot come near any wet cell — exact, and most cell-steps are dry.
 
-use super::kernel::ScenarioStep;
 use crate::grid::Grid;
 use crate::shift::StepShift;
 use rayon::prelude::*;
@@ -200,11 +199,16 @@ pub(super) struct DryScreen<'a> {
 }
 
 impl<'a> DryScreen<'a> {
-    pub(super) fn new(grid: &Grid, grid_reach: &GridReach, input: &ScenarioStep<'a>) -> Self {
+    pub(super) fn new(
+        grid: &Grid,
+        grid_reach: &GridReach,
+        wet: [Option<&'a WetRows>; 2],
+        shift: &StepShift,
+    ) -> Self {
         Self {
-            wet: input.wet,
-            reach: reach(grid_reach, &input.shift),
-            boxed: reach_box(grid_reach, &input.shift),
+            wet,
+            reach: reach(grid_reach, shift),
+            boxed: reach_box(grid_reach, shift),
             nx: grid.nx,
             ny: grid.ny,
             row: usize::MAX,

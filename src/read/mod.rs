@@ -10,6 +10,8 @@ pub mod fields;
 #[cfg(feature = "gdal")]
 pub mod gdal;
 pub mod grib;
+pub mod member;
+pub mod open;
 pub mod region;
 pub mod source;
 pub mod towns;
@@ -17,6 +19,7 @@ pub mod track;
 pub mod track_finder;
 
 pub use fields::{FieldError, StaticFields, StepFields, StepLayout};
+pub use open::open_member;
 pub use source::{Source, SourceError};
 pub use towns::{read_towns, Town, TownsError};
 pub use track::{read_track, Track, TrackError, TrackPoint};

@@ -17,12 +17,7 @@
 //! warnings), exactly as at the model grid's own edge. No margin is read: a result never depends
 //! on fields the user did not ask for, and the warning says where the edge cut in.
 
-use super::fields::{StaticFields, StepFields};
-use super::source::{Source, SourceError};
 use crate::grid::{Grid, GridError};
-use chrono::{DateTime, Utc};
-use std::path::PathBuf;
-use std::sync::Mutex;
 
 /// Why a region cannot be used.
 #[derive(Debug, thiserror::Error)]
@@ -368,82 +363,6 @@ impl Window {
         let mut out = Vec::new();
         self.cut_into(full, nvar, &mut out);
         out
-    }
-}
-
-/// A source that hands the engine only a [`Window`] of another source's fields.
-pub struct RegionSource {
-    inner: Box<dyn Source>,
-    window: Window,
-    statics: StaticFields,
-    /// The last full-grid step's columns, handed back to the inner source to read the next step
-    /// into (a global step's columns take hundreds of MB).
-    spare: Mutex<Vec<f32>>,
-}
-
-impl RegionSource {
-    /// Cuts `inner` to `region`; `field` names where the region was given.
-    pub fn new(inner: Box<dyn Source>, region: Region, field: &str) -> Result<Self, RegionError> {
-        let full = inner.statics();
-        let window = Window::of(region, &full.grid, field)?;
-        let grid = full
-            .grid
-            .window(
-                window.first_row,
-                window.rows,
-                window.first_col,
-                window.cols,
-                window.lon_shift_deg,
-            )
-            .map_err(|source| RegionError::Grid {
-                field: field.into(),
-                source,
-            })?;
-        let statics = StaticFields {
-            grid,
-            terrain: window.cut(&full.terrain, 1),
-            path: full.path.clone(),
-        };
-        Ok(Self {
-            inner,
-            window,
-            statics,
-            spare: Mutex::new(Vec::new()),
-        })
-    }
-}
-
-impl Source for RegionSource {
-    fn statics(&self) -> &StaticFields {
-        &self.statics
-    }
-    fn step_count(&self) -> usize {
-        self.inner.step_count()
-    }
-    fn valid_time(&self, k: usize) -> Option<DateTime<Utc>> {
-        self.inner.valid_time(k)
-    }
-    fn step_reusing(&self, k: usize, mut reuse: Vec<f32>) -> Result<StepFields, SourceError> {
-        let spare = std::mem::take(&mut *self.spare.lock().unwrap_or_else(|p| p.into_inner()));
-        let full = self.inner.step_reusing(k, spare)?;
-        self.window
-            .cut_into(&full.columns, full.layout.nvar(), &mut reuse);
-        *self.spare.lock().unwrap_or_else(|p| p.into_inner()) = full.columns;
-        Ok(StepFields {
-            valid: full.valid,
-            layout: full.layout,
-            columns: reuse,
-            path: full.path,
-        })
-    }
-    fn mslp(&self, k: usize) -> Result<Option<Vec<f32>>, SourceError> {
-        Ok(self.inner.mslp(k)?.map(|p| self.window.cut(&p, 1)))
-    }
-    fn inputs(&self) -> Vec<PathBuf> {
-        self.inner.inputs()
-    }
-    fn window(&self) -> Option<&Window> {
-        Some(&self.window)
     }
 }
 

@@ -9,8 +9,7 @@
 
 use super::fields::{read_static, read_step, FieldError, StaticFields, StepFields};
 use super::grib::{GribError, GribSource};
-use super::region::{Region, RegionError, RegionSource, Window};
-use crate::case::{InputFormat, Member};
+use super::region::{RegionError, Window};
 use crate::geotiff::read_geotiff;
 use chrono::{DateTime, Utc};
 use std::io::Read;
@@ -151,52 +150,6 @@ pub fn magic(path: &Path) -> Result<Magic, SourceError> {
         }
         _ => Magic::Other,
     })
-}
-
-/// Opens a member's fields, cut to `region` (the box and where it was given, `--region` or the
-/// case file's `region`) when there is one. `warn` receives one summary line of what was not
-/// used.
-pub fn open(
-    member: &Member,
-    region: Option<&(Region, String)>,
-    warn: &dyn Fn(&str),
-) -> Result<Box<dyn Source>, SourceError> {
-    let whole = open_whole(member, warn)?;
-    let grid = &whole.statics().grid;
-    let poles = super::region::pole_rows(grid);
-    if poles > 0 {
-        let gt = grid.georef.geotransform;
-        let edge = (0..grid.ny)
-            .map(|r| (gt[3] + (r as f64 + 0.5) * gt[5]).abs() + gt[5].abs() / 2.0)
-            .filter(|e| *e <= 90.0 + 1e-9)
-            .fold(0.0, f64::max);
-        warn(&format!(
-            "the model grid's {poles} row(s) centred at the poles are left out: their cells would \
-             reach past ±90° (to ±{:.4}°), which a GeoTIFF cannot hold, and each is one point; \
-             the layers reach ±{edge:.4}°",
-            90.0 + gt[5].abs() / 2.0,
-        ));
-    }
-    Ok(match (region, poles) {
-        (Some((r, field)), _) => Box::new(RegionSource::new(whole, *r, field)?),
-        (None, 0) => whole,
-        (None, _) => match super::region::whole(grid) {
-            Some(r) => Box::new(RegionSource::new(whole, r, "the model grid")?),
-            None => whole,
-        },
-    })
-}
-
-/// A member's fields on the whole model grid.
-fn open_whole(member: &Member, warn: &dyn Fn(&str)) -> Result<Box<dyn Source>, SourceError> {
-    match member.format {
-        InputFormat::GeoTiff => Ok(Box::new(GeoTiffSource::open(
-            &member.terrain,
-            &member.steps,
-        )?)),
-        InputFormat::Model => open_model(&member.steps, warn),
-        InputFormat::Gdal => open_gdal(&member.steps, warn),
-    }
 }
 
 /// What to tell someone whose build cannot read a file GDAL would read.

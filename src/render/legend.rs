@@ -10,7 +10,7 @@
 
 use super::ramp::{self, Ramp};
 use super::Rgb;
-use crate::case::Units;
+use crate::units::Units;
 
 /// Default snowfall thresholds, cm: round amounts roughly doubling (1, 2, 5 per decade), chosen
 /// for this tool, not taken from any published product.

@@ -155,7 +155,7 @@ pub fn sha256_of(path: &Path) -> std::io::Result<String> {
 /// What decides a run's totals: every scenario (cross, along, timing, intensity, warm bias), the
 /// methods, the taper, the grid and the SHA-256 of the model inputs (hashed in parallel).
 pub fn run_key(case: &Case, prepared: &Prepared) -> Result<serde_json::Value, ShardError> {
-    let m = &case.member;
+    let m = &case.inputs.member;
     let mut listed: Vec<(&str, &Path)> = vec![("terrain", &m.terrain)];
     listed.extend(m.steps.iter().map(|s| ("step", s.as_path())));
     if let Some(t) = &m.track {
@@ -186,20 +186,20 @@ pub fn run_key(case: &Case, prepared: &Prepared) -> Result<serde_json::Value, Sh
             ]
         })
         .collect();
-    let ratio = match case.methods.slr {
+    let ratio = match case.physics.methods.slr {
         crate::diagnose::SlrMethod::Fixed(r) => Some(r),
         _ => None,
     };
     Ok(serde_json::json!({
         "scenarios": scenarios,
         "methods": {
-            "precip_type": case.methods.ptype.name(),
-            "snow_ratio": case.methods.slr.name(),
+            "precip_type": case.physics.methods.ptype.name(),
+            "snow_ratio": case.physics.methods.slr.name(),
             "fixed_ratio": ratio,
-            "lapse_rate_k_per_m": case.methods.lapse_rate_k_per_m,
-            "dry_air": case.methods.dry_air,
+            "lapse_rate_k_per_m": case.physics.methods.lapse_rate_k_per_m,
+            "dry_air": case.physics.methods.dry_air,
         },
-        "taper": case.taper,
+        "taper": case.physics.taper,
         "grid": {
             "nx": g.nx,
             "ny": g.ny,

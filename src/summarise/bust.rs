@@ -15,10 +15,10 @@ use super::sensitivity::{
     by_distance, difference, flip_search, stencil, Axis, CellTotals, FlipKind, FlipSearch, Ptype,
 };
 use crate::accumulate::Totals;
-use crate::case::Units;
 use crate::engine::RunResult;
 use crate::grid::Grid;
 use crate::scenario::Scenario;
+use crate::units::Units;
 
 /// Floor of the baseline in the bust score, mm of snow depth (5 cm).
 pub const SCORE_FLOOR_MM: f64 = 50.0;

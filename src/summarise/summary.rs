@@ -69,21 +69,23 @@ impl Summary {
 
 /// Summarises a run under the case's prior, minimum coverage and thresholds.
 pub fn summarise(case: &Case, r: &RunResult) -> Result<Summary, WeightsError> {
-    let weights = scenario_weights(&case.prior, &r.scenarios)?;
-    let coverage = PriorCoverage::of(&r.totals, &weights, case.min_coverage);
+    let weights = scenario_weights(&case.summary.prior, &r.scenarios)?;
+    let coverage = PriorCoverage::of(&r.totals, &weights, case.summary.min_coverage);
     let snowfall: Vec<&[f32]> = r.totals.iter().map(|t| t.snowfall.as_slice()).collect();
     let snow_spread = spread(&snowfall, &coverage);
     let period = Period::of(&r.valid_times);
     let scope = Scope::of(&r.scenarios);
     let snow_mm: Vec<f64> = case
+        .summary
         .snow_thresholds
         .iter()
-        .map(|t| case.units.snow_to_mm(*t))
+        .map(|t| case.output.units.snow_to_mm(*t))
         .collect();
     let ice_mm: Vec<f64> = case
+        .summary
         .ice_thresholds
         .iter()
-        .map(|t| case.units.liquid_to_mm(*t))
+        .map(|t| case.output.units.liquid_to_mm(*t))
         .collect();
     let decisions = scope.track().then(|| {
         let min = coverage.min;

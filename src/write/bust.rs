@@ -6,11 +6,11 @@
 
 use super::towns::spreadsheet_safe;
 use super::{Kind, WriteError, Written};
-use crate::case::Units;
 use crate::render::legend::threshold_text;
 use crate::scenario::Scenario;
 use crate::summarise::bust::{sentence, TownDecision};
 use crate::summarise::sensitivity::{FlipKind, FlipSearch};
+use crate::units::Units;
 use geojson::JsonObject;
 use serde_json::Value;
 use std::path::Path;

@@ -5,7 +5,6 @@
 //! converts them to the output units and writes them.
 
 use super::{write_atomic, Kind, WriteError, Written};
-use crate::case::Units;
 use crate::engine::RunResult;
 use crate::geotiff::{write_cog, BandSpec, CogOptions, SampleEncoding, WriteOptions};
 use crate::render::legend;
@@ -13,6 +12,7 @@ use crate::summarise::quantiles::DistributionLayers;
 use crate::summarise::scope::{Needs, NotComputed};
 use crate::summarise::sensitivity::PER_KM;
 use crate::summarise::summary::Summary;
+use crate::units::Units;
 use std::path::Path;
 
 /// Settings of the decision layers.

@@ -10,9 +10,9 @@
 use super::polygons::{band, to_lonlat, Padded};
 use super::zones::{collection, feature};
 use super::{write_text_atomic, Kind, WriteError, Written};
-use crate::case::Units;
 use crate::grid::Grid;
 use crate::render::legend;
+use crate::units::Units;
 use geojson::{Feature, JsonObject};
 use rayon::prelude::*;
 use std::path::Path;

@@ -123,8 +123,8 @@ struct Manifest<'a> {
     /// that covers it (rows and columns) and the model grid it was cut from.
     #[serde(skip_serializing_if = "Option::is_none")]
     region: Option<&'a crate::read::region::Window>,
-    units: crate::case::Units,
-    raster_type: crate::case::RasterType,
+    units: crate::units::Units,
+    raster_type: crate::write::raster_type::RasterType,
     snowfall_bands: &'a [f64],
     methods: &'a crate::diagnose::Methods,
     taper: &'a crate::shift::Taper,
@@ -153,13 +153,21 @@ pub fn write_manifest(
     files: &[Written],
     about: &About,
 ) -> Result<(), WriteError> {
-    let mut listed: Vec<(&str, &Path)> =
-        vec![("case", &case.path), ("terrain", &case.member.terrain)];
-    listed.extend(case.member.steps.iter().map(|s| ("step", s.as_path())));
-    if let Some(t) = &case.member.track {
+    let mut listed: Vec<(&str, &Path)> = vec![
+        ("case", &case.path),
+        ("terrain", &case.inputs.member.terrain),
+    ];
+    listed.extend(
+        case.inputs
+            .member
+            .steps
+            .iter()
+            .map(|s| ("step", s.as_path())),
+    );
+    if let Some(t) = &case.inputs.member.track {
         listed.push(("track", t));
     }
-    if let Some(t) = &case.towns {
+    if let Some(t) = &case.inputs.towns {
         listed.push(("towns", t));
     }
     // Step files of a continental case run to gigabytes: hashed in parallel.
@@ -174,14 +182,14 @@ pub fn write_manifest(
         })
         .collect::<Result<Vec<Input>, WriteError>>()?;
     let decisions = serde_json::json!({
-        "track_error_prior": &case.prior,
+        "track_error_prior": &case.summary.prior,
         "track_error_prior_note": "σ (or the explicit weights) should come from the user's own verification of track error at this lead time; the defaults are examples, not a climatology",
-        "snow_thresholds": &case.snow_thresholds,
-        "snow_threshold_units": case.units.snow_unit(),
-        "ice_thresholds": &case.ice_thresholds,
-        "ice_threshold_units": case.units.liquid_unit(),
+        "snow_thresholds": &case.summary.snow_thresholds,
+        "snow_threshold_units": case.output.units.snow_unit(),
+        "ice_thresholds": &case.summary.ice_thresholds,
+        "ice_threshold_units": case.output.units.liquid_unit(),
         "ice_accretion": format!("{} × freezing-rain liquid (median flat-surface ratio, Sanders & Barjenbruch 2016)", crate::diagnose::slr::FREEZING_RAIN_ACCRETION_RATIO),
-        "min_coverage": case.min_coverage,
+        "min_coverage": case.summary.min_coverage,
         "coverage": "share of the prior's weight carried by the scenarios with a total at a cell (prior_coverage.tif); the weighted summaries and min/max/range use those scenarios, weights renormalised, where it is at least min_coverage, and are nodata below",
         "quantiles": "weighted empirical CDF with each scenario at the middle of its step, linear between scenario values, clamped to the smallest/largest (Hyndman & Fan 1996 definition 5 when weights are equal)",
         "exceedance": "P(X ≥ threshold): the weight of the scenarios at or above the threshold",
@@ -198,14 +206,14 @@ pub fn write_manifest(
         epsg: Some(4326),
         proj: crate::geotiff::Crs::Wgs84Geographic.proj_string(),
     };
-    let raster = match case.raster_type {
-        crate::case::RasterType::Float32 => serde_json::json!({
+    let raster = match case.output.raster_type {
+        crate::write::raster_type::RasterType::Float32 => serde_json::json!({
             "layout": "cloud-optimised GeoTIFF (256x256 tiles, overviews)",
             "sample_type": "Float32",
             "nodata": super::rasters::NODATA,
             "compression": "deflate, floating-point predictor",
         }),
-        crate::case::RasterType::Int16 => serde_json::json!({
+        crate::write::raster_type::RasterType::Int16 => serde_json::json!({
             "layout": "cloud-optimised GeoTIFF (256x256 tiles, overviews)",
             "sample_type": "Int16, value = raw x band scale (GDAL scale/offset)",
             "nodata": -32768,
@@ -282,16 +290,16 @@ pub fn write_manifest(
         }),
         title: &case.title,
         case_file: case.path.display().to_string(),
-        member: &case.member.name,
+        member: &case.inputs.member.name,
         written_utc: chrono::Utc::now().to_rfc3339_opts(chrono::SecondsFormat::Secs, true),
         crs: grid_crs(),
         grid: serde_json::json!({"columns": r.grid.nx, "rows": r.grid.ny, "geotransform": gt}),
         region: r.window.as_ref(),
-        units: case.units,
-        raster_type: case.raster_type,
-        snowfall_bands: &case.snowfall_bands,
-        methods: &case.methods,
-        taper: &case.taper,
+        units: case.output.units,
+        raster_type: case.output.raster_type,
+        snowfall_bands: &case.output.snowfall_bands,
+        methods: &case.physics.methods,
+        taper: &case.physics.taper,
         steps: r.valid_times.iter().map(|t| t.to_rfc3339()).collect(),
         scenarios: r
             .scenarios

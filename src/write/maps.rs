@@ -9,7 +9,6 @@
 //! `HEADER_H + max(panel height, LEGEND_MIN_H) + FOOTER_H`. North is up.
 
 use super::{write_atomic, Kind, WriteError, Written};
-use crate::case::Units;
 use crate::engine::RunResult;
 use crate::grid::{km_per_degree, Grid};
 use crate::render::legend::{self, Classes};
@@ -18,6 +17,7 @@ use crate::scenario::Scenario;
 use crate::summarise::bust::TownDecision;
 use crate::summarise::scope::Needs;
 use crate::summarise::summary::Decisions;
+use crate::units::Units;
 use std::path::Path;
 
 /// Width of every map image, px.

@@ -13,6 +13,7 @@ pub mod lines;
 pub mod manifest;
 pub mod maps;
 pub mod polygons;
+pub mod raster_type;
 pub mod rasters;
 pub mod report;
 pub mod towns;
@@ -188,11 +189,14 @@ fn write_decision_products(
     skipped: &mut Vec<NotComputed>,
 ) -> Result<Vec<Written>, WriteError> {
     let mut meta = meta(case, sum);
-    meta.push(("track_error_prior".to_string(), prior_words(&case.prior)));
+    meta.push((
+        "track_error_prior".to_string(),
+        prior_words(&case.summary.prior),
+    ));
     let settings = decisions::DecisionSettings {
-        units: case.units,
-        snow_thresholds: &case.snow_thresholds,
-        ice_thresholds: &case.ice_thresholds,
+        units: case.output.units,
+        snow_thresholds: &case.summary.snow_thresholds,
+        ice_thresholds: &case.summary.ice_thresholds,
         meta: &meta,
     };
     let (mut files, not) = decisions::write_decision_rasters(dir, r, sum, &settings)?;
@@ -210,16 +214,16 @@ fn write_decision_products(
             dir,
             &sum.ranked,
             &r.scenarios,
-            case.units,
-            &case.snow_thresholds,
-            &case.ice_thresholds,
+            case.output.units,
+            &case.summary.snow_thresholds,
+            &case.summary.ice_thresholds,
         )?);
     }
     let ctx = maps::MapContext {
         title: &case.title,
-        units: case.units,
-        snow_thresholds: &case.snow_thresholds,
-        prior_words: prior_words(&case.prior),
+        units: case.output.units,
+        snow_thresholds: &case.summary.snow_thresholds,
+        prior_words: prior_words(&case.summary.prior),
         period: &sum.period_words,
     };
     for (file, needs) in maps::NEEDING {
@@ -255,7 +259,7 @@ pub struct Outcome {
     pub not_computed: Vec<NotComputed>,
 }
 
-/// Writes every layer of a run into `case.out_dir`, the manifest last, replacing any previous
+/// Writes every layer of a run into `case.output.out_dir`, the manifest last, replacing any previous
 /// set as a whole; files of the previous folder that trackswing did not write are kept (see
 /// [`folder`]).
 pub fn write_all(
@@ -263,7 +267,7 @@ pub fn write_all(
     r: &crate::engine::RunResult,
     sum: &Summary,
 ) -> Result<Outcome, WriteError> {
-    let staging = folder::Staging::begin(&case.out_dir, &case.inputs(), case.force)?;
+    let staging = folder::Staging::begin(&case.output.out_dir, &case.inputs(), case.force)?;
     let mut warnings = r.warnings.clone();
     if sum.scope.track() {
         warnings.extend(sum.coverage.warning());
@@ -278,7 +282,7 @@ pub fn write_all(
             "kept {} {} in {} that trackswing did not write ({}){}",
             carried.len(),
             if carried.len() == 1 { "entry" } else { "entries" },
-            case.out_dir.display(),
+            case.output.out_dir.display(),
             folder::names(carried),
             if sidecars {
                 "; GDAL's .aux.xml sidecars may hold statistics of the previous run's layers: delete them to have GDAL recompute"
@@ -312,8 +316,8 @@ fn write_set(
 ) -> Result<(Vec<Written>, Vec<NotComputed>), WriteError> {
     let meta = meta(case, sum);
     let settings = rasters::RasterSettings {
-        units: case.units,
-        raster_type: case.raster_type,
+        units: case.output.units,
+        raster_type: case.output.raster_type,
     };
     let mut skipped = Vec::new();
     let compared = sum.compared();
@@ -357,8 +361,8 @@ fn write_set(
             name,
             what,
             field,
-            case.units,
-            &case.snowfall_bands,
+            case.output.units,
+            &case.output.snowfall_bands,
         )?);
     }
     files.extend(towns::write_towns(
@@ -366,7 +370,7 @@ fn write_set(
         &sum.towns,
         &r.scenarios,
         r.baseline,
-        case.units,
+        case.output.units,
         &towns::Onsets {
             steps: &sum.onsets,
             valid_times: &r.valid_times,
@@ -380,7 +384,7 @@ fn write_set(
         &rain_snow,
         &mut skipped,
     )?);
-    if case.report {
+    if case.output.report {
         // Listed now, written right after the manifest it is built from.
         files.push(report::entry());
     }
@@ -401,7 +405,7 @@ fn write_set(
         description: "What was written, from which inputs, with which settings".into(),
         bands: Vec::new(),
     });
-    if case.report {
+    if case.output.report {
         // Part of the set (swapped in with it), built from the files just written.
         report::write_report(dir).map_err(|e| WriteError::Report(Box::new(e)))?;
     }

@@ -5,11 +5,12 @@
 //! per band from its largest magnitude (a 1-2-5 step, so that the largest value uses at most
 //! 32 000 of the 32 767 steps), recorded as GDAL's band scale (offset 0), nodata −32768.
 
+use super::raster_type::RasterType;
 use super::{write_atomic, Kind, WriteError, Written};
-use crate::case::{RasterType, Units};
 use crate::engine::RunResult;
 use crate::geotiff::{write_cog, BandSpec, CogOptions, SampleEncoding, WriteOptions};
 use crate::summarise::Spread;
+use crate::units::Units;
 use std::path::Path;
 
 /// Nodata value of every Float32 layer.

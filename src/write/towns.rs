@@ -1,9 +1,9 @@
 //! The towns table (CSV) and points (GeoJSON) with every scenario's snowfall.
 
 use super::{write_text_atomic, Kind, WriteError, Written};
-use crate::case::Units;
 use crate::scenario::Scenario;
 use crate::summarise::TownSummary;
+use crate::units::Units;
 use geojson::{Feature, FeatureCollection, Geometry, JsonObject};
 use std::path::Path;
 

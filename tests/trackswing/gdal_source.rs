@@ -27,7 +27,8 @@ mod with_gdal {
     use trackswing::progress::Collect;
     use trackswing::read::gdal::GdalSource;
     use trackswing::read::grib::GribSource;
-    use trackswing::read::source::{open as open_source, Source};
+    use trackswing::read::open_member as open_source;
+    use trackswing::read::source::Source;
 
     /// g as trackswing divides geopotential by it (WMO-No. 306 / CF: m2 s-2 = g · m).
     const G: f64 = 9.80665;
@@ -151,7 +152,7 @@ mod with_gdal {
     /// GeoTIFF reader gives, and a case file `dir/case_nc.toml` for them.
     fn write_netcdf_case(dir: &Path, format_line: &str) -> PathBuf {
         let case = Case::load(&dir.join("case.toml"), &Overrides::default()).unwrap();
-        let src = open_source(&case.member, None, &|_| {}).unwrap();
+        let src = open_source(&case.inputs.member, None, &|_| {}).unwrap();
         let st = src.statics();
         let (nx, ny) = (st.grid.nx, st.grid.ny);
         let gt = st.grid.georef.geotransform;
@@ -306,7 +307,7 @@ mod with_gdal {
 
     fn sources(case: &Path) -> Box<dyn Source> {
         let c = Case::load(case, &Overrides::default()).unwrap();
-        open_source(&c.member, None, &|_| {}).unwrap()
+        open_source(&c.inputs.member, None, &|_| {}).unwrap()
     }
 
     /// Largest difference per variable of the two sources' steps, after checking grids and

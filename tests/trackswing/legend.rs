@@ -35,14 +35,20 @@ fn default_thresholds_are_our_own_per_unit() {
         Case::load(&demo_case(), &over).unwrap()
     };
     let metric = load("metric");
-    assert_eq!(metric.snow_thresholds, [1.0, 2.0, 5.0, 10.0, 20.0, 50.0]);
+    assert_eq!(
+        metric.summary.snow_thresholds,
+        [1.0, 2.0, 5.0, 10.0, 20.0, 50.0]
+    );
     let us = load("us");
-    assert_eq!(us.snow_thresholds, [0.5, 1.0, 2.0, 5.0, 10.0, 20.0]);
+    assert_eq!(us.summary.snow_thresholds, [0.5, 1.0, 2.0, 5.0, 10.0, 20.0]);
     for c in [&metric, &us] {
         // Without `snowfall_bands` the isobands follow the thresholds.
-        assert_eq!(c.snowfall_bands, c.snow_thresholds);
-        assert_ne!(c.snow_thresholds, [1.0, 2.0, 4.0, 6.0, 8.0, 12.0]);
-        assert_ne!(c.snow_thresholds, [2.5, 5.0, 10.0, 15.0, 20.0, 30.0]);
+        assert_eq!(c.output.snowfall_bands, c.summary.snow_thresholds);
+        assert_ne!(c.summary.snow_thresholds, [1.0, 2.0, 4.0, 6.0, 8.0, 12.0]);
+        assert_ne!(
+            c.summary.snow_thresholds,
+            [2.5, 5.0, 10.0, 15.0, 20.0, 30.0]
+        );
     }
 }
 

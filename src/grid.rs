@@ -10,12 +10,7 @@
 //! The metric (km per degree and the Jacobian from east/north kilometres to grid cells) is computed
 //! once per run, so the per-scenario kernel runs no trigonometry.
 
-use crate::geotiff::{Crs, Georef};
-
-/// WGS 84 semi-major axis, m (NIMA TR8350.2, table 3.1).
-pub const WGS84_A: f64 = 6_378_137.0;
-/// WGS 84 flattening (NIMA TR8350.2, table 3.1).
-pub const WGS84_F: f64 = 1.0 / 298.257_223_563;
+use crate::geotiff::{Crs, Georef, Projector, WGS84_A, WGS84_F};
 
 /// Kilometres per degree of longitude and of latitude at geodetic latitude `lat_deg` on WGS 84.
 ///
@@ -56,171 +51,6 @@ pub struct CellMetric {
     pub row_per_km_north: f32,
 }
 
-/// How a grid's x/y axes relate to the Earth.
-///
-/// GRIB2 grids come on lat/lon or on a map projection (grid definition templates 3.0, 3.30,
-/// 3.20; WMO-No. 306 Vol. I.2). Projected grids keep their projection here for the transforms,
-/// and [`Grid::georef`] carries the same projection as a `geotiff::Crs` (see [`crs_of`]) with
-/// the projected geotransform (metres), so the layers are written on the grid as it came.
-#[derive(Clone, Debug, PartialEq)]
-pub enum Projection {
-    /// x = longitude, y = latitude, degrees. A model's spherical Earth is taken as WGS 84 here,
-    /// as GIS software does for lat/lon model output (the difference is below a grid length).
-    LonLat,
-    /// A map projection; x and y in metres.
-    Map(MapProjection),
-}
-
-/// The Earth a projected grid's coordinates are defined on (GRIB2 code table 3.2).
-#[derive(Clone, Copy, Debug, PartialEq)]
-pub struct Earth {
-    /// Semi-major axis, m.
-    pub a: f64,
-    /// Semi-minor axis, m (equal to `a` for a sphere).
-    pub b: f64,
-}
-
-/// A conformal map projection of a regional model's grid.
-#[derive(Clone, Copy, Debug, PartialEq)]
-pub enum MapKind {
-    /// Lambert conformal conic (GRIB2 template 3.30): standard parallels `lat_1`, `lat_2`,
-    /// latitude of origin `lat_0`, central meridian `lon_0`, degrees.
-    LambertConformal {
-        /// First standard parallel.
-        lat_1: f64,
-        /// Second standard parallel (equal to `lat_1` for the tangent cone).
-        lat_2: f64,
-        /// Latitude of origin.
-        lat_0: f64,
-        /// Central meridian (GRIB's LoV).
-        lon_0: f64,
-    },
-    /// Polar stereographic (GRIB2 template 3.20): true scale at `lat_ts`, central meridian
-    /// `lon_0`, degrees; projected from the north pole when `north`.
-    PolarStereographic {
-        /// Latitude of true scale (GRIB's LaD).
-        lat_ts: f64,
-        /// Central meridian (GRIB's LoV).
-        lon_0: f64,
-        /// North-polar aspect.
-        north: bool,
-    },
-}
-
-/// A map projection with its Earth.
-#[derive(Clone, Copy, Debug, PartialEq)]
-pub struct MapProjection {
-    /// The projection and its parameters.
-    pub kind: MapKind,
-    /// The Earth model.
-    pub earth: Earth,
-}
-
-impl MapProjection {
-    /// The projection as a PROJ string (what `gdalsrsinfo`, PROJ and proj4rs read).
-    pub fn proj_string(&self) -> String {
-        let e = format!("+a={} +b={} +units=m +no_defs", self.earth.a, self.earth.b);
-        match self.kind {
-            MapKind::LambertConformal {
-                lat_1,
-                lat_2,
-                lat_0,
-                lon_0,
-            } => format!(
-                "+proj=lcc +lat_1={lat_1} +lat_2={lat_2} +lat_0={lat_0} +lon_0={lon_0} +x_0=0 +y_0=0 {e}"
-            ),
-            MapKind::PolarStereographic {
-                lat_ts,
-                lon_0,
-                north,
-            } => format!(
-                "+proj=stere +lat_0={} +lat_ts={lat_ts} +lon_0={lon_0} +x_0=0 +y_0=0 {e}",
-                if north { 90 } else { -90 }
-            ),
-        }
-    }
-
-    /// The geographic coordinate system on the same Earth, as a PROJ string.
-    pub fn geographic_string(&self) -> String {
-        format!(
-            "+proj=longlat +a={} +b={} +no_defs",
-            self.earth.a, self.earth.b
-        )
-    }
-
-    /// A short human-readable name with the parameters.
-    pub fn describe(&self) -> String {
-        let earth = if self.earth.a == self.earth.b {
-            format!("sphere R = {} m", self.earth.a)
-        } else {
-            format!("ellipsoid a = {} m, b = {} m", self.earth.a, self.earth.b)
-        };
-        match self.kind {
-            MapKind::LambertConformal {
-                lat_1,
-                lat_2,
-                lat_0,
-                lon_0,
-            } => format!(
-                "Lambert conformal conic (standard parallels {lat_1}°, {lat_2}°; origin {lat_0}°N; central meridian {lon_0}°; {earth})"
-            ),
-            MapKind::PolarStereographic {
-                lat_ts,
-                lon_0,
-                north,
-            } => format!(
-                "{} polar stereographic (true scale at {lat_ts}°; central meridian {lon_0}°; {earth})",
-                if north { "north" } else { "south" }
-            ),
-        }
-    }
-}
-
-/// Forward and inverse transforms of one map projection, through proj4rs (a pure-Rust port of
-/// PROJ's projection formulas).
-#[derive(Clone)]
-struct Projector {
-    map: proj4rs::Proj,
-    geo: proj4rs::Proj,
-}
-
-impl std::fmt::Debug for Projector {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str("Projector")
-    }
-}
-
-impl Projector {
-    fn new(p: &MapProjection) -> Result<Self, GridError> {
-        let parse = |s: String| {
-            proj4rs::Proj::from_proj_string(&s)
-                .map_err(|e| GridError::Projection(format!("{s}: {e}")))
-        };
-        Ok(Self {
-            map: parse(p.proj_string())?,
-            geo: parse(p.geographic_string())?,
-        })
-    }
-
-    /// Projected x/y (m) of a lon/lat point (degrees); NaN where the projection has no value.
-    fn forward(&self, lon: f64, lat: f64) -> (f64, f64) {
-        let mut pt = (lon.to_radians(), lat.to_radians(), 0.0);
-        match proj4rs::transform::transform(&self.geo, &self.map, &mut pt) {
-            Ok(()) => (pt.0, pt.1),
-            Err(_) => (f64::NAN, f64::NAN),
-        }
-    }
-
-    /// Lon/lat (degrees) of projected x/y (m).
-    fn inverse(&self, x: f64, y: f64) -> (f64, f64) {
-        let mut pt = (x, y, 0.0);
-        match proj4rs::transform::transform(&self.map, &self.geo, &mut pt) {
-            Ok(()) => (pt.0.to_degrees(), pt.1.to_degrees()),
-            Err(_) => (f64::NAN, f64::NAN),
-        }
-    }
-}
-
 /// A spacing for people: rounded to 9 significant digits so 0.39999999999999997 reads 0.4.
 fn tidy(v: f64) -> f64 {
     if v == 0.0 || !v.is_finite() {
@@ -228,112 +58,6 @@ fn tidy(v: f64) -> f64 {
     }
     let k = 10f64.powi(8 - v.abs().log10().floor() as i32);
     (v * k).round() / k
-}
-
-/// Projected x/y (m) of a lon/lat point (degrees) on `map`, through proj4rs.
-pub fn project(map: &MapProjection, lon: f64, lat: f64) -> Result<(f64, f64), GridError> {
-    let (x, y) = Projector::new(map)?.forward(lon, lat);
-    if x.is_finite() && y.is_finite() {
-        Ok((x, y))
-    } else {
-        Err(GridError::Projection(format!(
-            "{lon}°E {lat}°N has no place on {}",
-            map.describe()
-        )))
-    }
-}
-
-/// The GeoTIFF CRS of a map projection: WGS 84 when the Earth is the WGS 84 ellipsoid (GRS 80,
-/// 0.1 mm away in the semi-minor axis, counts as WGS 84), a sphere when a = b; other
-/// ellipsoids have no GeoTIFF datum here.
-pub fn crs_of(map: &MapProjection) -> Result<Crs, GridError> {
-    use crate::geotiff::{Datum, Projected, Projection as Method};
-    let wgs84_b = WGS84_A * (1.0 - WGS84_F);
-    let datum = if map.earth.a == map.earth.b {
-        Datum::Sphere {
-            radius_m: map.earth.a,
-        }
-    } else if map.earth.a == WGS84_A && (map.earth.b - wgs84_b).abs() < 1e-3 {
-        Datum::Wgs84
-    } else {
-        return Err(GridError::Projection(format!(
-            "{}: only WGS 84 or a sphere can be written as a GeoTIFF CRS",
-            map.describe()
-        )));
-    };
-    let projection = match map.kind {
-        MapKind::LambertConformal {
-            lat_1,
-            lat_2,
-            lat_0,
-            lon_0,
-        } => Method::LambertConformal2Sp {
-            lat_1,
-            lat_2,
-            lat_0,
-            lon_0,
-        },
-        MapKind::PolarStereographic {
-            lat_ts,
-            lon_0,
-            north,
-        } => Method::PolarStereographic {
-            lat_ts: if north { lat_ts.abs() } else { -lat_ts.abs() },
-            lon_0,
-        },
-    };
-    Ok(Crs::Projected(Projected {
-        datum,
-        projection,
-        false_easting_m: 0.0,
-        false_northing_m: 0.0,
-    }))
-}
-
-/// The map projection of a projected GeoTIFF CRS, where the grid's transforms support it
-/// (Lambert conformal 2SP and polar stereographic without false origin shifts).
-fn map_of(p: &crate::geotiff::Projected) -> Result<MapProjection, GridError> {
-    use crate::geotiff::{Datum, Projection as Method};
-    let earth = match p.datum {
-        Datum::Wgs84 => Earth {
-            a: WGS84_A,
-            b: WGS84_A * (1.0 - WGS84_F),
-        },
-        Datum::Sphere { radius_m } => Earth {
-            a: radius_m,
-            b: radius_m,
-        },
-    };
-    let kind = match p.projection {
-        Method::LambertConformal2Sp {
-            lat_1,
-            lat_2,
-            lat_0,
-            lon_0,
-        } => MapKind::LambertConformal {
-            lat_1,
-            lat_2,
-            lat_0,
-            lon_0,
-        },
-        Method::PolarStereographic { lat_ts, lon_0 } => MapKind::PolarStereographic {
-            lat_ts: lat_ts.abs(),
-            lon_0,
-            north: lat_ts > 0.0,
-        },
-        other => {
-            return Err(GridError::Projection(format!(
-                "{other:?} is not supported for input grids (Lambert conformal 2SP and polar stereographic are)"
-            )))
-        }
-    };
-    if p.false_easting_m != 0.0 || p.false_northing_m != 0.0 {
-        return Err(GridError::Projection(format!(
-            "false easting/northing ({}, {}) m are not supported for input grids",
-            p.false_easting_m, p.false_northing_m
-        )));
-    }
-    Ok(MapProjection { kind, earth })
 }
 
 /// A model grid with its georeferencing, cell-centre coordinates and per-cell metric.
@@ -344,10 +68,11 @@ pub struct Grid {
     /// Rows (north → south).
     pub ny: usize,
     /// How the grid sits on the Earth; written unchanged into every output GeoTIFF. For a
-    /// projected grid the geotransform is in the projection's metres (see [`Projection`]).
+    /// projected grid the geotransform is in the projection's metres. GRIB2 grids on lat/lon or
+    /// on a map projection (templates 3.0, 3.30, 3.20; WMO-No. 306 Vol. I.2) keep their CRS
+    /// here, so the layers are written on the grid as it came.
     pub georef: Georef,
-    /// Lat/lon or the map projection of `georef`'s x/y.
-    pub projection: Projection,
+    /// The transforms of a projected `georef.crs`; `None` on lat/lon.
     projector: Option<Projector>,
     lon: Vec<f64>,
     lat: Vec<f64>,
@@ -465,7 +190,8 @@ fn check_shape(nx: usize, ny: usize, gt: [f64; 6]) -> Result<(), GridError> {
 const METRIC_STEP_KM: f64 = 0.5;
 
 impl Grid {
-    /// Builds the grid and its metric from a GeoTIFF georeference.
+    /// Builds the grid and its metric from a georeference: on lat/lon, or on a projected CRS
+    /// whose transforms [`Projector`] supports (otherwise [`GridError::Projection`] says why).
     pub fn new(nx: usize, ny: usize, georef: Georef) -> Result<Self, GridError> {
         let gt = georef.geotransform;
         check_shape(nx, ny, gt)?;
@@ -474,7 +200,10 @@ impl Grid {
         let mut lat = Vec::with_capacity(n);
         let mut metric = Vec::with_capacity(n);
         match georef.crs {
-            Crs::Projected(p) => return Self::projected(nx, ny, gt, map_of(&p)?),
+            Crs::Projected(p) => {
+                let pj = Projector::new(&p).map_err(GridError::Projection)?;
+                return Self::projected(nx, ny, georef, pj);
+            }
             // A model's spherical Earth is taken as WGS 84 for lon/lat, as for GRIB2 grids.
             Crs::Wgs84Geographic | Crs::GeographicSphere { .. } => {
                 for row in 0..ny {
@@ -500,7 +229,6 @@ impl Grid {
             nx,
             ny,
             georef,
-            projection: Projection::LonLat,
             projector: None,
             lon,
             lat,
@@ -508,20 +236,13 @@ impl Grid {
         })
     }
 
-    /// Builds a grid on a map projection: `geotransform` is north-up in projected metres
+    /// The grid on a map projection: `georef`'s geotransform is north-up in projected metres
     /// (GDAL's convention, outer corner of the top-left cell). Every cell centre's lon/lat comes
     /// from the inverse projection, and its metric from central differences of the forward
     /// projection over ±[`METRIC_STEP_KM`] east and north of the centre — once per run, so the
     /// shift kernel runs no projection.
-    pub fn projected(
-        nx: usize,
-        ny: usize,
-        geotransform: [f64; 6],
-        map: MapProjection,
-    ) -> Result<Self, GridError> {
-        let gt = geotransform;
-        check_shape(nx, ny, gt)?;
-        let pj = Projector::new(&map)?;
+    fn projected(nx: usize, ny: usize, georef: Georef, pj: Projector) -> Result<Self, GridError> {
+        let gt = georef.geotransform;
         let n = nx * ny;
         let mut lon = Vec::with_capacity(n);
         let mut lat = Vec::with_capacity(n);
@@ -566,11 +287,7 @@ impl Grid {
         Ok(Self {
             nx,
             ny,
-            georef: Georef {
-                crs: crs_of(&map)?,
-                geotransform,
-            },
-            projection: Projection::Map(map),
+            georef,
             projector: Some(pj),
             lon,
             lat,
@@ -580,7 +297,7 @@ impl Grid {
 
     /// True when the grid is on a map projection rather than lat/lon.
     pub fn is_projected(&self) -> bool {
-        matches!(self.projection, Projection::Map(_))
+        self.projector.is_some()
     }
 
     /// Number of cells.
@@ -705,19 +422,16 @@ impl Grid {
         }
     }
 
-    /// True when both grids have the same size, georeference and projection.
+    /// True when both grids have the same size and georeference.
     pub fn same_as(&self, other: &Grid) -> bool {
-        self.nx == other.nx
-            && self.ny == other.ny
-            && self.georef == other.georef
-            && self.projection == other.projection
+        self.nx == other.nx && self.ny == other.ny && self.georef == other.georef
     }
 
     /// One line: size, projection and spacing, e.g. for messages and `trackswing inspect`.
     pub fn describe(&self) -> String {
         let gt = self.georef.geotransform;
-        match &self.projection {
-            Projection::LonLat => format!(
+        match &self.georef.crs {
+            Crs::Wgs84Geographic | Crs::GeographicSphere { .. } => format!(
                 "{}×{} cells on lat/lon, {}° × {}°, cell centres lon {:.4}…{:.4}, lat {:.4}…{:.4}",
                 self.nx,
                 self.ny,
@@ -728,7 +442,7 @@ impl Grid {
                 gt[3] + (self.ny as f64 - 0.5) * gt[5],
                 gt[3] + 0.5 * gt[5],
             ),
-            Projection::Map(m) => format!(
+            Crs::Projected(m) => format!(
                 "{}×{} cells of {} m × {} m, {}, x {:.1}…{:.1} m, y {:.1}…{:.1} m",
                 self.nx,
                 self.ny,
@@ -791,7 +505,6 @@ impl Grid {
                 crs: self.georef.crs,
                 geotransform,
             },
-            projection: self.projection.clone(),
             projector: self.projector.clone(),
             lon,
             lat,

@@ -34,7 +34,7 @@ mod validate;
 mod xml;
 
 pub use cog::{write_cog, BigTiff, CogOptions, CogReport};
-pub use crs::{Crs, Datum, Projected, Projection, WGS84_A, WGS84_INV_F};
+pub use crs::{Crs, Datum, Projected, Projection, Projector, WGS84_A, WGS84_F, WGS84_INV_F};
 pub use error::GeoTiffError;
 pub use overview::overview_sizes;
 pub use read::read_geotiff;

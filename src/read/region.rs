@@ -475,21 +475,25 @@ mod tests {
 
     #[test]
     fn projected_window_is_the_bounding_block_of_the_centres_in_the_box() {
-        use crate::grid::{Earth, MapKind, MapProjection};
-        let map = MapProjection {
-            kind: MapKind::LambertConformal {
-                lat_1: 40.0,
-                lat_2: 55.0,
-                lat_0: 45.0,
-                lon_0: -20.0,
-            },
-            earth: Earth {
-                a: 6_371_229.0,
-                b: 6_371_229.0,
-            },
-        };
+        use crate::geotiff::{Datum, Projected, Projection};
         let gt = [-1_250_000.0, 25_000.0, 0.0, 1_000_000.0, 0.0, -25_000.0];
-        let g = Grid::projected(100, 80, gt, map).unwrap();
+        let georef = Georef {
+            crs: Crs::Projected(Projected {
+                datum: Datum::Sphere {
+                    radius_m: 6_371_229.0,
+                },
+                projection: Projection::LambertConformal2Sp {
+                    lat_1: 40.0,
+                    lat_2: 55.0,
+                    lat_0: 45.0,
+                    lon_0: -20.0,
+                },
+                false_easting_m: 0.0,
+                false_northing_m: 0.0,
+            }),
+            geotransform: gt,
+        };
+        let g = Grid::new(100, 80, georef).unwrap();
         let r = Region::parse("-25,42,-15,48", "--region").unwrap();
         let w = Window::of(r, &g, "--region").unwrap();
         let inside = |i: usize| r.holds(g.lon()[i], g.lat()[i]);

@@ -333,8 +333,7 @@ pub fn to_track(found: &[FoundCentre], source: std::path::PathBuf) -> crate::rea
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::geotiff::{Crs, Georef};
-    use crate::grid::{Earth, MapKind, MapProjection};
+    use crate::geotiff::{Crs, Datum, Georef, Projected, Projection};
     use chrono::TimeZone;
 
     /// An analytic low: 101 000 Pa less 2 500 Pa·exp(−d²/2σ²), d the geodesic distance (Karney
@@ -359,25 +358,23 @@ mod tests {
     }
 
     fn lambert() -> Grid {
-        let map = MapProjection {
-            kind: MapKind::LambertConformal {
-                lat_1: 40.0,
-                lat_2: 55.0,
-                lat_0: 45.0,
-                lon_0: -20.0,
-            },
-            earth: Earth {
-                a: 6_371_229.0,
-                b: 6_371_229.0,
-            },
+        let georef = Georef {
+            crs: Crs::Projected(Projected {
+                datum: Datum::Sphere {
+                    radius_m: 6_371_229.0,
+                },
+                projection: Projection::LambertConformal2Sp {
+                    lat_1: 40.0,
+                    lat_2: 55.0,
+                    lat_0: 45.0,
+                    lon_0: -20.0,
+                },
+                false_easting_m: 0.0,
+                false_northing_m: 0.0,
+            }),
+            geotransform: [-1_250_000.0, 25_000.0, 0.0, 1_000_000.0, 0.0, -25_000.0],
         };
-        Grid::projected(
-            100,
-            80,
-            [-1_250_000.0, 25_000.0, 0.0, 1_000_000.0, 0.0, -25_000.0],
-            map,
-        )
-        .unwrap()
+        Grid::new(100, 80, georef).unwrap()
     }
 
     fn t(h: i64) -> DateTime<Utc> {

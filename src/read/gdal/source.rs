@@ -21,8 +21,8 @@ use super::band::{identify, BandInfo, Level, Meta, Quantity};
 use super::GdalError;
 use crate::diagnose::thermo::rh_from_dewpoint;
 use crate::diagnose::thermo::rh_from_specific;
-use crate::geotiff::{Crs, Georef};
-use crate::grid::{Earth, Grid, MapKind, MapProjection, WGS84_A, WGS84_F};
+use crate::geotiff::{Crs, Datum, Georef, Projected, Projection};
+use crate::grid::Grid;
 use crate::read::accumulation::{step_amount, Accumulation};
 use crate::read::fields::{
     assemble, check_range, level_tag, Labelled, StaticFields, StepFields, StepValues,
@@ -85,7 +85,8 @@ struct RawGrid {
     nx: usize,
     ny: usize,
     gt: [f64; 6],
-    map: Option<MapProjection>,
+    /// The projected CRS (its false origin moved into `gt`), `None` on lat/lon.
+    projected: Option<Projected>,
     /// GDAL's rows run south to north (positive row spacing): flipped on reading.
     flip: bool,
 }
@@ -133,10 +134,10 @@ fn proj_params(s: &str) -> Vec<(String, String)> {
         .collect()
 }
 
-/// The map projection of a PROJ string GDAL gives for a projected grid, with its false easting
-/// and northing (m). Lambert conformal conic and polar stereographic, as [`Grid::projected`]
-/// takes them.
-fn map_projection(proj: &str) -> Result<(MapProjection, f64, f64), String> {
+/// The projected CRS of a PROJ string GDAL gives for a projected grid (without its false origin)
+/// and the false easting and northing (m). Lambert conformal conic and polar stereographic, the
+/// projections [`Grid::new`] takes.
+fn projected_crs(proj: &str) -> Result<(Projected, f64, f64), String> {
     let p = proj_params(proj);
     let num = |k: &str| -> Option<f64> {
         p.iter()
@@ -144,20 +145,17 @@ fn map_projection(proj: &str) -> Result<(MapProjection, f64, f64), String> {
             .and_then(|(_, v)| v.parse().ok())
     };
     let text = |k: &str| p.iter().find(|(key, _)| key == k).map(|(_, v)| v.as_str());
-    let earth = if let Some(r) = num("R") {
-        Earth { a: r, b: r }
+    let datum = if let Some(r) = num("R") {
+        Datum::Sphere { radius_m: r }
     } else if let Some(a) = num("a") {
         let b = num("b")
             .or_else(|| num("rf").map(|rf| a * (1.0 - 1.0 / rf)))
             .unwrap_or(a);
-        Earth { a, b }
+        Datum::from_axes(a, b).map_err(|e| format!("'{proj}': {e}"))?
     } else if matches!(text("ellps"), Some("WGS84") | Some("GRS80"))
         || text("datum") == Some("WGS84")
     {
-        Earth {
-            a: WGS84_A,
-            b: WGS84_A * (1.0 - WGS84_F),
-        }
+        Datum::Wgs84
     } else {
         return Err(format!("'{proj}': no Earth radius or known ellipsoid"));
     };
@@ -170,10 +168,10 @@ fn map_projection(proj: &str) -> Result<(MapProjection, f64, f64), String> {
         ));
     }
     let need = |k: &str| num(k).ok_or_else(|| format!("'{proj}': no +{k}"));
-    let kind = match text("proj") {
+    let projection = match text("proj") {
         Some("lcc") => {
             let lat_1 = need("lat_1")?;
-            MapKind::LambertConformal {
+            Projection::LambertConformal2Sp {
                 lat_1,
                 lat_2: num("lat_2").unwrap_or(lat_1),
                 lat_0: num("lat_0").unwrap_or(lat_1),
@@ -187,10 +185,11 @@ fn map_projection(proj: &str) -> Result<(MapProjection, f64, f64), String> {
                     "'{proj}': only the polar aspect of the stereographic projection is supported"
                 ));
             }
-            MapKind::PolarStereographic {
-                lat_ts: num("lat_ts").unwrap_or(lat_0),
+            // The pole is the sign of lat_0; the CRS carries it as the sign of lat_ts.
+            let lat_ts = num("lat_ts").unwrap_or(lat_0).abs();
+            Projection::PolarStereographic {
+                lat_ts: if lat_0 > 0.0 { lat_ts } else { -lat_ts },
                 lon_0: num("lon_0").unwrap_or(0.0),
-                north: lat_0 > 0.0,
             }
         }
         other => {
@@ -201,7 +200,12 @@ fn map_projection(proj: &str) -> Result<(MapProjection, f64, f64), String> {
         }
     };
     Ok((
-        MapProjection { kind, earth },
+        Projected {
+            datum,
+            projection,
+            false_easting_m: 0.0,
+            false_northing_m: 0.0,
+        },
         num("x_0").unwrap_or(0.0),
         num("y_0").unwrap_or(0.0),
     ))
@@ -218,13 +222,13 @@ fn raw_grid(ds: &Dataset) -> Result<RawGrid, String> {
         gt[5] = -gt[5];
     }
     let srs = ds.spatial_ref().ok();
-    let map = match &srs {
+    let projected = match &srs {
         Some(s) if s.is_projected() => {
             let proj = s.to_proj4().map_err(|e| e.to_string())?;
-            let (map, x0, y0) = map_projection(&proj)?;
+            let (crs, x0, y0) = projected_crs(&proj)?;
             gt[0] -= x0;
             gt[3] -= y0;
-            Some(map)
+            Some(crs)
         }
         Some(s) if s.is_geographic() => None,
         Some(_) => {
@@ -245,14 +249,17 @@ fn raw_grid(ds: &Dataset) -> Result<RawGrid, String> {
     };
     // Lat/lon grids stored 180…360 (GRIB's usual longitudes) are given as −180…0, as the GRIB2
     // reader gives them.
-    if map.is_none() && gt[0] + 0.5 * gt[1] >= 180.0 && gt[0] + nx as f64 * gt[1] <= 360.0 + 1e-9 {
+    if projected.is_none()
+        && gt[0] + 0.5 * gt[1] >= 180.0
+        && gt[0] + nx as f64 * gt[1] <= 360.0 + 1e-9
+    {
         gt[0] -= 360.0;
     }
     Ok(RawGrid {
         nx,
         ny,
         gt,
-        map,
+        projected,
         flip,
     })
 }
@@ -266,8 +273,8 @@ fn raw_text(g: &RawGrid) -> String {
         g.gt[3],
         g.gt[1],
         g.gt[5],
-        g.map
-            .map(|m| format!(", {}", m.describe()))
+        g.projected
+            .map(|p| format!(", {}", p.describe()))
             .unwrap_or_default()
     )
 }
@@ -276,7 +283,7 @@ fn same_grid(a: &RawGrid, b: &RawGrid) -> bool {
     let close = |x: f64, y: f64| (x - y).abs() <= 1e-9 * x.abs().max(y.abs()).max(1.0);
     a.nx == b.nx
         && a.ny == b.ny
-        && a.map == b.map
+        && a.projected == b.projected
         && a.flip == b.flip
         && a.gt.iter().zip(&b.gt).all(|(x, y)| close(*x, *y))
 }
@@ -427,20 +434,16 @@ impl GdalSource {
                 used.iter().filter(|u| **u).count()
             ));
         }
-        let grid = match raw.map {
-            None => Grid::new(
-                raw.nx,
-                raw.ny,
-                Georef {
-                    crs: Crs::Wgs84Geographic,
-                    geotransform: raw.gt,
-                },
-            ),
-            Some(map) => Grid::projected(raw.nx, raw.ny, raw.gt, map),
-        }
-        .map_err(|source| crate::read::fields::FieldError::Grid {
-            path: datasets[entries[ti].ds].file.clone(),
-            source,
+        let crs = raw.projected.map_or(Crs::Wgs84Geographic, Crs::Projected);
+        let georef = Georef {
+            crs,
+            geotransform: raw.gt,
+        };
+        let grid = Grid::new(raw.nx, raw.ny, georef).map_err(|source| {
+            crate::read::fields::FieldError::Grid {
+                path: datasets[entries[ti].ds].file.clone(),
+                source,
+            }
         })?;
         let mut src = Self {
             datasets,
@@ -889,17 +892,17 @@ mod tests {
     use super::*;
 
     #[test]
-    fn proj_strings_gdal_writes_become_map_projections() {
+    fn proj_strings_gdal_writes_become_projected_crs() {
         // The PROJ strings are those `gdalsrsinfo -o proj4` prints for a Lambert conformal
         // and a north polar stereographic grid on a sphere of radius 6371229 m (GDAL 3.6).
-        let (m, x0, y0) = map_projection(
+        let (p, x0, y0) = projected_crs(
             "+proj=lcc +lat_0=25 +lon_0=265 +lat_1=25 +lat_2=25 +x_0=0 +y_0=0 +R=6371229 +units=m +no_defs",
         )
         .unwrap();
         assert_eq!((x0, y0), (0.0, 0.0));
         assert_eq!(
-            m.kind,
-            MapKind::LambertConformal {
+            p.projection,
+            Projection::LambertConformal2Sp {
                 lat_1: 25.0,
                 lat_2: 25.0,
                 lat_0: 25.0,
@@ -907,21 +910,20 @@ mod tests {
             }
         );
         assert_eq!(
-            m.earth,
-            Earth {
-                a: 6371229.0,
-                b: 6371229.0
+            p.datum,
+            Datum::Sphere {
+                radius_m: 6371229.0
             }
         );
-        let (m, _, _) = map_projection(
+        let (p, _, _) = projected_crs(
             "+proj=stere +lat_0=90 +lat_ts=60 +lon_0=-105 +k=1 +x_0=0 +y_0=0 +R=6371229 +units=m +no_defs",
         )
         .unwrap();
         assert!(matches!(
-            m.kind,
-            MapKind::PolarStereographic { north: true, lat_ts, .. } if lat_ts == 60.0
+            p.projection,
+            Projection::PolarStereographic { lat_ts, .. } if lat_ts == 60.0
         ));
-        let e = map_projection("+proj=merc +lon_0=0 +R=6371229").unwrap_err();
+        let e = projected_crs("+proj=merc +lon_0=0 +R=6371229").unwrap_err();
         assert!(e.contains("merc") && e.contains("Lambert"), "{e}");
     }
 }

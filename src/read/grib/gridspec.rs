@@ -11,8 +11,8 @@
 //! where the grid allows (a global grid stored 0…360 is rotated to start at −180; a regional
 //! grid across the antimeridian keeps longitudes above 180).
 
-use crate::geotiff::{Crs, Georef};
-use crate::grid::{project, Earth, Grid, GridError, MapKind, MapProjection};
+use crate::geotiff::{Crs, Datum, Georef, Projected, Projection};
+use crate::grid::{Grid, GridError};
 use grib::def::grib2::{GridDefinitionTemplate, Section3};
 use grib::TryFromSlice;
 
@@ -54,8 +54,9 @@ pub enum GridSpec {
         dy: f64,
         /// Flag table 3.4.
         scan: u8,
-        /// The projection.
-        map: MapProjection,
+        /// The projection and its Earth, with no false origin (GRIB places the grid by its
+        /// first point).
+        crs: Projected,
     },
 }
 
@@ -70,11 +71,16 @@ fn scaled(factor: u8, value: u32) -> Option<f64> {
         .then(|| f64::from(value) / 10f64.powi(i32::from(factor)))
 }
 
-fn earth(shape: &grib::def::grib2::template::param_set::EarthShape) -> Result<Earth, Unplaced> {
-    let sphere = |r: f64| Earth { a: r, b: r };
+/// The Earth of code table 3.2, as the datum the grid's CRS is written with (see
+/// [`Datum::from_axes`]: ellipsoids other than WGS 84 and GRS 80 are not placed).
+fn earth(shape: &grib::def::grib2::template::param_set::EarthShape) -> Result<Datum, Unplaced> {
+    let sphere = |r: f64| Datum::Sphere { radius_m: r };
     let given = |f: u8, v: u32, what: &str| {
         scaled(f, v)
             .ok_or_else(|| Unplaced(format!("earth shape {}: {what} is missing", shape.shape)))
+    };
+    let axes = |a: f64, b: f64| {
+        Datum::from_axes(a, b).map_err(|e| Unplaced(format!("earth shape {}, {e}", shape.shape)))
     };
     Ok(match shape.shape {
         0 => sphere(6_367_470.0),
@@ -83,33 +89,24 @@ fn earth(shape: &grib::def::grib2::template::param_set::EarthShape) -> Result<Ea
             shape.spherical_earth_radius.scaled_value,
             "the radius",
         )?),
-        2 => Earth {
-            a: 6_378_160.0,
-            b: 6_378_160.0 * (1.0 - 1.0 / 297.0),
-        },
+        2 => axes(6_378_160.0, 6_378_160.0 * (1.0 - 1.0 / 297.0))?,
         3 | 7 => {
             let k = if shape.shape == 3 { 1000.0 } else { 1.0 };
-            Earth {
-                a: k * given(
+            axes(
+                k * given(
                     shape.major_axis.scale_factor,
                     shape.major_axis.scaled_value,
                     "the major axis",
                 )?,
-                b: k * given(
+                k * given(
                     shape.minor_axis.scale_factor,
                     shape.minor_axis.scaled_value,
                     "the minor axis",
                 )?,
-            }
+            )?
         }
-        4 => Earth {
-            a: 6_378_137.0,
-            b: 6_378_137.0 * (1.0 - 1.0 / 298.257_222_101),
-        },
-        5 => Earth {
-            a: crate::grid::WGS84_A,
-            b: crate::grid::WGS84_A * (1.0 - crate::grid::WGS84_F),
-        },
+        4 => axes(6_378_137.0, 6_378_137.0 * (1.0 - 1.0 / 298.257_222_101))?,
+        5 => Datum::Wgs84,
         6 => sphere(6_371_229.0),
         8 => sphere(6_371_200.0),
         s => return Err(Unplaced(format!("earth shape {s} of code table 3.2"))),
@@ -217,14 +214,16 @@ pub fn grid_spec(sect3: &[u8]) -> Result<GridSpec, Unplaced> {
             dx: f64::from(t.dx) * 1e-3,
             dy: f64::from(t.dy) * 1e-3,
             scan: check_scan(t.scanning_mode.0)?,
-            map: MapProjection {
-                kind: MapKind::LambertConformal {
+            crs: Projected {
+                datum: earth(&t.earth_shape)?,
+                projection: Projection::LambertConformal2Sp {
                     lat_1: micro(i64::from(t.latin1)),
                     lat_2: micro(i64::from(t.latin2)),
                     lat_0: micro(i64::from(t.lad)),
                     lon_0: lon180(micro(i64::from(t.lov))),
                 },
-                earth: earth(&t.earth_shape)?,
+                false_easting_m: 0.0,
+                false_northing_m: 0.0,
             },
         }),
         GridDefinitionTemplate::_3_20(t) => Ok(GridSpec::Map {
@@ -235,13 +234,20 @@ pub fn grid_spec(sect3: &[u8]) -> Result<GridSpec, Unplaced> {
             dx: f64::from(t.dx) * 1e-3,
             dy: f64::from(t.dy) * 1e-3,
             scan: check_scan(t.scanning_mode.0)?,
-            map: MapProjection {
-                kind: MapKind::PolarStereographic {
-                    lat_ts: micro(i64::from(t.lad)),
+            crs: Projected {
+                datum: earth(&t.earth_shape)?,
+                // The projection centre flag (bit 1 clear: north pole on the plane) chooses the
+                // pole; the CRS carries it as the sign of the latitude of true scale.
+                projection: Projection::PolarStereographic {
+                    lat_ts: if t.projection_centre.0 & 0x80 == 0 {
+                        micro(i64::from(t.lad)).abs()
+                    } else {
+                        -micro(i64::from(t.lad)).abs()
+                    },
                     lon_0: lon180(micro(i64::from(t.lov))),
-                    north: t.projection_centre.0 & 0x80 == 0,
                 },
-                earth: earth(&t.earth_shape)?,
+                false_easting_m: 0.0,
+                false_northing_m: 0.0,
             },
         }),
         _ => Err(Unplaced(format!("grid definition template 3.{template}"))),
@@ -328,10 +334,12 @@ impl GridSpec {
                 lo1,
                 dx,
                 dy,
-                map,
+                crs,
                 ..
             } => {
-                let (x1, y1) = project(map, lon180(*lo1), *la1)?;
+                let (x1, y1) = crs
+                    .project(lon180(*lo1), *la1)
+                    .map_err(GridError::Projection)?;
                 let west = if minus_i {
                     x1 - (ni - 1) as f64 * dx
                 } else {
@@ -343,7 +351,11 @@ impl GridSpec {
                     y1
                 };
                 let gt = [west - dx / 2.0, *dx, 0.0, north + dy / 2.0, 0.0, -dy];
-                (Grid::projected(ni, nj, gt, *map)?, 0)
+                let georef = Georef {
+                    crs: Crs::Projected(*crs),
+                    geotransform: gt,
+                };
+                (Grid::new(ni, nj, georef)?, 0)
             }
         };
         let n = ni * nj;

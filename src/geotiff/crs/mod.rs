@@ -5,13 +5,22 @@
 //! Parameters follow the EPSG method names (IOGP Guidance Note 7-2) and PROJ's parameter names;
 //! [`Crs::proj_string`] gives the PROJ definition written to the manifest and compared with what
 //! GDAL reads back from the GeoKeys (`gdalsrsinfo -o proj4`).
+//!
+//! This is the crate's one CRS model: the readers build it, [`Grid`](crate::grid::Grid) holds
+//! it (through its `Georef`) and takes cell centres through its transforms (`transform.rs`),
+//! and the GeoTIFF writer writes it as GeoKeys.
+
+mod transform;
 
 use super::metadata::format_number;
+pub use transform::Projector;
 
 /// WGS 84 semi-major axis, m (NIMA TR8350.2, table 3.1).
 pub const WGS84_A: f64 = 6_378_137.0;
 /// WGS 84 inverse flattening (NIMA TR8350.2, table 3.1).
 pub const WGS84_INV_F: f64 = 298.257_223_563;
+/// WGS 84 flattening.
+pub const WGS84_F: f64 = 1.0 / WGS84_INV_F;
 
 /// The figure of the Earth a CRS is defined on.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -26,14 +35,42 @@ pub enum Datum {
 }
 
 impl Datum {
-    /// Semi-major axis `a` (m) and first eccentricity `e`.
-    pub fn axis_and_eccentricity(&self) -> (f64, f64) {
+    /// The datum of an Earth given by its semi-axes `a` and `b` (m), as GRIB2's code table 3.2
+    /// and PROJ's `+a`/`+b` give it: a sphere when a = b, WGS 84 for its ellipsoid (GRS 80, 0.1 mm
+    /// away in the semi-minor axis, counts as WGS 84, as GIS software takes it). Other ellipsoids
+    /// have no GeoTIFF datum here, so no grid is built on them.
+    ///
+    /// ```
+    /// use trackswing::geotiff::Datum;
+    /// assert_eq!(Datum::from_axes(6_371_229.0, 6_371_229.0), Ok(Datum::Sphere { radius_m: 6_371_229.0 }));
+    /// assert_eq!(Datum::from_axes(6_378_137.0, 6_356_752.314_140), Ok(Datum::Wgs84)); // GRS 80
+    /// assert!(Datum::from_axes(6_378_160.0, 6_356_774.719).is_err()); // IAU 1965
+    /// ```
+    pub fn from_axes(a: f64, b: f64) -> Result<Datum, String> {
+        if a == b {
+            Ok(Datum::Sphere { radius_m: a })
+        } else if a == WGS84_A && (b - Datum::Wgs84.axes().1).abs() < 1e-3 {
+            Ok(Datum::Wgs84)
+        } else {
+            Err(format!(
+                "ellipsoid a = {a} m, b = {b} m (only WGS 84 or a sphere can be written as a GeoTIFF CRS)"
+            ))
+        }
+    }
+
+    /// Semi-major and semi-minor axes, m.
+    pub fn axes(&self) -> (f64, f64) {
         match *self {
-            Datum::Wgs84 => {
-                let f = 1.0 / WGS84_INV_F;
-                (WGS84_A, (f * (2.0 - f)).sqrt())
-            }
-            Datum::Sphere { radius_m } => (radius_m, 0.0),
+            Datum::Wgs84 => (WGS84_A, WGS84_A * (1.0 - WGS84_F)),
+            Datum::Sphere { radius_m } => (radius_m, radius_m),
+        }
+    }
+
+    /// The Earth in words, e.g. `sphere R = 6371229 m`.
+    fn describe(&self) -> String {
+        match self.axes() {
+            (a, b) if a == b => format!("sphere R = {a} m"),
+            (a, b) => format!("ellipsoid a = {a} m, b = {b} m"),
         }
     }
 
@@ -103,7 +140,59 @@ pub struct Projected {
     pub false_northing_m: f64,
 }
 
-/// Coordinate reference system of a layer.
+impl Projected {
+    /// A short human-readable name with the parameters, e.g. for `trackswing inspect`.
+    ///
+    /// ```
+    /// use trackswing::geotiff::*;
+    /// let p = Projected {
+    ///     datum: Datum::Sphere { radius_m: 6371229.0 },
+    ///     projection: Projection::PolarStereographic { lat_ts: 60.0, lon_0: -105.0 },
+    ///     false_easting_m: 0.0,
+    ///     false_northing_m: 0.0,
+    /// };
+    /// assert_eq!(p.describe(), "north polar stereographic (true scale at 60°; central meridian -105°; sphere R = 6371229 m)");
+    /// ```
+    pub fn describe(&self) -> String {
+        let earth = self.datum.describe();
+        let origin = if self.false_easting_m != 0.0 || self.false_northing_m != 0.0 {
+            format!(
+                "; false origin {} m, {} m",
+                self.false_easting_m, self.false_northing_m
+            )
+        } else {
+            String::new()
+        };
+        match self.projection {
+            Projection::LambertConformal2Sp {
+                lat_1,
+                lat_2,
+                lat_0,
+                lon_0,
+            } => format!(
+                "Lambert conformal conic (standard parallels {lat_1}°, {lat_2}°; origin {lat_0}°N; central meridian {lon_0}°; {earth}{origin})"
+            ),
+            Projection::LambertConformal1Sp {
+                lat_0,
+                lon_0,
+                scale,
+            } => format!(
+                "Lambert conformal conic (standard parallel {lat_0}°, scale {scale}; central meridian {lon_0}°; {earth}{origin})"
+            ),
+            Projection::PolarStereographic { lat_ts, lon_0 } => format!(
+                "{} polar stereographic (true scale at {}°; central meridian {lon_0}°; {earth}{origin})",
+                if lat_ts < 0.0 { "south" } else { "north" },
+                lat_ts.abs()
+            ),
+            Projection::Mercator { lat_ts, lon_0 } => format!(
+                "Mercator (true scale at ±{}°; central meridian {lon_0}°; {earth}{origin})",
+                lat_ts.abs()
+            ),
+        }
+    }
+}
+
+/// Coordinate reference system of a model grid and of the layers written on it.
 ///
 /// Geographic CRSs have x = longitude, y = latitude in degrees; projected CRSs have x = easting,
 /// y = northing in metres.

@@ -6,6 +6,7 @@
 //! track can also be found from the model's sea-level pressure ([`track_finder`]).
 
 pub mod accumulation;
+pub mod choose;
 pub mod fields;
 #[cfg(feature = "gdal")]
 pub mod gdal;

@@ -45,22 +45,6 @@ pub enum Quantity {
     Mslp,
 }
 
-impl Quantity {
-    /// The words used in messages.
-    pub fn name(&self) -> &'static str {
-        match self {
-            Self::Temperature => "air temperature",
-            Self::Height => "geopotential height",
-            Self::RelativeHumidity => "relative humidity",
-            Self::SpecificHumidity => "specific humidity",
-            Self::Dewpoint => "dew-point temperature",
-            Self::Precipitation => "precipitation amount",
-            Self::Terrain => "surface altitude",
-            Self::Mslp => "sea-level pressure",
-        }
-    }
-}
-
 /// Where a field sits vertically.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub enum Level {
@@ -70,18 +54,6 @@ pub enum Level {
     AboveGround(f64),
     /// The ground, mean sea level or a field that is not levelled (precipitation, terrain).
     Surface,
-}
-
-impl Level {
-    /// True when both are the same level (isobaric to 0.5 Pa).
-    pub fn same(&self, other: &Level) -> bool {
-        match (self, other) {
-            (Self::Isobaric(a), Self::Isobaric(b)) => (a - b).abs() < 0.5,
-            (Self::AboveGround(a), Self::AboveGround(b)) => (a - b).abs() < 1e-6,
-            (Self::Surface, Self::Surface) => true,
-            _ => false,
-        }
-    }
 }
 
 /// One band identified.

@@ -2,12 +2,14 @@
 //! the system GDAL library (the `gdal` cargo feature; Debian: libgdal-dev).
 //!
 //! Fields are found by the band metadata each GDAL driver exposes ([`band`]); the case is then
-//! chosen as for GRIB2 ([`source`]): the steps are the valid times of the isobaric
-//! temperatures, the levels those complete at the first step. GDAL's GRIB driver converts
+//! chosen by the rules the GRIB2 reader uses too ([`crate::read::choose`], asked by [`source`]):
+//! the steps are the valid times of the isobaric temperatures, the levels those complete at the
+//! first step. GDAL's GRIB driver converts
 //! temperatures to °C unless `GRIB_NORMALIZE_UNITS=NO`; trackswing sets that option before
 //! opening any file, and maps whatever units a file declares to K, %, m, kg m⁻² and Pa.
 
 pub mod band;
+mod grid;
 pub mod source;
 
 pub use source::GdalSource;
@@ -49,4 +51,13 @@ pub enum GdalError {
     /// Values outside physical ranges, or a grid trackswing cannot use.
     #[error(transparent)]
     Values(#[from] FieldError),
+}
+
+impl From<crate::read::choose::Missing> for GdalError {
+    fn from(m: crate::read::choose::Missing) -> Self {
+        Self::Missing {
+            path: m.path,
+            what: m.what,
+        }
+    }
 }

@@ -3,8 +3,9 @@
 
 use super::catalog::Catalog;
 use super::product::{short, Param, Surface};
-use super::source::Chooser;
+use super::source::catalogue;
 use super::GribError;
+use crate::read::choose::Chooser;
 use std::collections::BTreeMap;
 use std::fmt::Write;
 use std::path::PathBuf;
@@ -185,20 +186,25 @@ pub fn inspect(files: &[PathBuf]) -> Result<String, GribError> {
     }
     let _ = writeln!(out, "\nCase requirements:");
     let mark = |ok: bool| if ok { "met    " } else { "MISSING" };
-    let ch = match Chooser::new(&cat) {
-        Ok(c) => c,
+    let chosen = catalogue(&cat).and_then(|(grid, fields)| {
+        let steps = Chooser::new(&fields).steps()?;
+        Ok((grid, fields, steps))
+    });
+    let (grid, fields, steps) = match chosen {
+        Ok((Some(grid), fields, steps)) => (grid, fields, steps),
+        Ok((None, ..)) => unreachable!("steps are isobaric temperatures on the case grid"),
         Err(e) => {
             let _ = writeln!(out, "  {} isobaric temperature: {e}", mark(false));
             return Ok(out);
         }
     };
+    let ch = Chooser::new(&fields);
     let _ = writeln!(
         out,
         "  {} case grid: grid {} (the one with the most isobaric temperatures)",
         mark(true),
-        ch.grid + 1
+        grid + 1
     );
-    let steps = ch.steps();
     let _ = writeln!(
         out,
         "  {} time steps: {} ({}…{})",
@@ -222,8 +228,8 @@ pub fn inspect(files: &[PathBuf]) -> Result<String, GribError> {
             );
             let mut problems = Vec::new();
             for k in 0..steps.len() {
-                if let Err(e) = ch_step(&ch, &steps, &levels, k) {
-                    problems.push(e);
+                if let Err(e) = ch.step(&steps, &levels, k) {
+                    problems.push(e.to_string());
                 }
             }
             if problems.is_empty() {
@@ -243,7 +249,8 @@ pub fn inspect(files: &[PathBuf]) -> Result<String, GribError> {
         }
     }
     match ch.terrain() {
-        Ok((i, _)) => {
+        Ok(height) => {
+            let i = height.field;
             let _ = writeln!(
                 out,
                 "  {} terrain: {} ({})",
@@ -264,15 +271,6 @@ pub fn inspect(files: &[PathBuf]) -> Result<String, GribError> {
         steps.len()
     );
     Ok(out)
-}
-
-fn ch_step(
-    ch: &Chooser<'_>,
-    steps: &[chrono::DateTime<chrono::Utc>],
-    levels: &[f64],
-    k: usize,
-) -> Result<(), String> {
-    ch.step_check(steps, levels, k).map_err(|e| e.to_string())
 }
 
 #[cfg(test)]

@@ -7,7 +7,8 @@
 //!   file's scanning mode;
 //! - [`decode`]: values (Sections 5–7, bit maps including 254);
 //! - [`catalog`]: every usable field of a set of files;
-//! - [`source`]: the case's fields chosen from the catalog, step by step;
+//! - [`source`]: the case grid, the catalog as [`crate::read::choose`] sees it, and decoding
+//!   the chosen fields step by step;
 //! - [`inspect`]: what `trackswing inspect` prints.
 //!
 //! Reference: WMO, *Manual on Codes*, WMO-No. 306, Volume I.2, Part B, FM 92 GRIB edition 2.
@@ -75,4 +76,13 @@ pub enum GribError {
     /// Decoded values fail the plausibility checks.
     #[error(transparent)]
     Values(Box<crate::read::FieldError>),
+}
+
+impl From<crate::read::choose::Missing> for GribError {
+    fn from(m: crate::read::choose::Missing) -> Self {
+        Self::Missing {
+            path: m.path,
+            what: m.what,
+        }
+    }
 }

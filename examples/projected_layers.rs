@@ -175,7 +175,7 @@ fn main() -> anyhow::Result<()> {
         path: case_path,
         title: "Synthetic run on a Lambert conformal grid (invented)".into(),
         inputs: Inputs {
-            member: Member {
+            members: vec![Member {
                 name: "synthetic-lambert".into(),
                 terrain: terrain_path.clone(),
                 steps: vec![terrain_path],
@@ -183,7 +183,9 @@ fn main() -> anyhow::Result<()> {
                 track: None,
                 format: InputFormat::GeoTiff,
                 find_track: false,
-            },
+                weight: 1.0,
+                perturbation: None,
+            }],
             towns: Some(towns_path),
             region: None,
         },
@@ -203,6 +205,7 @@ fn main() -> anyhow::Result<()> {
                 dry_air: false,
             },
             fixed_ratio: 10.0,
+            options: Vec::new(),
         },
         summary: SummarySettings {
             prior: trackswing::summarise::weights::TrackPrior::Gaussian {

@@ -91,7 +91,7 @@ fn stopped(e: anyhow::Error) -> Failure {
 enum Plan<'a> {
     CaseFile(&'a Path),
     ModelFiles {
-        files: &'a [PathBuf],
+        members: Vec<(Option<String>, Vec<PathBuf>)>,
         track: Option<&'a str>,
         towns: Option<&'a Path>,
     },
@@ -144,6 +144,28 @@ fn run_case(
     let progress = console::Bar::new(common.quiet);
     let started = std::time::Instant::now();
     let mut merged = None;
+    if case.is_ensemble() && !matches!(mode, Mode::Layers) {
+        return Err(Failure::Usage(anyhow::anyhow!(
+            "shards of a case with several members or methods are not supported yet: run it in one piece (without --shard), or split it into one case per member"
+        )));
+    }
+    if case.is_ensemble() {
+        let ensemble =
+            trackswing::engine::run_groups(&case, threads, &progress).map_err(engine_failure)?;
+        let summary = trackswing::summarise::summary::summarise_ensemble(&case, &ensemble)
+            .with_context(|| format!("{}: the track-error weights", case.path.display()))
+            .map_err(Failure::Input)?;
+        let result = &ensemble.groups[0].run;
+        let clock = std::time::Instant::now();
+        let outcome = trackswing::write::write_ensemble(&case, &ensemble, &summary)
+            .with_context(|| format!("writing the layers into {}", case.output.out_dir.display()))
+            .map_err(Failure::Output)?;
+        if !common.quiet {
+            let write_s = clock.elapsed().as_secs_f64();
+            console::summary(&case, result, &outcome, (started.elapsed(), write_s), None);
+        }
+        return Ok(());
+    }
     let result = match mode {
         Mode::Layers => {
             trackswing::engine::run(&case, threads, &progress).map_err(engine_failure)?
@@ -249,10 +271,10 @@ fn load_case(plan: Plan<'_>, over: &Overrides) -> Result<Case, Failure> {
     match plan {
         Plan::CaseFile(p) => Case::load(p, over),
         Plan::ModelFiles {
-            files,
+            members,
             track,
             towns,
-        } => Case::from_model_files(files, track, towns, over),
+        } => Case::from_model_members(&members, track, towns, over),
     }
     .map_err(case_failure)
 }
@@ -273,14 +295,42 @@ fn plan_of(read: &args::Inputs) -> Result<Plan<'_>, Failure> {
         return Ok(Plan::CaseFile(&inputs[0]));
     }
     Ok(Plan::ModelFiles {
-        files: inputs,
+        members: vec![(None, inputs.clone())],
         track,
         towns,
     })
 }
 
+/// `--member NAME=FILES` of `run`: more members after the model files given first.
+fn add_members(plan: &mut Plan<'_>, given: &[String]) -> Result<(), Failure> {
+    if given.is_empty() {
+        return Ok(());
+    }
+    let Plan::ModelFiles { members, .. } = plan else {
+        return Err(Failure::Usage(anyhow::anyhow!(
+            "--member goes with model files; a case file lists its members as [[member]] tables"
+        )));
+    };
+    for m in given {
+        let (name, files) = m
+            .split_once('=')
+            .filter(|(n, f)| !n.trim().is_empty() && !f.is_empty())
+            .ok_or_else(|| {
+                Failure::Usage(anyhow::anyhow!(
+                    "--member '{m}': expected NAME=FILES, e.g. --member cycle-00z=runs/00z/ (a folder, a pattern with one '*', or files separated by commas)"
+                ))
+            })?;
+        members.push((
+            Some(name.trim().to_string()),
+            files.split(',').map(PathBuf::from).collect(),
+        ));
+    }
+    Ok(())
+}
+
 fn run_plan(a: &args::RunArgs) -> Result<(), Failure> {
-    let plan = plan_of(&a.read)?;
+    let mut plan = plan_of(&a.read)?;
+    add_members(&mut plan, &a.member)?;
     let mode = match &a.shard {
         None => Mode::Layers,
         Some(text) => Mode::Shard(trackswing::shard::Shard::parse(text).ok_or_else(|| {
@@ -328,6 +378,24 @@ fn sounding(a: &args::SoundingArgs) -> Result<(), Failure> {
         ..Default::default()
     };
     let case = load_case(plan_of(&a.read)?, &over)?;
+    let members = &case.inputs.members;
+    let member = match &a.member {
+        None => 0,
+        Some(name) => members
+            .iter()
+            .position(|m| &m.name == name)
+            .ok_or_else(|| {
+                bad(format!(
+                    "--member '{name}': the case has no such member; its members are {}",
+                    members
+                        .iter()
+                        .map(|m| m.name.as_str())
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                ))
+            })?,
+    };
+    let case = case.group(member, 0);
     let req = trackswing::sounding::SoundingRequest {
         lat,
         lon,
@@ -405,6 +473,8 @@ fn main() -> ExitCode {
             let spec = trackswing::demo::spec_from(a.nx, a.ny, a.steps, a.step_hours, a.levels);
             if a.grib2 {
                 trackswing::demo::grib2_case::write_case_grib2(&a.out, &spec)
+            } else if a.members {
+                trackswing::demo::files::write_members_case(&a.out, &spec)
             } else {
                 trackswing::demo::files::write_case(&a.out, &spec)
             }

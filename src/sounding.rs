@@ -210,6 +210,8 @@ pub enum StepChoice {
 pub struct Sounding {
     /// Case title.
     pub title: String,
+    /// The member shown.
+    pub member: String,
     /// Requested latitude.
     pub lat: f64,
     /// Requested longitude.
@@ -424,12 +426,8 @@ fn wettest(precip: &[f64]) -> Option<usize> {
 /// here and in towns.csv. The profile shown is that of the cell of largest weight; the onset is
 /// that cell's, as in towns.csv.
 pub fn sounding(case: &Case, req: &SoundingRequest) -> Result<Sounding, SoundingError> {
-    let source = open_source(
-        &case.inputs.member,
-        case.inputs.region.as_ref(),
-        &|_: &str| {},
-    )
-    .map_err(EngineError::from)?;
+    let source = open_source(case.member(), case.inputs.region.as_ref(), &|_: &str| {})
+        .map_err(EngineError::from)?;
     let statics = source.statics();
     let grid = statics.grid.clone();
     let b = grid
@@ -512,6 +510,7 @@ pub fn sounding(case: &Case, req: &SoundingRequest) -> Result<Sounding, Sounding
         .collect();
     let mut out = Sounding {
         title: case.title.clone(),
+        member: case.member().name.clone(),
         lat: req.lat,
         lon: req.lon,
         cells,
@@ -710,7 +709,11 @@ fn ew(lon: f64) -> String {
 
 impl fmt::Display for Sounding {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        writeln!(f, "trackswing sounding: {}", self.title)?;
+        writeln!(
+            f,
+            "trackswing sounding: {} (member {})",
+            self.title, self.member
+        )?;
         writeln!(
             f,
             "point {} {}: totals bilinear from the four surrounding cell centres (as in towns.csv):",

@@ -91,8 +91,9 @@ pub struct Case {
 /// What a case reads.
 #[derive(Clone, Debug)]
 pub struct Inputs {
-    /// The member to run.
-    pub member: Member,
+    /// The members (models, cycles or ensemble members), in the case's order; the first is the
+    /// primary, whose run the single-member layers describe.
+    pub members: Vec<Member>,
     /// Towns CSV.
     pub towns: Option<PathBuf>,
     /// The lon/lat box of the model grid to read, and where it was given (`--region`, or the
@@ -110,6 +111,25 @@ pub struct Physics {
     /// The ratio the `fixed` snow-ratio method uses (also when another method runs, for
     /// comparisons such as the sounding view).
     pub fixed_ratio: f64,
+    /// Every method combination the case lists, with its weight (adding up to 1); `methods`
+    /// is the first.
+    pub options: Vec<MethodOption>,
+}
+
+/// One combination of methods and its weight in the blend.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct MethodOption {
+    /// The methods.
+    pub methods: Methods,
+    /// Its weight (the options' weights add up to 1).
+    pub weight: f64,
+}
+
+impl MethodOption {
+    /// `precip-type/snow-ratio`, e.g. `energy-area/growth-zone`, for labels and band metadata.
+    pub fn label(&self) -> String {
+        format!("{}/{}", self.methods.ptype.name(), self.methods.slr.name())
+    }
 }
 
 /// How the scenarios are weighed and summarised.
@@ -160,12 +180,36 @@ impl Case {
 
     /// Every input file of the run: the case, terrain, steps, track and towns.
     pub fn inputs(&self) -> Vec<PathBuf> {
-        let m = &self.inputs.member;
-        let mut v = vec![self.path.clone(), m.terrain.clone()];
-        v.extend(m.steps.iter().cloned());
-        v.extend(m.track.iter().cloned());
+        let mut v = vec![self.path.clone()];
+        for m in &self.inputs.members {
+            v.push(m.terrain.clone());
+            v.extend(m.steps.iter().cloned());
+            v.extend(m.track.iter().cloned());
+        }
         v.extend(self.inputs.towns.iter().cloned());
         v
+    }
+
+    /// The primary member: the first the case lists.
+    pub fn member(&self) -> &Member {
+        &self.inputs.members[0]
+    }
+
+    /// Whether the case runs more than one member or method combination.
+    pub fn is_ensemble(&self) -> bool {
+        self.inputs.members.len() > 1 || self.physics.options.len() > 1
+    }
+
+    /// The case for one member and one method combination: what the engine runs.
+    pub fn group(&self, member: usize, option: usize) -> Case {
+        let mut c = self.clone();
+        c.inputs.members = vec![self.inputs.members[member].clone()];
+        c.physics.methods = self.physics.options[option].methods;
+        c.physics.options = vec![MethodOption {
+            methods: c.physics.methods,
+            weight: 1.0,
+        }];
+        c
     }
 }
 
@@ -179,31 +223,36 @@ impl Case {
         towns: Option<&Path>,
         over: &Overrides,
     ) -> Result<Self, CaseError> {
-        let ModelFiles { files, skipped } = expand_model_args(files)?;
+        Self::from_model_members(&[(None, files.to_vec())], track, towns, over)
+    }
+
+    /// A case of several members given on the command line (`--member NAME=FILES`), each a
+    /// list of files, folders or patterns; a member without a name is named after its first
+    /// file. `track` (a file, or `find`: each member's own low) applies to every member.
+    pub fn from_model_members(
+        members: &[(Option<String>, Vec<PathBuf>)],
+        track: Option<&str>,
+        towns: Option<&Path>,
+        over: &Overrides,
+    ) -> Result<Self, CaseError> {
         let abs = |p: &Path| -> String {
             std::path::absolute(p)
                 .unwrap_or_else(|_| p.to_path_buf())
                 .to_string_lossy()
                 .into_owned()
         };
-        let name = files[0]
-            .file_stem()
-            .and_then(|s| s.to_str())
-            .unwrap_or("model")
-            .to_string();
-        let file = CaseFile {
-            title: format!(
-                "model files {}{}",
-                files[0].display(),
-                if files.len() > 1 {
-                    format!(" and {} more", files.len() - 1)
-                } else {
-                    String::new()
-                }
-            ),
-            towns: towns.map(abs),
-            region: None,
-            member: vec![MemberFile {
+        let mut found = Vec::new();
+        let mut entries = Vec::new();
+        for (name, items) in members {
+            let ModelFiles { files, skipped } = expand_model_args(items)?;
+            let name = name.clone().unwrap_or_else(|| {
+                files[0]
+                    .file_stem()
+                    .and_then(|s| s.to_str())
+                    .unwrap_or("model")
+                    .to_string()
+            });
+            entries.push(MemberFile {
                 name,
                 terrain: None,
                 steps: None,
@@ -216,7 +265,36 @@ impl Case {
                         abs(Path::new(t))
                     }
                 }),
-            }],
+                weight: None,
+            });
+            found.push((files, skipped));
+        }
+        let first = &found[0].0;
+        let file = CaseFile {
+            title: if members.len() > 1 {
+                format!(
+                    "{} members: {}",
+                    entries.len(),
+                    entries
+                        .iter()
+                        .map(|m| m.name.as_str())
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                )
+            } else {
+                format!(
+                    "model files {}{}",
+                    first[0].display(),
+                    if first.len() > 1 {
+                        format!(" and {} more", first.len() - 1)
+                    } else {
+                        String::new()
+                    }
+                )
+            },
+            towns: towns.map(abs),
+            region: None,
+            member: entries,
             offsets: OffsetsFile::default(),
             shift: ShiftFile::default(),
             methods: MethodsFile::default(),
@@ -231,8 +309,10 @@ impl Case {
         };
         let mut case = resolve::resolve(Path::new("command line"), file, over)?;
         // No case file exists; the manifest hashes `path`, so it names the first model file.
-        case.path = files[0].clone();
-        case.inputs.member.skipped = skipped;
+        case.path = first[0].clone();
+        for (m, (_, skipped)) in case.inputs.members.iter_mut().zip(found) {
+            m.skipped = skipped;
+        }
         Ok(case)
     }
 }
@@ -350,8 +430,8 @@ snow_ratio = "max-column-temperature"
         let c = Case::load(&p, &Overrides::default()).unwrap();
         assert_eq!(c.axes.cross_km, vec![-20.0, -10.0, 0.0, 10.0, 20.0]);
         assert_eq!(c.axes.along_km, vec![0.0, 50.0]);
-        assert_eq!(c.inputs.member.steps.len(), 2);
-        assert!(c.inputs.member.steps[0].ends_with("f/s_00.tif"));
+        assert_eq!(c.member().steps.len(), 2);
+        assert!(c.member().steps[0].ends_with("f/s_00.tif"));
         assert_eq!(c.physics.methods.slr, SlrMethod::MaxColumnTemperature);
         assert_eq!(c.physics.taper.core_radius_km, DEFAULT_CORE_KM);
         let over = Overrides {
@@ -449,5 +529,81 @@ snow_ratio = "max-column-temperature"
             e.contains("--along") && e.contains("step must be positive"),
             "{e}"
         );
+    }
+
+    #[test]
+    fn several_members_and_method_lists() {
+        let two = GOOD.replace(
+            "[offsets]",
+            "weight = 3\n[[member]]\nname = \"n\"\nterrain = \"terrain.tif\"\nsteps = \"f/s_*.tif\"\ntrack = \"track.csv\"\n[offsets]",
+        );
+        let two = two.replace(
+            "snow_ratio = \"max-column-temperature\"",
+            "snow_ratio = \"fixed, growth-zone\"\nprecip_type = \"energy-area,surface-logistic\"\nsnow_ratio_weights = [3, 1]",
+        );
+        let (_d, p) = setup(&two);
+        let c = Case::load(&p, &Overrides::default()).unwrap();
+        assert_eq!(c.inputs.members.len(), 2);
+        assert_eq!(
+            (c.inputs.members[0].weight, c.inputs.members[1].weight),
+            (3.0, 1.0)
+        );
+        assert!(c.is_ensemble());
+        // Precipitation type outer, snow ratio inner; weights ½ × ¾, ½ × ¼.
+        let labels: Vec<String> = c.physics.options.iter().map(|o| o.label()).collect();
+        assert_eq!(
+            labels,
+            [
+                "energy-area/fixed",
+                "energy-area/growth-zone",
+                "surface-logistic/fixed",
+                "surface-logistic/growth-zone"
+            ]
+        );
+        let w: Vec<f64> = c.physics.options.iter().map(|o| o.weight).collect();
+        assert_eq!(w, [0.375, 0.125, 0.375, 0.125]);
+        assert_eq!(c.physics.methods, c.physics.options[0].methods);
+        // The group case runs one member with one combination.
+        let g = c.group(1, 3);
+        assert_eq!(g.inputs.members.len(), 1);
+        assert_eq!(g.member().name, "n");
+        assert_eq!(g.physics.methods.ptype, PtypeMethod::SurfaceLogistic);
+        assert!(!g.is_ensemble());
+        // The files of both members are inputs (the output folder must never replace one).
+        assert_eq!(c.inputs().len(), 1 + 2 * 4 + 1);
+
+        for (from, to, field) in [
+            ("name = \"n\"", "name = \"m\"", "member[1].name"),
+            ("weight = 3", "weight = 0", "member[0].weight"),
+            (
+                "snow_ratio_weights = [3, 1]",
+                "snow_ratio_weights = [1]",
+                "methods.snow_ratio_weights",
+            ),
+            (
+                "\"fixed, growth-zone\"",
+                "\"fixed,fixed\"",
+                "methods.snow_ratio",
+            ),
+            (
+                "\"fixed, growth-zone\"",
+                "\"fixed,deep\"",
+                "methods.snow_ratio",
+            ),
+        ] {
+            let (_d, p) = setup(&two.replace(from, to));
+            let e = Case::load(&p, &Overrides::default())
+                .unwrap_err()
+                .to_string();
+            assert!(e.contains(&format!("'{field}'")), "{to}: {e}");
+        }
+        let over = Overrides {
+            snow_ratio: Some("growth-zone,max-column-temperature".into()),
+            ..Overrides::default()
+        };
+        let (_d, p) = setup(GOOD);
+        let c = Case::load(&p, &over).unwrap();
+        assert_eq!(c.physics.options.len(), 2);
+        assert_eq!(c.physics.methods.slr, SlrMethod::GrowthZone);
     }
 }

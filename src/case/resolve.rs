@@ -8,7 +8,7 @@ use super::schema::{
     WeightsFile,
 };
 use super::{
-    Case, CaseError, InputFormat, Inputs, Member, OutputSettings, Overrides, Physics,
+    Case, CaseError, InputFormat, Inputs, Member, MethodOption, OutputSettings, Overrides, Physics,
     SummarySettings,
 };
 use crate::diagnose::{Methods, PtypeMethod, SlrMethod};
@@ -90,19 +90,24 @@ pub(super) fn resolve(path: &Path, file: CaseFile, over: &Overrides) -> Result<C
         path,
         dir: path.parent().unwrap_or(Path::new(".")),
     };
-    let member = match file.member.as_slice() {
-        [] => return Err(here.invalid("member", "the case lists no [[member]]".into())),
-        [m] => resolve_member(&here, m)?,
-        more => {
+    if file.member.is_empty() {
+        return Err(here.invalid("member", "the case lists no [[member]]".into()));
+    }
+    let members = file
+        .member
+        .iter()
+        .enumerate()
+        .map(|(i, m)| resolve_member(&here, i, m))
+        .collect::<Result<Vec<_>, _>>()?;
+    let members = split_ensembles(members);
+    for (i, m) in members.iter().enumerate() {
+        if members[..i].iter().any(|o| o.name == m.name) {
             return Err(here.invalid(
-                "member",
-                format!(
-                    "the case lists {} members; this version runs one member per case (split them into one case each)",
-                    more.len()
-                ),
-            ))
+                &format!("member[{i}].name"),
+                format!("'{}' names an earlier member too: every member needs its own name (it labels bands, columns and the manifest)", m.name),
+            ));
         }
-    };
+    }
     let towns = file
         .towns
         .as_deref()
@@ -115,9 +120,12 @@ pub(super) fn resolve(path: &Path, file: CaseFile, over: &Overrides) -> Result<C
         .iter()
         .chain(&axes.along_km)
         .all(|v| *v == 0.0);
-    if member.track.is_none() && !member.find_track && !only_zero {
+    if let Some(i) = members
+        .iter()
+        .position(|m| m.track.is_none() && !m.find_track && !only_zero)
+    {
         return Err(here.invalid(
-            "member[0].track",
+            &format!("member[{i}].track"),
             "offsets other than 0 need the storm track (a CSV or GeoJSON file, or \"find\" to follow the low in the model's sea-level pressure)".into(),
         ));
     }
@@ -144,7 +152,7 @@ pub(super) fn resolve(path: &Path, file: CaseFile, over: &Overrides) -> Result<C
         path: path.to_path_buf(),
         title: file.title,
         inputs: Inputs {
-            member,
+            members,
             towns,
             region,
         },
@@ -156,28 +164,36 @@ pub(super) fn resolve(path: &Path, file: CaseFile, over: &Overrides) -> Result<C
     })
 }
 
-/// One `[[member]]`: GeoTIFF terrain and steps, or model files; its track.
-fn resolve_member(here: &Here, m: &MemberFile) -> Result<Member, CaseError> {
+/// The `i`-th `[[member]]`: GeoTIFF terrain and steps, or model files; its track and weight.
+fn resolve_member(here: &Here, i: usize, m: &MemberFile) -> Result<Member, CaseError> {
+    let at = |key: &str| format!("member[{i}]{key}");
+    let weight = m.weight.unwrap_or(1.0);
+    if !(weight.is_finite() && weight > 0.0) {
+        return Err(here.invalid(
+            &at(".weight"),
+            format!("{weight}: expected a positive number (1 unless this member counts more or less than the others)"),
+        ));
+    }
     let find_track = m.track.as_deref() == Some("find");
     let track = match m.track.as_deref() {
         Some("find") | None => None,
-        Some(t) => Some(here.existing("member[0].track", t)?),
+        Some(t) => Some(here.existing(&at(".track"), t)?),
     };
     let model_format = match m.format.as_deref() {
         None | Some("grib2") => InputFormat::Model,
         Some("gdal") if cfg!(feature = "gdal") => InputFormat::Gdal,
         Some("gdal") => return Err(here.invalid(
-            "member[0].format",
+            &at(".format"),
             "\"gdal\" needs a build with GDAL: rebuild with `cargo build --release --features gdal` (needs the system GDAL library, Debian: libgdal-dev)".into(),
         )),
         Some(other) => return Err(here.invalid(
-            "member[0].format",
+            &at(".format"),
             format!("'{other}': expected \"grib2\" or \"gdal\""),
         )),
     };
     if m.format.is_some() && m.model.is_none() {
         return Err(here.invalid(
-            "member[0].format",
+            &at(".format"),
             "applies to model files; give model = ... (GeoTIFF terrain and steps are read without it)".into(),
         ));
     }
@@ -187,22 +203,24 @@ fn resolve_member(here: &Here, m: &MemberFile) -> Result<Member, CaseError> {
                 StepFiles::List(list) => list
                     .iter()
                     .enumerate()
-                    .map(|(i, s)| here.existing(&format!("member[0].steps[{i}]"), s))
+                    .map(|(k, s)| here.existing(&at(&format!(".steps[{k}]")), s))
                     .collect::<Result<Vec<_>, _>>()?,
                 StepFiles::Pattern(p) => expand_pattern(here.dir, p)
-                    .map_err(|what| here.invalid("member[0].steps", what))?,
+                    .map_err(|what| here.invalid(&at(".steps"), what))?,
             };
             if steps.is_empty() {
-                return Err(here.invalid("member[0].steps", "no step files listed".into()));
+                return Err(here.invalid(&at(".steps"), "no step files listed".into()));
             }
             Ok(Member {
                 name: m.name.clone(),
-                terrain: here.existing("member[0].terrain", terrain)?,
+                terrain: here.existing(&at(".terrain"), terrain)?,
                 steps,
                 skipped: Vec::new(),
                 track,
                 format: InputFormat::GeoTiff,
                 find_track,
+                weight,
+                perturbation: None,
             })
         }
         (None, None, Some(model)) => {
@@ -211,11 +229,11 @@ fn resolve_member(here: &Here, m: &MemberFile) -> Result<Member, CaseError> {
                 StepFiles::List(l) => l.clone(),
             };
             let mut found = ModelFiles::default();
-            for (i, item) in items.iter().enumerate() {
+            for (k, item) in items.iter().enumerate() {
                 let field = if items.len() == 1 {
-                    "member[0].model".to_string()
+                    at(".model")
                 } else {
-                    format!("member[0].model[{i}]")
+                    at(&format!(".model[{k}]"))
                 };
                 found.extend(
                     expand_model(here.dir, item).map_err(|what| here.invalid(&field, what))?,
@@ -229,13 +247,51 @@ fn resolve_member(here: &Here, m: &MemberFile) -> Result<Member, CaseError> {
                 track,
                 format: model_format,
                 find_track,
+                weight,
+                perturbation: None,
             })
         }
         _ => Err(here.invalid(
-            "member[0]",
+            &at(""),
             "give either terrain and steps (GeoTIFF files) or model (GRIB2 files: a folder, a pattern or a list), not both".into(),
         )),
     }
+}
+
+/// Model files holding several ensemble members (GRIB2 templates 4.1/4.11) become one member
+/// each, named `NAME-pN` after the perturbation number, sharing the member's weight equally
+/// (the `[[member]]` weight is the whole ensemble's). Files that cannot be scanned are left as
+/// they are, for the reader to name the problem.
+fn split_ensembles(members: Vec<Member>) -> Vec<Member> {
+    let mut out = Vec::with_capacity(members.len());
+    for m in members {
+        let grib2 = m.format == InputFormat::Model
+            && m.steps.iter().all(|f| {
+                matches!(
+                    crate::read::source::magic(f),
+                    Ok(crate::read::source::Magic::Grib2)
+                )
+            });
+        let found = if grib2 {
+            crate::read::grib::perturbations(&m.steps).unwrap_or_default()
+        } else {
+            Vec::new()
+        };
+        if found.len() < 2 {
+            out.push(m);
+            continue;
+        }
+        let share = m.weight / found.len() as f64;
+        for p in found {
+            out.push(Member {
+                name: format!("{}-p{p}", m.name),
+                weight: share,
+                perturbation: Some(p),
+                ..m.clone()
+            });
+        }
+    }
+    out
 }
 
 /// `region` (or `--region`, which wins).
@@ -413,7 +469,56 @@ fn chosen<'a>(
     }
 }
 
-/// `[methods]` and the method flags.
+/// A comma-separated list of method names, each parsed by `parse`; errors name `field`.
+fn method_list<T: PartialEq>(
+    here: &Here,
+    text: &str,
+    field: &str,
+    names: &str,
+    parse: impl Fn(&str) -> Option<T>,
+) -> Result<Vec<T>, CaseError> {
+    let mut out = Vec::new();
+    for name in text.split(',').map(str::trim) {
+        let m = parse(name).ok_or_else(|| {
+            here.invalid(
+                field,
+                format!(
+                    "'{name}' is not a method; expected {names}, or several separated by commas"
+                ),
+            )
+        })?;
+        if out.contains(&m) {
+            return Err(here.invalid(field, format!("'{name}' is listed twice")));
+        }
+        out.push(m);
+    }
+    Ok(out)
+}
+
+/// One weight per method listed (equal when not given), normalised.
+fn method_weights(
+    here: &Here,
+    field: &str,
+    given: &Option<Vec<f64>>,
+    n: usize,
+) -> Result<Vec<f64>, CaseError> {
+    let w = given.clone().unwrap_or_else(|| vec![1.0; n]);
+    if w.len() != n
+        || w.iter().any(|v| !(v.is_finite() && *v >= 0.0))
+        || w.iter().sum::<f64>() <= 0.0
+    {
+        return Err(here.invalid(
+            field,
+            format!("{w:?}: expected {n} weights ≥ 0, one per method listed, not all 0"),
+        ));
+    }
+    let sum: f64 = w.iter().sum();
+    Ok(w.iter().map(|v| v / sum).collect())
+}
+
+/// `[methods]` and the method flags: every combination of the listed precipitation-type and
+/// snow-ratio methods is a method option (precipitation type outer), weighted by the product
+/// of the two methods' weights; the first is the primary.
 fn resolve_methods(
     here: &Here,
     m: &MethodsFile,
@@ -426,15 +531,14 @@ fn resolve_methods(
         ("methods.precip_type", &m.precip_type),
         DEFAULT_PRECIP_TYPE,
     );
-    let ptype = PtypeMethod::parse(&ptype_text).ok_or_else(|| {
-        here.invalid(
-            ptype_field,
-            format!(
-                "'{ptype_text}' is not a method; expected {}",
-                PtypeMethod::ALL.map(|m| m.name()).join(", ")
-            ),
-        )
-    })?;
+    let ptype_names = PtypeMethod::ALL.map(|m| m.name()).join(", ");
+    let ptypes = method_list(
+        here,
+        &ptype_text,
+        ptype_field,
+        &ptype_names,
+        PtypeMethod::parse,
+    )?;
     let ratio = m.fixed_ratio.unwrap_or(DEFAULT_FIXED_RATIO);
     let (lo, hi) = FIXED_RATIO_RANGE;
     if !(lo..=hi).contains(&ratio) {
@@ -448,24 +552,47 @@ fn resolve_methods(
         ("methods.snow_ratio", &m.snow_ratio),
         DEFAULT_SNOW_RATIO,
     );
-    let slr = SlrMethod::parse(&slr_text, ratio).ok_or_else(|| {
-        here.invalid(
-            slr_field,
-            format!(
-                "'{slr_text}' is not a method; expected {}",
-                SlrMethod::NAMES.join(", ")
-            ),
-        )
-    })?;
+    let slrs = method_list(
+        here,
+        &slr_text,
+        slr_field,
+        &SlrMethod::NAMES.join(", "),
+        |s| SlrMethod::parse(s, ratio),
+    )?;
+    let pw = method_weights(
+        here,
+        "methods.precip_type_weights",
+        &m.precip_type_weights,
+        ptypes.len(),
+    )?;
+    let sw = method_weights(
+        here,
+        "methods.snow_ratio_weights",
+        &m.snow_ratio_weights,
+        slrs.len(),
+    )?;
+    let dry_air = !over.no_dry_air && m.dry_air.unwrap_or(true);
+    let lapse_rate_k_per_m = lapse_k_per_km / 1000.0;
+    let options: Vec<MethodOption> = ptypes
+        .iter()
+        .zip(&pw)
+        .flat_map(|(&ptype, &a)| {
+            slrs.iter().zip(&sw).map(move |(&slr, &b)| MethodOption {
+                methods: Methods {
+                    ptype,
+                    slr,
+                    lapse_rate_k_per_m,
+                    dry_air,
+                },
+                weight: a * b,
+            })
+        })
+        .collect();
     Ok(Physics {
         taper,
-        methods: Methods {
-            ptype,
-            slr,
-            lapse_rate_k_per_m: lapse_k_per_km / 1000.0,
-            dry_air: !over.no_dry_air && m.dry_air.unwrap_or(true),
-        },
+        methods: options[0].methods,
         fixed_ratio: ratio,
+        options,
     })
 }
 

@@ -45,6 +45,8 @@ pub struct MemberFile {
     /// Storm track (CSV or GeoJSON), or `"find"` to follow the low in the model's sea-level
     /// pressure; needed unless only the zero offset is run.
     pub track: Option<String>,
+    /// How much this member counts in the blend against the others (default 1).
+    pub weight: Option<f64>,
 }
 
 /// `[offsets]`.
@@ -79,10 +81,15 @@ pub struct ShiftFile {
 #[derive(Debug, Deserialize, Clone, Default)]
 #[serde(deny_unknown_fields)]
 pub struct MethodsFile {
-    /// `energy-area`, `partial-thickness` or `surface-logistic`.
+    /// `energy-area`, `partial-thickness` or `surface-logistic`, or several separated by commas
+    /// (each a method scenario).
     pub precip_type: Option<String>,
-    /// `fixed`, `max-column-temperature` or `growth-zone`.
+    /// `fixed`, `max-column-temperature` or `growth-zone`, or several separated by commas.
     pub snow_ratio: Option<String>,
+    /// One weight per precipitation-type method listed (default equal).
+    pub precip_type_weights: Option<Vec<f64>>,
+    /// One weight per snow-ratio method listed (default equal).
+    pub snow_ratio_weights: Option<Vec<f64>>,
     /// The ratio for `fixed`.
     pub fixed_ratio: Option<f64>,
     /// Dry air below the cloud takes its share first (default true).

@@ -140,6 +140,7 @@ pub struct Inputs {
     /// The case file (TOML), or model files (GRIB2 files, folders or patterns with one '*').
     #[arg(value_name = "CASE.toml|FILES", required = true, num_args = 1..)]
     pub inputs: Vec<PathBuf>,
+
     /// With model files: the storm track (CSV or GeoJSON), or `find` to follow the low in the
     /// model's sea-level pressure. Needed for offsets other than 0.
     #[arg(long, value_name = "FILE|find")]
@@ -155,6 +156,12 @@ pub struct RunArgs {
     /// What to read.
     #[command(flatten)]
     pub read: Inputs,
+    /// Another member of a several-model run, as NAME=FILES (a folder, a pattern with one '*',
+    /// or files separated by commas); repeat for each. The files given first are the first
+    /// member (named after its first file). Every member runs with every method and offset,
+    /// and the layers say how much of each place's spread is which model is right.
+    #[arg(long, value_name = "NAME=FILES")]
+    pub member: Vec<String>,
     /// Compute only shard K of N of the scenarios (every N-th, from the K-th) and write their
     /// totals to OUT.shards/shard-K-of-N.bin instead of layers; `merge` makes the layers once
     /// every shard is done. For batch schedulers: one job per K.
@@ -236,6 +243,10 @@ pub struct MakeDemoArgs {
     /// Write the case as GRIB2 model output (one file per valid time) instead of GeoTIFF.
     #[arg(long)]
     pub grib2: bool,
+    /// Write an invented case of three members (the demo storm, its low further north, a
+    /// warmer and wetter air mass) and two snow-ratio methods.
+    #[arg(long, conflicts_with = "grib2")]
+    pub members: bool,
 }
 
 /// `trackswing sounding`.
@@ -299,6 +310,9 @@ pub struct SoundingArgs {
     /// `region`, else the whole grid).
     #[arg(long, value_name = "W,S,E,N", allow_hyphen_values = true)]
     pub region: Option<String>,
+    /// The member of a several-member case to show (default: the first).
+    #[arg(long, value_name = "NAME")]
+    pub member: Option<String>,
     /// Print JSON instead of the table.
     #[arg(long)]
     pub json: bool,

@@ -35,7 +35,7 @@ pub fn inspect(inputs: &[PathBuf]) -> Result<(), anyhow::Error> {
     // Other formats go through GDAL (the `gdal` feature; without it, the error says how to
     // rebuild). Warnings about unused bands are part of what the files hold.
     let warnings = std::cell::RefCell::new(Vec::new());
-    let src = trackswing::read::source::open_model(&files, &|w: &str| {
+    let src = trackswing::read::source::open_model(&files, None, &|w: &str| {
         warnings.borrow_mut().push(w.to_string())
     })?;
     print!("{}", trackswing::read::source::describe(src.as_ref()));

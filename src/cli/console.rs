@@ -211,6 +211,17 @@ pub fn summary(
         let n = r.scenarios.len();
         let _ = writeln!(out, "{}", run_line(r, n, took, Some(write_s)));
     }
+    if case.is_ensemble() {
+        let (m, k) = (case.inputs.members.len(), case.physics.options.len());
+        let _ = writeln!(
+            out,
+            "{m} member{} × {k} method combination{} × {} offset scenarios = {} scenarios in all; the line above is the first member's with the first methods",
+            if m == 1 { "" } else { "s" },
+            if k == 1 { "" } else { "s" },
+            r.scenarios.len(),
+            m * k * r.scenarios.len()
+        );
+    }
     if let Some(p) = trackswing::accumulate::period::Period::of(&r.valid_times) {
         let _ = writeln!(out, "totals over {}", p.words());
     }

@@ -127,7 +127,16 @@ impl Generator {
     /// temperature and humidity, sea-level pressure and the precipitation of the step ending
     /// at the valid time. Step 0 is the start of the run, so its precipitation is zero.
     pub fn step_fields(&self, step: usize) -> Vec<Field> {
-        let now = StormState::at(storm_time(&self.spec, step));
+        let now = StormState::moved(
+            storm_time(&self.spec, step),
+            self.spec.variant.path_offset_km,
+        );
+        let warm = self.spec.variant.warm_k;
+        let wet_factor = if self.spec.variant.wet_factor > 0.0 {
+            self.spec.variant.wet_factor
+        } else {
+            1.0
+        };
         let window = self.accumulation_window(step);
         let (nx, n) = (self.spec.nx, self.spec.nx * self.spec.ny);
         let nl = self.levels.len();
@@ -171,7 +180,7 @@ impl Generator {
                 let tvk = &mut tv[k * nx..(k + 1) * nx];
                 let inv_p = 1.0 / lv.p_pa;
                 for i in 0..nx {
-                    tf[i] = lv.temperature(b_row[i], bulge[i], surge[i]);
+                    tf[i] = lv.temperature(b_row[i], bulge[i], surge[i]) + warm;
                     let t = tf[i] + gdt[i] * ground_weight(lv.z_standard - gz[i]);
                     let rh = (lv.rh_dry + (lv.rh_wet - lv.rh_dry) * wet[i] - lv.rh_slot * dry[i])
                         .clamp(2.0, 100.0);
@@ -202,7 +211,7 @@ impl Generator {
                         st.strength * precip_shape(a, b) * ds
                     })
                     .sum();
-                precip[idx] = (PRECIP_PER_STORM_TIME * fallen) as f32;
+                precip[idx] = (PRECIP_PER_STORM_TIME * fallen * wet_factor) as f32;
             }
         }
         let mut fields = Vec::with_capacity(3 * n_out + 4);
@@ -248,7 +257,10 @@ impl Generator {
         let count = ((s1 - s0) / MAX_SUBSTEP).ceil().max(1.0) as usize;
         let ds = (s1 - s0) / count as f64;
         (0..count)
-            .map(|k| (StormState::at(s0 + (k as f64 + 0.5) * ds), ds))
+            .map(|k| {
+                let s = s0 + (k as f64 + 0.5) * ds;
+                (StormState::moved(s, self.spec.variant.path_offset_km), ds)
+            })
             .collect()
     }
 }
@@ -316,7 +328,7 @@ fn free_air_at(alt: f64, z: &[f64], t: &[f64], stride: usize, nl: usize) -> f64 
 /// The map position (lat, lon) and pressure (Pa) of the storm's sea-level pressure minimum at
 /// `step`.
 pub(crate) fn low_centre(spec: &DemoSpec, step: usize) -> (f64, f64, f64) {
-    let st = StormState::at(storm_time(spec, step));
+    let st = StormState::moved(storm_time(spec, step), spec.variant.path_offset_km);
     let (lat, lon) = to_geo(st.centre.0, st.centre.1);
     (lat, lon, st.min_hpa * 100.0)
 }

@@ -47,6 +47,20 @@ pub struct DemoSpec {
     pub dlat: f64,
     /// Year, month, day and hour (UTC) of step 0.
     pub start: (i32, u32, u32, u32),
+    /// How this member differs from the demo storm (none for the demo itself).
+    pub variant: Variant,
+}
+
+/// An invented variant of the demo storm, for a demo case of several members: the same region
+/// and times, the low's path moved, the air warmer and the precipitation heavier.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct Variant {
+    /// The low's whole path moved by this much, km east and north.
+    pub path_offset_km: (f64, f64),
+    /// Added to every temperature (isobaric and 2 m), K.
+    pub warm_k: f64,
+    /// Factor on the precipitation, 0 meaning 1 (as generated).
+    pub wet_factor: f64,
 }
 
 /// The shipped case's levels, hPa.
@@ -97,6 +111,7 @@ impl DemoSpec {
             dlon,
             dlat,
             start: (2026, 1, 13, 12),
+            variant: Variant::default(),
         }
     }
 }

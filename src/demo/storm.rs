@@ -75,10 +75,13 @@ pub(crate) struct StormState {
 }
 
 impl StormState {
-    /// The storm at storm time `s`; the pressure minimum is found by Newton's method on the
-    /// analytic field (a fixed number of iterations, so it is deterministic).
-    pub(crate) fn at(s: f64) -> Self {
-        let profile_centre = path(s);
+    /// The storm at storm time `s`, its whole path moved by `offset_km` (east, north; zero for
+    /// the demo storm, otherwise a demo member whose low tracks elsewhere); the pressure minimum
+    /// is found by Newton's method on the analytic field (a fixed number of iterations, so it
+    /// is deterministic).
+    pub(crate) fn moved(s: f64, offset_km: (f64, f64)) -> Self {
+        let (x, y) = path(s);
+        let profile_centre = (x + offset_km.0, y + offset_km.1);
         let depth = depth_hpa(s);
         let mut state = StormState {
             profile_centre,

@@ -85,6 +85,16 @@ pub enum EngineError {
         /// What would make it smaller, in words.
         advice: String,
     },
+    /// The members of a case cannot be compared cell by cell.
+    #[error("{path}: member '{member}': {what}")]
+    Members {
+        /// The member's first file.
+        path: PathBuf,
+        /// The member.
+        member: String,
+        /// What differs from the primary member, and what was expected.
+        what: String,
+    },
     /// The thread pool could not be built.
     #[error("cannot start {0} worker threads")]
     Threads(usize),

@@ -35,6 +35,7 @@ use chrono::Duration;
 
 pub mod budget;
 pub mod error;
+pub mod groups;
 pub mod kernel;
 pub mod moisture;
 pub mod result;
@@ -44,6 +45,7 @@ pub mod wet;
 pub mod window;
 pub use budget::{fits_in_memory, memory_estimate, scenario_budget, Budget};
 pub use error::EngineError;
+pub use groups::{run_groups, Ensemble, GroupRun};
 pub use kernel::{
     accumulate_cell, cell_column, sample_column, step_all_scenarios, BlockCounts, CellStep,
     Sampled, ScenarioStep, SourceAt,
@@ -88,14 +90,12 @@ pub struct Prepared {
 /// Opens the case's model fields, reads the track and towns, checks them against the grid and
 /// lists the scenarios.
 pub fn prepare(case: &Case, progress: &dyn Progress) -> Result<Prepared, EngineError> {
-    if let Some(w) = crate::case::skipped_summary(&case.inputs.member.skipped) {
+    if let Some(w) = crate::case::skipped_summary(&case.member().skipped) {
         progress.warn(&w);
     }
-    let source = open_source(
-        &case.inputs.member,
-        case.inputs.region.as_ref(),
-        &|m: &str| progress.warn(m),
-    )?;
+    let source = open_source(case.member(), case.inputs.region.as_ref(), &|m: &str| {
+        progress.warn(m)
+    })?;
     let grid = source.statics().grid.clone();
     let track = case_track(case, source.as_ref(), progress)?;
     if let Some(t) = &track {

@@ -19,10 +19,10 @@ pub fn case_track(
     source: &dyn Source,
     progress: &dyn Progress,
 ) -> Result<Option<Track>, EngineError> {
-    Ok(match &case.inputs.member.track {
+    Ok(match &case.member().track {
         Some(p) => Some(read_track(p)?),
-        None if case.inputs.member.find_track => {
-            Some(found_track(source, &case.inputs.member.terrain, progress)?)
+        None if case.member().find_track => {
+            Some(found_track(source, &case.member().terrain, progress)?)
         }
         None => None,
     })

@@ -31,4 +31,9 @@ pub struct Member {
     pub format: InputFormat,
     /// Find the track from the model's sea-level pressure (`track = "find"`).
     pub find_track: bool,
+    /// How much this member counts in the blend against the others (1 unless the case says).
+    pub weight: f64,
+    /// The ensemble member to read from GRIB2 files holding several (perturbation number of
+    /// templates 4.1/4.11); `None` for files of one member.
+    pub perturbation: Option<u8>,
 }

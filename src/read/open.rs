@@ -126,7 +126,7 @@ fn open_whole(member: &Member, warn: &dyn Fn(&str)) -> Result<Box<dyn Source>, S
             &member.terrain,
             &member.steps,
         )?)),
-        InputFormat::Model => open_model(&member.steps, warn),
+        InputFormat::Model => open_model(&member.steps, member.perturbation, warn),
         InputFormat::Gdal => open_gdal(&member.steps, warn),
     }
 }

@@ -174,7 +174,12 @@ pub fn open_gdal(files: &[PathBuf], _warn: &dyn Fn(&str)) -> Result<Box<dyn Sour
 /// or TIFF (NetCDF, GRIB1, ...) through GDAL. A set mixing GRIB2 with other files is refused
 /// (a broken file in a GRIB2 folder should be named, not read another way); `format = "gdal"`
 /// reads any mix through GDAL.
-pub fn open_model(files: &[PathBuf], warn: &dyn Fn(&str)) -> Result<Box<dyn Source>, SourceError> {
+/// `perturbation` picks one ensemble member from GRIB2 files that hold several.
+pub fn open_model(
+    files: &[PathBuf],
+    perturbation: Option<u8>,
+    warn: &dyn Fn(&str),
+) -> Result<Box<dyn Source>, SourceError> {
     let mut other = None;
     let mut grib2 = 0usize;
     for f in files {
@@ -192,7 +197,11 @@ pub fn open_model(files: &[PathBuf], warn: &dyn Fn(&str)) -> Result<Box<dyn Sour
         }
     }
     let Some((path, m)) = other else {
-        return Ok(Box::new(GribSource::open(files, warn)?));
+        return Ok(Box::new(GribSource::open_member(
+            files,
+            perturbation,
+            warn,
+        )?));
     };
     if grib2 == 0 && cfg!(feature = "gdal") {
         return open_gdal(files, warn);

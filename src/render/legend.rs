@@ -191,9 +191,56 @@ pub fn distance_classes(max_km: f64, units: Units) -> Classes {
     }
 }
 
+/// Codes of the dominant-source map: the source with at least half of a cell's snowfall
+/// variance, none, or no spread at all.
+pub const SOURCE_CODES: [(f32, &str); 5] = [
+    (0.0, "no single source has half the spread"),
+    (1.0, "which model is right (between members)"),
+    (2.0, "how liquid turns into snow (between methods)"),
+    (3.0, "where the low tracks (track offsets)"),
+    (4.0, "no spread: every scenario agrees"),
+];
+
+/// Classes of the dominant-source map: four distinct hues of equal lightness (OKLCh), so no
+/// source reads as more alarming than another.
+pub fn source_classes() -> Classes {
+    let colours = [
+        (0.80, 0.0, 0.0),
+        (0.72, 0.13, 300.0),
+        (0.72, 0.13, 145.0),
+        (0.72, 0.13, 45.0),
+        (0.97, 0.0, 0.0),
+    ]
+    .iter()
+    .map(|&(l, c, h)| ramp::to_rgb_in_gamut(ramp::oklab_from_lch(l, c, h)))
+    .collect();
+    Classes {
+        bounds: vec![0.5, 1.5, 2.5, 3.5],
+        colours,
+        labels: SOURCE_CODES.iter().map(|(_, w)| w.to_string()).collect(),
+        upper_inclusive: false,
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn every_source_code_has_its_own_class_colour_and_label() {
+        let c = source_classes();
+        assert_eq!(c.colours.len(), SOURCE_CODES.len());
+        assert_eq!(c.labels.len(), SOURCE_CODES.len());
+        for (k, (code, words)) in SOURCE_CODES.iter().enumerate() {
+            assert_eq!(c.of(*code as f64), k);
+            assert_eq!(&c.labels[k], words);
+        }
+        for i in 0..c.colours.len() {
+            for j in 0..i {
+                assert_ne!(c.colours[i], c.colours[j]);
+            }
+        }
+    }
 
     #[test]
     fn classes_follow_the_thresholds() {

@@ -155,7 +155,7 @@ pub fn sha256_of(path: &Path) -> std::io::Result<String> {
 /// What decides a run's totals: every scenario (cross, along, timing, intensity, warm bias), the
 /// methods, the taper, the grid and the SHA-256 of the model inputs (hashed in parallel).
 pub fn run_key(case: &Case, prepared: &Prepared) -> Result<serde_json::Value, ShardError> {
-    let m = &case.inputs.member;
+    let m = &case.member();
     let mut listed: Vec<(&str, &Path)> = vec![("terrain", &m.terrain)];
     listed.extend(m.steps.iter().map(|s| ("step", s.as_path())));
     if let Some(t) = &m.track {

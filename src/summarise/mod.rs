@@ -13,11 +13,13 @@
 pub mod bust;
 pub mod coverage;
 pub mod ice;
+pub mod members;
 pub mod quantiles;
 pub mod scope;
 pub mod sensitivity;
 pub mod summary;
 pub mod types;
+pub mod variance;
 pub mod weights;
 
 use crate::accumulate::Totals;

@@ -40,6 +40,9 @@ pub struct Summary {
     /// Where the dominant precipitation type differs between scenarios; `None` for a run of
     /// one scenario.
     pub type_flips: Option<Vec<Option<TypeFlip>>>,
+    /// With several members or method combinations: where the spread comes from
+    /// ([`super::members`]); `None` for a single run.
+    pub members: Option<super::members::MemberSummary>,
 }
 
 /// The per-cell decision layers of a run with track offsets (mm, or mm per
@@ -65,6 +68,19 @@ impl Summary {
             .is_none()
             .then_some(&self.snow_spread)
     }
+}
+
+/// Summarises an ensemble: the primary group's run as [`summarise`] does, and where the
+/// spread across every group comes from.
+pub fn summarise_ensemble(
+    case: &Case,
+    e: &crate::engine::Ensemble,
+) -> Result<Summary, WeightsError> {
+    let mut s = summarise(case, &e.groups[0].run)?;
+    s.members = Some(super::members::summarise_members(
+        case, e, &s.weights, &s.ranked,
+    ));
+    Ok(s)
 }
 
 /// Summarises a run under the case's prior, minimum coverage and thresholds.
@@ -131,5 +147,6 @@ pub fn summarise(case: &Case, r: &RunResult) -> Result<Summary, WeightsError> {
         period_words: period.map_or_else(|| "no steps".into(), |p| p.words()),
         decisions,
         ranked,
+        members: None,
     })
 }

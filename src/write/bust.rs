@@ -9,6 +9,7 @@ use super::{Kind, WriteError, Written};
 use crate::render::legend::threshold_text;
 use crate::scenario::Scenario;
 use crate::summarise::bust::{sentence, TownDecision};
+use crate::summarise::members::{source_words, MemberSummary, TownSpread};
 use crate::summarise::sensitivity::{FlipKind, FlipSearch};
 use crate::units::Units;
 use geojson::JsonObject;
@@ -57,6 +58,7 @@ pub fn flip_words(f: &FlipSearch) -> &'static str {
 }
 
 /// The columns and values of one ranked town.
+#[allow(clippy::too_many_arguments)]
 fn row(
     rank: usize,
     t: &TownDecision,
@@ -64,6 +66,7 @@ fn row(
     units: Units,
     thresholds: &[f64],
     ice_thresholds: &[f64],
+    spread: Option<(&TownSpread, &MemberSummary)>,
 ) -> Vec<(String, Cell)> {
     let su = units.snow_unit();
     let lu = units.liquid_unit();
@@ -174,7 +177,29 @@ fn row(
             Cell::Num(*p, 2),
         ));
     }
-    v.push(("summary".into(), Cell::Text(sentence(t, scenarios, units))));
+    let mut words = sentence(t, scenarios, units);
+    if let Some((ts, m)) = spread {
+        // Where the spread comes from, over every member, method and offset.
+        let p = ts.parts;
+        let share = |k: usize| p.and_then(|p| p.shares()).map_or(f64::NAN, |s| s[k]);
+        v.push((
+            format!("sd_total_{su}"),
+            snow(p.map_or(f64::NAN, |p| p.total.sqrt())),
+        ));
+        v.push(("share_members".into(), Cell::Num(share(0), 2)));
+        v.push(("share_methods".into(), Cell::Num(share(1), 2)));
+        v.push(("share_track".into(), Cell::Num(share(2), 2)));
+        for (name, b) in m.names.iter().zip(&ts.baselines) {
+            v.push((format!("baseline_{su}_{name}"), snow(*b as f64)));
+        }
+        if let Some(p) = &p {
+            let w = source_words(p, units, m.names.len() > 1, m.options.len() > 1);
+            if !w.is_empty() {
+                words = format!("{words} Across members and methods, {w}.");
+            }
+        }
+    }
+    v.push(("summary".into(), Cell::Text(words)));
     // Columns named only in some units (flip_mi).
     v.retain(|(name, _)| !name.is_empty());
     v
@@ -191,6 +216,7 @@ pub fn write_towns_bust(
     units: Units,
     snow_thresholds: &[f64],
     ice_thresholds: &[f64],
+    members: Option<&MemberSummary>,
 ) -> Result<Vec<Written>, WriteError> {
     let csv_err = |e: csv::Error| WriteError::Io {
         path: dir.join("towns_bust.csv"),
@@ -198,6 +224,10 @@ pub fn write_towns_bust(
     };
     let mut w = csv::Writer::from_writer(Vec::new());
     let mut features = Vec::new();
+    let nothing = members.map(|m| TownSpread {
+        parts: None,
+        baselines: vec![f32::NAN; m.names.len()],
+    });
     let header_only = row(
         0,
         &placeholder(scenarios.len(), snow_thresholds.len(), ice_thresholds.len()),
@@ -205,11 +235,21 @@ pub fn write_towns_bust(
         units,
         snow_thresholds,
         ice_thresholds,
+        nothing.as_ref().zip(members),
     );
     w.write_record(header_only.iter().map(|(k, _)| k))
         .map_err(csv_err)?;
     for (i, t) in ranked.iter().enumerate() {
-        let cells = row(i + 1, t, scenarios, units, snow_thresholds, ice_thresholds);
+        let spread = members.and_then(|m| m.towns.get(i).map(|ts| (ts, m)));
+        let cells = row(
+            i + 1,
+            t,
+            scenarios,
+            units,
+            snow_thresholds,
+            ice_thresholds,
+            spread,
+        );
         w.write_record(cells.iter().map(|(_, c)| c.csv()))
             .map_err(csv_err)?;
         let mut p = JsonObject::new();

@@ -27,13 +27,15 @@ pub struct DecisionSettings<'a> {
     pub meta: &'a [(String, String)],
 }
 
-struct Band {
-    description: String,
-    data: Vec<f32>,
-    metadata: Vec<(String, String)>,
+/// One band of a decision raster: its description, values and band metadata.
+pub(super) struct Band {
+    pub(super) description: String,
+    pub(super) data: Vec<f32>,
+    pub(super) metadata: Vec<(String, String)>,
 }
 
-fn write_bands(
+/// Writes a Float32 cloud-optimised GeoTIFF of `bands` on the run's grid.
+pub(super) fn write_bands(
     dir: &Path,
     r: &RunResult,
     meta: &[(String, String)],
@@ -79,7 +81,8 @@ fn write_bands(
     })
 }
 
-fn one(description: String, data: Vec<f32>, units: &str) -> Band {
+/// A band with its units as band metadata.
+pub(super) fn one(description: String, data: Vec<f32>, units: &str) -> Band {
     Band {
         description,
         data,

@@ -135,6 +135,11 @@ struct Manifest<'a> {
     /// The shard files the totals were merged from, when the run was computed in shards.
     #[serde(skip_serializing_if = "<[_]>::is_empty")]
     merged_from_shards: &'a [crate::engine::ShardUsed],
+    /// With several members or method combinations: every member (name, weight share, track)
+    /// and combination (methods, weight); the layers above the member layers describe the
+    /// first member with the first combination.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    ensemble: Option<serde_json::Value>,
     decisions: serde_json::Value,
 }
 
@@ -153,29 +158,32 @@ pub fn write_manifest(
     files: &[Written],
     about: &About,
 ) -> Result<(), WriteError> {
-    let mut listed: Vec<(&str, &Path)> = vec![
-        ("case", &case.path),
-        ("terrain", &case.inputs.member.terrain),
-    ];
-    listed.extend(
-        case.inputs
-            .member
-            .steps
-            .iter()
-            .map(|s| ("step", s.as_path())),
-    );
-    if let Some(t) = &case.inputs.member.track {
-        listed.push(("track", t));
+    let mut listed: Vec<(String, &Path)> = vec![("case".into(), &case.path)];
+    let several = case.inputs.members.len() > 1;
+    for m in &case.inputs.members {
+        // With several members each file's role names its member.
+        let role = |r: &str| {
+            if several {
+                format!("{r} of {}", m.name)
+            } else {
+                r.to_string()
+            }
+        };
+        listed.push((role("terrain"), &m.terrain));
+        listed.extend(m.steps.iter().map(|s| (role("step"), s.as_path())));
+        if let Some(t) = &m.track {
+            listed.push((role("track"), t));
+        }
     }
     if let Some(t) = &case.inputs.towns {
-        listed.push(("towns", t));
+        listed.push(("towns".into(), t));
     }
     // Step files of a continental case run to gigabytes: hashed in parallel.
     let inputs = listed
         .par_iter()
-        .map(|&(role, p)| {
+        .map(|(role, p)| {
             Ok(Input {
-                role: role.into(),
+                role: role.clone(),
                 path: p.display().to_string(),
                 sha256: sha256_of(p)?,
             })
@@ -290,7 +298,7 @@ pub fn write_manifest(
         }),
         title: &case.title,
         case_file: case.path.display().to_string(),
-        member: &case.inputs.member.name,
+        member: &case.member().name,
         written_utc: chrono::Utc::now().to_rfc3339_opts(chrono::SecondsFormat::Secs, true),
         crs: grid_crs(),
         grid: serde_json::json!({"columns": r.grid.nx, "rows": r.grid.ny, "geotransform": gt}),
@@ -320,6 +328,25 @@ pub fn write_manifest(
         files: entries,
         inputs,
         merged_from_shards: &r.shards,
+        ensemble: case.is_ensemble().then(|| {
+            let sum: f64 = case.inputs.members.iter().map(|m| m.weight).sum();
+            serde_json::json!({
+                "members": case.inputs.members.iter().map(|m| serde_json::json!({
+                    "name": m.name,
+                    "weight": m.weight / sum,
+                    "track": m.track.as_ref().map(|t| t.display().to_string())
+                        .or_else(|| m.find_track.then(|| "found from sea-level pressure".to_string())),
+                    "files": m.steps.len(),
+                })).collect::<Vec<_>>(),
+                "method_options": case.physics.options.iter().map(|o| serde_json::json!({
+                    "precip_type": o.methods.ptype.name(),
+                    "snow_ratio": o.methods.slr.name(),
+                    "weight": o.weight,
+                })).collect::<Vec<_>>(),
+                "primary": "the layers that describe one run (baseline, scenarios, percentiles, sensitivity, flips, towns) describe the first member with the first method combination; snowfall_spread*.tif, snowfall_member_*.tif, snowfall_by_member_scenario.tif and the towns_bust.csv columns sd_total_*, share_*, baseline_*_<member> cover every member and combination",
+                "spread": "law of total variance: total = between members + between methods within a member + within (track offsets and other axes), weighted by member × method × track-error prior",
+            })
+        }),
         decisions,
     };
     let text = serde_json::to_string_pretty(&m).expect("manifest serialises");

@@ -220,6 +220,8 @@ struct MapSpec<'a> {
     nearest_only: bool,
     /// The unit of `field` in words, ending the subtitle ("snowfall in cm", "distance in km").
     unit_words: String,
+    /// The unit of `field` for the manifest (`cm`, `km`, `1`).
+    units: String,
     /// Cells (value 0 in this layer) shown as "nothing flips within the offsets run".
     never: Option<&'a [f32]>,
 }
@@ -564,6 +566,9 @@ pub struct MapContext<'a> {
     pub prior_words: String,
     /// The period the totals cover, in words.
     pub period: &'a str,
+    /// With several members or methods: the dominant source of the spread per cell
+    /// ([`legend::SOURCE_CODES`]).
+    pub dominant_source: Option<&'a [f32]>,
 }
 
 /// The quicklook maps besides the baseline's, with what each needs from the scenarios.
@@ -728,6 +733,7 @@ pub fn write_maps(
         classes: legend::snow_classes(ctx.snow_thresholds, su),
         nearest_only: false,
         unit_words: snow_words.clone(),
+        units: su.into(),
         never: None,
     }];
     if let Some(p90) = &p90 {
@@ -739,6 +745,7 @@ pub fn write_maps(
             classes: legend::snow_classes(ctx.snow_thresholds, su),
             nearest_only: false,
             unit_words: snow_words.clone(),
+            units: su.into(),
             never: None,
         });
     }
@@ -751,6 +758,7 @@ pub fn write_maps(
             classes: legend::spread_classes(ctx.snow_thresholds, su),
             nearest_only: false,
             unit_words: snow_words.clone(),
+            units: su.into(),
             never: None,
         });
     }
@@ -772,7 +780,23 @@ pub fn write_maps(
                 Units::Metric => "track shift in km".into(),
                 Units::Us => "track shift in km (miles in the legend)".into(),
             },
+            units: "km".into(),
             never: Some(&flip.kind),
+        });
+    }
+    if let Some(field) = ctx.dominant_source {
+        specs.push(MapSpec {
+            file: "map_spread_source.png",
+            title: "Where the spread comes from: members, methods or track".into(),
+            legend_title:
+                "Source of at least half the snowfall variance over every member, method and offset"
+                    .into(),
+            field,
+            classes: legend::source_classes(),
+            nearest_only: true,
+            unit_words: "source of the spread".into(),
+            units: "1".into(),
+            never: None,
         });
     }
     let mut out = Vec::new();
@@ -788,11 +812,7 @@ pub fn write_maps(
         out.push(Written {
             file: spec.file.into(),
             kind: Kind::Image,
-            units: if spec.never.is_some() {
-                "km".into()
-            } else {
-                su.into()
-            },
+            units: spec.units.clone(),
             description: format!(
                 "Quicklook map (PNG): {} ({} · {}; totals over {})",
                 spec.title, overlay.subtitle, spec.unit_words, ctx.period

@@ -12,6 +12,7 @@ pub mod isobands;
 pub mod lines;
 pub mod manifest;
 pub mod maps;
+pub mod members;
 pub mod polygons;
 pub mod raster_type;
 pub mod rasters;
@@ -217,6 +218,7 @@ fn write_decision_products(
             case.output.units,
             &case.summary.snow_thresholds,
             &case.summary.ice_thresholds,
+            sum.members.as_ref(),
         )?);
     }
     let ctx = maps::MapContext {
@@ -225,6 +227,7 @@ fn write_decision_products(
         snow_thresholds: &case.summary.snow_thresholds,
         prior_words: prior_words(&case.summary.prior),
         period: &sum.period_words,
+        dominant_source: sum.members.as_ref().map(|m| m.dominant.as_slice()),
     };
     for (file, needs) in maps::NEEDING {
         if let Some(reason) = sum.scope.missing(needs) {
@@ -267,6 +270,25 @@ pub fn write_all(
     r: &crate::engine::RunResult,
     sum: &Summary,
 ) -> Result<Outcome, WriteError> {
+    write_set_of(case, r, sum, None)
+}
+
+/// Writes every layer of an ensemble: the primary group's as [`write_all`] does, and the
+/// layers of where the spread comes from, with the stack of every group's scenarios.
+pub fn write_ensemble(
+    case: &crate::case::Case,
+    e: &crate::engine::Ensemble,
+    sum: &Summary,
+) -> Result<Outcome, WriteError> {
+    write_set_of(case, &e.groups[0].run, sum, Some(e))
+}
+
+fn write_set_of(
+    case: &crate::case::Case,
+    r: &crate::engine::RunResult,
+    sum: &Summary,
+    ensemble: Option<&crate::engine::Ensemble>,
+) -> Result<Outcome, WriteError> {
     let staging = folder::Staging::begin(&case.output.out_dir, &case.inputs(), case.force)?;
     let mut warnings = r.warnings.clone();
     if sum.scope.track() {
@@ -291,7 +313,7 @@ pub fn write_all(
             }
         ));
     }
-    match write_set(staging.dir(), case, r, sum, &warnings) {
+    match write_set(staging.dir(), case, r, sum, ensemble, &warnings) {
         Ok((files, not_computed)) => {
             staging.commit()?;
             Ok(Outcome {
@@ -312,6 +334,7 @@ fn write_set(
     case: &crate::case::Case,
     r: &crate::engine::RunResult,
     sum: &Summary,
+    ensemble: Option<&crate::engine::Ensemble>,
     warnings: &[String],
 ) -> Result<(Vec<Written>, Vec<NotComputed>), WriteError> {
     let meta = meta(case, sum);
@@ -384,6 +407,16 @@ fn write_set(
         &rain_snow,
         &mut skipped,
     )?);
+    if let (Some(m), Some(e)) = (&sum.members, ensemble) {
+        files.extend(members::write_member_layers(
+            dir,
+            case,
+            e,
+            m,
+            &meta,
+            &sum.period_words,
+        )?);
+    }
     if case.output.report {
         // Listed now, written right after the manifest it is built from.
         files.push(report::entry());

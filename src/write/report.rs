@@ -425,7 +425,7 @@ pub fn write_report(dir: &Path) -> Result<PathBuf, ReportError> {
             .map(String::from)
             .collect();
         let col = |k: &str, label: &str| (k.to_string(), label.to_string());
-        let shown = [
+        let mut shown = vec![
             col("rank", "Rank"),
             col("name", "Town"),
             col("bust_score", "Bust score"),
@@ -437,8 +437,20 @@ pub fn write_report(dir: &Path) -> Result<PathBuf, ReportError> {
             col("flip_km", "Flips within (km)"),
             col("flip_direction", "Flip direction"),
             col("flip_what", "What flips"),
-            col("summary", "In words"),
         ];
+        // A case of several members or methods: where each town's spread comes from.
+        if header.iter().any(|h| h == "share_members") {
+            shown.extend([
+                col(
+                    &format!("sd_total_{su}"),
+                    &format!("σ, every member and method ({su})"),
+                ),
+                col("share_members", "Share from members"),
+                col("share_methods", "Share from methods"),
+                col("share_track", "Share from track"),
+            ]);
+        }
+        shown.push(col("summary", "In words"));
         let idx: Vec<usize> = shown
             .iter()
             .map(|(k, _)| {

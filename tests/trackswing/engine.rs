@@ -36,10 +36,10 @@ fn zero_offset_reproduces_the_unshifted_model_exactly() {
     use trackswing::diagnose::diagnose_column;
     use trackswing::read::fields::{read_static, read_step};
     let c = load(&case, "0", "0");
-    let st = read_static(&c.inputs.member.terrain).unwrap();
+    let st = read_static(&c.member().terrain).unwrap();
     let mut liquid = vec![0.0f32; st.grid.len()];
     let mut snow = vec![0.0f32; st.grid.len()];
-    for p in &c.inputs.member.steps {
+    for p in &c.member().steps {
         let step = read_step(p, &st, Vec::new()).unwrap();
         let nv = step.layout.nvar();
         for i in 0..st.grid.len() {

@@ -152,7 +152,7 @@ mod with_gdal {
     /// GeoTIFF reader gives, and a case file `dir/case_nc.toml` for them.
     fn write_netcdf_case(dir: &Path, format_line: &str) -> PathBuf {
         let case = Case::load(&dir.join("case.toml"), &Overrides::default()).unwrap();
-        let src = open_source(&case.inputs.member, None, &|_| {}).unwrap();
+        let src = open_source(case.member(), None, &|_| {}).unwrap();
         let st = src.statics();
         let (nx, ny) = (st.grid.nx, st.grid.ny);
         let gt = st.grid.georef.geotransform;
@@ -307,7 +307,7 @@ mod with_gdal {
 
     fn sources(case: &Path) -> Box<dyn Source> {
         let c = Case::load(case, &Overrides::default()).unwrap();
-        open_source(&c.inputs.member, None, &|_| {}).unwrap()
+        open_source(c.member(), None, &|_| {}).unwrap()
     }
 
     /// Largest difference per variable of the two sources' steps, after checking grids and

@@ -11,6 +11,7 @@ mod gdal_source;
 mod geotiff_gdal;
 mod grib;
 mod legend;
+mod members;
 mod model_folder;
 mod not_computed;
 mod physics;

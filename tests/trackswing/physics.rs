@@ -283,7 +283,7 @@ fn the_step_window_stays_small() {
     };
     let case = write_case(d.path(), &s, "");
     let c = load(&case, Overrides::default());
-    let source = trackswing::read::open_member(&c.inputs.member, None, &|_: &str| {}).unwrap();
+    let source = trackswing::read::open_member(c.member(), None, &|_: &str| {}).unwrap();
     // The engine's pattern: timing offsets over 3-hourly steps. The window holds the steps
     // that bracket the offsets, (max − min)/step + 1, plus the one just read: never all 7.
     for (offsets, bound) in [(vec![0.0], 2), (vec![-3.0, 0.0, 6.0], 5)] {

@@ -145,3 +145,8 @@ pub struct Missing {
     /// What is missing, and what was found instead.
     pub what: String,
 }
+
+/// A time as `2026-01-14T06:00Z`.
+pub fn short(t: DateTime<Utc>) -> String {
+    t.format("%Y-%m-%dT%H:%MZ").to_string()
+}

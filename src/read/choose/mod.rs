@@ -19,14 +19,14 @@
 //! A missing field is a [`Missing`] naming the file, the field (in the reader's words,
 //! [`Names`]) and, when the files hold it but it cannot be used, why.
 
-mod catalogue;
+pub mod catalogue;
 mod choice;
 
 pub use catalogue::{Catalogue, Field, Level, Missing, Names, Quantity, Unusable, Window};
 pub use choice::{Height, Humidity, LevelChoice, StepChoice};
 
 use crate::read::accumulation::{step_amount, Accumulation};
-use crate::read::grib::product::short;
+use catalogue::short;
 use chrono::{DateTime, Utc};
 
 /// Most levels a column can hold (see `diagnose::ptype::MAX_LEVELS`).

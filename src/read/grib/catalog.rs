@@ -62,6 +62,21 @@ pub struct Catalog {
 }
 
 impl Catalog {
+    /// Keeps only the fields of ensemble member `perturbation` (and fields without one, such
+    /// as a terrain field shared by every member); the others are counted as skipped.
+    pub fn keep_member(&mut self, perturbation: u8) {
+        let before = self.entries.len();
+        self.entries
+            .retain(|e| e.product.member.is_none_or(|m| m == perturbation));
+        let other = before - self.entries.len();
+        if other > 0 {
+            *self
+                .skipped
+                .entry("fields of other ensemble members".into())
+                .or_default() += other;
+        }
+    }
+
     /// Scans every file. Structural damage (not GRIB, truncated, broken sections) is an error
     /// naming the file and message; fields of parameters or templates not used are counted in
     /// [`Catalog::skipped`].

@@ -2,9 +2,10 @@
 //! (size, projection, extent) found, and which of a case's requirements are met.
 
 use super::catalog::Catalog;
-use super::product::{short, Param, Surface};
+use super::product::{Param, Surface};
 use super::source::catalogue;
 use super::GribError;
+use crate::read::choose::catalogue::short;
 use crate::read::choose::Chooser;
 use std::collections::BTreeMap;
 use std::fmt::Write;
@@ -121,6 +122,15 @@ pub fn inspect(files: &[PathBuf]) -> Result<String, GribError> {
             .collect::<Vec<_>>()
             .join(", ")
     );
+    let members = super::source::perturbations_in(&cat);
+    if !members.is_empty() {
+        let _ = writeln!(
+            out,
+            "Ensemble members (perturbation numbers of templates 4.1/4.11): {}: {}; a case reads each as a member of its own, never mixed",
+            members.len(),
+            super::source::numbers_text(&members)
+        );
+    }
     let _ = writeln!(out, "\nFields (parameter — levels — valid times):");
     // Parameter, surface type, accumulated.
     type Key = (Param, u8, bool);

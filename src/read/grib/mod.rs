@@ -22,7 +22,7 @@ pub mod scan;
 pub mod source;
 
 pub use catalog::Catalog;
-pub use source::{mslp_series, GribSource};
+pub use source::{mslp_series, perturbations, GribSource};
 
 use std::path::PathBuf;
 
@@ -76,6 +76,17 @@ pub enum GribError {
     /// Decoded values fail the plausibility checks.
     #[error(transparent)]
     Values(Box<crate::read::FieldError>),
+    /// The files hold several ensemble members where one was expected: their fields must not
+    /// be mixed.
+    #[error("{path}: the files hold {count} ensemble members (perturbation numbers {numbers}); a case reads them as one member each (model files in a [[member]] or on the command line are split by perturbation number), and never mixes them")]
+    Ensemble {
+        /// The first file.
+        path: PathBuf,
+        /// How many perturbation numbers.
+        count: usize,
+        /// The perturbation numbers, in words.
+        numbers: String,
+    },
 }
 
 impl From<crate::read::choose::Missing> for GribError {

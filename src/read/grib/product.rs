@@ -7,6 +7,7 @@
 //! 4.8 / 4.11, code table 4.10: 1 = accumulation).
 
 use super::GribError;
+use crate::read::choose::catalogue::short;
 use chrono::{DateTime, Duration, TimeZone, Utc};
 use grib::def::grib2::{ProductDefinitionTemplate, Section1, Section4};
 use grib::TryFromSlice;
@@ -153,11 +154,6 @@ impl Product {
         };
         format!("{name} at {} {when}", self.surface)
     }
-}
-
-/// A time as `2026-01-14T06:00Z`.
-pub fn short(t: DateTime<Utc>) -> String {
-    t.format("%Y-%m-%dT%H:%MZ").to_string()
 }
 
 /// Length of `value` units of code table 4.4, if the unit has a fixed length.

@@ -8,9 +8,10 @@
 
 use super::catalog::{Catalog, Entry};
 use super::decode::decode;
-use super::product::{short, Param, Surface};
+use super::product::{Param, Surface};
 use super::GribError;
 use crate::diagnose::thermo::{standard_pressure, G};
+use crate::read::choose::catalogue::short;
 use crate::read::choose::{
     Catalogue, Chooser, Field, Humidity, Level, Names, Quantity, StepChoice, Unusable, Window,
 };
@@ -177,7 +178,30 @@ impl GribSource {
     /// is missing or unreadable is an error here, before the run starts. Fields not used are
     /// reported in one line through `warn`.
     pub fn open(files: &[PathBuf], warn: &dyn Fn(&str)) -> Result<Self, GribError> {
-        let cat = Catalog::scan(files)?;
+        Self::open_member(files, None, warn)
+    }
+
+    /// Opens the fields of one ensemble member, `perturbation` (templates 4.1/4.11): fields of
+    /// other members are left aside. With `None`, files holding several members are refused
+    /// ([`GribError::Ensemble`]) rather than mixed.
+    pub fn open_member(
+        files: &[PathBuf],
+        perturbation: Option<u8>,
+        warn: &dyn Fn(&str),
+    ) -> Result<Self, GribError> {
+        let mut cat = Catalog::scan(files)?;
+        let found = perturbations_in(&cat);
+        match perturbation {
+            Some(p) => cat.keep_member(p),
+            None if found.len() > 1 => {
+                return Err(GribError::Ensemble {
+                    path: files[0].clone(),
+                    count: found.len(),
+                    numbers: numbers_text(&found),
+                })
+            }
+            None => {}
+        }
         let (grid, fields) = catalogue(&cat)?;
         let ch = Chooser::new(&fields);
         let steps = ch.steps()?;
@@ -474,6 +498,40 @@ impl Source for GribSource {
     fn inputs(&self) -> Vec<PathBuf> {
         self.cat.files.clone()
     }
+}
+
+/// The ensemble perturbation numbers of the fields of used parameters, sorted (empty for
+/// files without ensemble templates).
+pub(crate) fn perturbations_in(cat: &Catalog) -> Vec<u8> {
+    let mut v: Vec<u8> = cat
+        .entries
+        .iter()
+        .filter(|e| e.product.param.is_some())
+        .filter_map(|e| e.product.member)
+        .collect();
+    v.sort_unstable();
+    v.dedup();
+    v
+}
+
+/// `0, 1, 2` (the first and last ten of a long list).
+pub(crate) fn numbers_text(v: &[u8]) -> String {
+    let all: Vec<String> = v.iter().map(|n| n.to_string()).collect();
+    if all.len() <= 20 {
+        all.join(", ")
+    } else {
+        format!(
+            "{}, …, {}",
+            all[..10].join(", "),
+            all[all.len() - 10..].join(", ")
+        )
+    }
+}
+
+/// The ensemble members in GRIB2 files: their perturbation numbers (templates 4.1/4.11),
+/// sorted; empty when the files hold no ensemble fields.
+pub fn perturbations(files: &[PathBuf]) -> Result<Vec<u8>, GribError> {
+    Ok(perturbations_in(&Catalog::scan(files)?))
 }
 
 /// Sea-level pressure (Pa, row-major, row 0 north) per valid time, in time order.

@@ -1,0 +1,262 @@
+//! Several members and method combinations: where each cell's and each town's spread comes
+//! from (members, methods, or the track and the other axes; [`super::variance`]), each
+//! member's weighted mean and its run as issued.
+//!
+//! A scenario of group g (member m, method combination k) weighs `W_g × p_s`: the group's
+//! weight (the member's share of the members' weights × the combination's weight) times the
+//! track-error prior's weight of its offsets, the same in every group.
+
+use super::bust::TownDecision;
+use super::value_at;
+use super::variance::{parts, spread_layers, Group, Parts, SpreadLayers};
+use crate::case::Case;
+use crate::engine::Ensemble;
+use crate::units::Units;
+
+/// A standard deviation below this (mm of snow) is no spread: every scenario agrees (most
+/// often, no snow anywhere), and the dominant-source map says so rather than naming a source.
+pub const NO_SPREAD_MM: f32 = 0.05;
+
+/// What the groups of an ensemble say together, in mm of snow depth.
+pub struct MemberSummary {
+    /// Member names, in the case's order.
+    pub names: Vec<String>,
+    /// Each member's share of the members' weights.
+    pub member_weights: Vec<f64>,
+    /// Method-combination labels (`precip-type/snow-ratio`), in the case's order.
+    pub options: Vec<String>,
+    /// Each combination's weight.
+    pub option_weights: Vec<f64>,
+    /// The track-error prior's weight of each scenario (the same in every group).
+    pub prior_weights: Vec<f64>,
+    /// The snowfall's standard deviation and its parts, and the parts' shares.
+    pub spread: SpreadLayers,
+    /// Per member: its weighted mean snowfall over its methods and offsets (missing where its
+    /// scenarios with data carry less than the minimum coverage of its weight).
+    pub member_mean: Vec<Vec<f32>>,
+    /// Per member: its run as issued (first method combination, offset 0).
+    pub member_baseline: Vec<Vec<f32>>,
+    /// Per cell, the source with at least half the snowfall variance
+    /// ([`crate::render::legend::SOURCE_CODES`]: 1 members, 2 methods, 3 track, 0 none, 4 no
+    /// spread); NaN where the spread is missing.
+    pub dominant: Vec<f32>,
+    /// Per ranked town (in the order of `Summary::ranked`): the parts of its snowfall's variance
+    /// and each member's baseline.
+    pub towns: Vec<TownSpread>,
+}
+
+/// One town's spread across members, methods and the track.
+#[derive(Clone, Debug)]
+pub struct TownSpread {
+    /// The variance and its parts, mm²; `None` where the coverage rule leaves it missing.
+    pub parts: Option<Parts>,
+    /// Each member's baseline snowfall, mm.
+    pub baselines: Vec<f32>,
+}
+
+/// Summarises the groups of an ensemble: `prior` is the track-error prior's weight of each
+/// scenario (the same in every group) and `ranked` the primary group's ranked towns (the rows).
+pub fn summarise_members(
+    case: &Case,
+    e: &Ensemble,
+    prior: &[f64],
+    ranked: &[TownDecision],
+) -> MemberSummary {
+    let members = &case.inputs.members;
+    let options = &case.physics.options;
+    let per_group = prior.len();
+    // Every (group, scenario) pair, group-major.
+    let mut weights = Vec::with_capacity(e.groups.len() * per_group);
+    let mut groups = Vec::with_capacity(weights.capacity());
+    for g in &e.groups {
+        for p in prior {
+            weights.push(g.weight * p);
+            groups.push(Group {
+                member: g.member,
+                method: g.option,
+            });
+        }
+    }
+    let field = |pair: usize| &e.groups[pair / per_group].run.totals[pair % per_group].snowfall;
+    let cells = e.groups[0].run.grid.len();
+    let min = case.summary.min_coverage;
+    let spread = spread_layers(cells, &weights, &groups, min, |s, i| field(s)[i]);
+    let member_mean = (0..members.len())
+        .map(|m| {
+            let mine: Vec<usize> = (0..weights.len())
+                .filter(|&s| groups[s].member == m)
+                .collect();
+            let all: f64 = mine.iter().map(|&s| weights[s]).sum();
+            (0..cells)
+                .map(|i| {
+                    let (mut sum, mut carried) = (0.0, 0.0);
+                    for &s in &mine {
+                        let x = field(s)[i];
+                        if !x.is_nan() {
+                            sum += weights[s] * x as f64;
+                            carried += weights[s];
+                        }
+                    }
+                    if carried > 0.0 && carried >= min * all - 1e-12 {
+                        (sum / carried) as f32
+                    } else {
+                        f32::NAN
+                    }
+                })
+                .collect()
+        })
+        .collect();
+    let baseline_of = |m: usize| {
+        e.groups
+            .iter()
+            .find(|g| g.member == m && g.option == 0)
+            .map(|g| &g.run.totals[g.run.baseline].snowfall)
+    };
+    let member_baseline = (0..members.len())
+        .map(|m| {
+            baseline_of(m)
+                .cloned()
+                .unwrap_or_else(|| vec![f32::NAN; cells])
+        })
+        .collect();
+    let grid = &e.groups[0].run.grid;
+    let towns = ranked
+        .iter()
+        .map(|t| town_spread(t, e, &weights, &groups, per_group, min, grid))
+        .collect();
+    let member_sum: f64 = members.iter().map(|m| m.weight).sum();
+    let dominant = (0..cells)
+        .map(|i| {
+            let sd = spread.sd[0][i];
+            let sh = [0, 1, 2].map(|k| spread.share[k][i]);
+            if sd.is_nan() {
+                f32::NAN
+            } else if sd < NO_SPREAD_MM {
+                4.0
+            } else {
+                sh.iter()
+                    .position(|v| *v >= 0.5)
+                    .map_or(0.0, |k| (k + 1) as f32)
+            }
+        })
+        .collect();
+    MemberSummary {
+        dominant,
+        names: members.iter().map(|m| m.name.clone()).collect(),
+        member_weights: members.iter().map(|m| m.weight / member_sum).collect(),
+        options: options.iter().map(|o| o.label()).collect(),
+        option_weights: options.iter().map(|o| o.weight).collect(),
+        prior_weights: prior.to_vec(),
+        spread,
+        member_mean,
+        member_baseline,
+        towns,
+    }
+}
+
+/// One town's parts by the grid's point rule, under the coverage rule of the cells.
+fn town_spread(
+    t: &TownDecision,
+    e: &Ensemble,
+    weights: &[f64],
+    groups: &[Group],
+    per_group: usize,
+    min: f64,
+    grid: &crate::grid::Grid,
+) -> TownSpread {
+    let mut values = Vec::with_capacity(weights.len());
+    let mut carried = 0.0;
+    for (s, (&w, &g)) in weights.iter().zip(groups).enumerate() {
+        let run = &e.groups[s / per_group].run;
+        let x = value_at(grid, &run.totals[s % per_group].snowfall, t.lon, t.lat);
+        if !x.is_nan() {
+            carried += w;
+            values.push((x as f64, w, g));
+        }
+    }
+    let all: f64 = weights.iter().sum();
+    let parts = (carried >= min * all - 1e-12)
+        .then(|| parts(&values))
+        .flatten();
+    let members = e.groups.iter().map(|g| g.member).max().map_or(0, |m| m + 1);
+    let baselines = (0..members)
+        .map(|m| {
+            e.groups
+                .iter()
+                .find(|g| g.member == m && g.option == 0)
+                .map_or(f32::NAN, |g| {
+                    value_at(grid, &g.run.totals[g.run.baseline].snowfall, t.lon, t.lat)
+                })
+        })
+        .collect();
+    TownSpread { parts, baselines }
+}
+
+/// Which source a share of at least half the variance names, in plain words; a mixed spread
+/// gives the three shares. Nothing where the spread is missing or zero.
+pub fn source_words(
+    p: &Parts,
+    units: Units,
+    several_members: bool,
+    several_methods: bool,
+) -> String {
+    let Some([m, k, t]) = p.shares() else {
+        return String::new();
+    };
+    let sd = units.snow(p.total.sqrt() as f32);
+    let su = units.snow_unit();
+    let pct = |x: f64| format!("{:.0} %", 100.0 * x);
+    let head = format!("spread σ {sd:.1} {su}");
+    if m >= 0.5 {
+        format!(
+            "{head}: most of it is which model is right ({} between members), not the track ({})",
+            pct(m),
+            pct(t)
+        )
+    } else if k >= 0.5 {
+        format!("{head}: most of it is how the column turns liquid into snow ({} between methods), not the track ({})", pct(k), pct(t))
+    } else if t >= 0.5 {
+        format!("{head}: most of it is where the low tracks ({} from the track offsets), not the models ({}) or methods ({})", pct(t), pct(m), pct(k))
+    } else {
+        let mut parts = Vec::new();
+        if several_members {
+            parts.push(format!("members {}", pct(m)));
+        }
+        if several_methods {
+            parts.push(format!("methods {}", pct(k)));
+        }
+        parts.push(format!("track {}", pct(t)));
+        format!("{head}: no single source dominates ({})", parts.join(", "))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_words_name_the_dominant_source() {
+        let p = Parts {
+            total: 100.0,
+            members: 70.0,
+            methods: 10.0,
+            within: 20.0,
+        };
+        let w = source_words(&p, Units::Metric, true, true);
+        assert!(
+            w.starts_with("spread σ 1.0 cm: most of it is which model is right (70 %"),
+            "{w}"
+        );
+        let p = Parts {
+            total: 100.0,
+            members: 30.0,
+            methods: 30.0,
+            within: 40.0,
+        };
+        let w = source_words(&p, Units::Metric, true, true);
+        assert!(
+            w.contains("no single source dominates (members 30 %, methods 30 %, track 40 %)"),
+            "{w}"
+        );
+    }
+}

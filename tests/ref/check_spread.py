@@ -1,0 +1,109 @@
+#!/usr/bin/env python3
+"""Checks the spread layers of a several-member run against an independent computation.
+
+Reads the per-scenario stack `snowfall_by_member_scenario.tif` through GDAL (band values, and the
+band metadata `member`, `precip_type`, `snow_ratio`, `weight`), computes with numpy the weighted
+variance of every cell and its parts by the law of total variance (between members, between
+methods within a member, within), and compares them with `snowfall_spread.tif` and
+`snowfall_spread_share.tif` as GDAL reads them. Cells follow the coverage rule of the manifest
+(`min_coverage`): summarised over the bands with a value, weights renormalised, where they carry
+at least that share of the weight.
+
+    /usr/bin/python3 tests/ref/check_spread.py OUT_DIR
+"""
+import json
+import os
+import sys
+
+import numpy as np
+from osgeo import gdal
+
+out = sys.argv[1]
+gdal.UseExceptions()
+stack = gdal.Open(os.path.join(out, "snowfall_by_member_scenario.tif"))
+nodata = stack.GetRasterBand(1).GetNoDataValue()
+values, weights, members, methods = [], [], [], []
+for b in range(1, stack.RasterCount + 1):
+    band = stack.GetRasterBand(b)
+    md = band.GetMetadata()
+    v = band.ReadAsArray().astype(np.float64)
+    v[v == nodata] = np.nan
+    values.append(v)
+    weights.append(float(md["weight"]))
+    members.append(md["member"])
+    methods.append(md["member"] + "|" + md["precip_type"] + "/" + md["snow_ratio"])
+x = np.stack(values)  # (bands, rows, cols)
+w = np.array(weights)[:, None, None] * np.ones_like(x)
+assert abs(sum(weights) - 1.0) < 1e-6, f"band weights add up to {sum(weights)}"
+min_cov = json.load(open(os.path.join(out, "manifest.json")))["decisions"]["min_coverage"]
+
+have = ~np.isnan(x)
+w = np.where(have, w, 0.0)
+xv = np.where(have, x, 0.0)
+carried = w.sum(axis=0)
+ok = carried >= min_cov - 1e-9
+W = np.where(carried > 0, carried, 1.0)
+mean = (w * xv).sum(axis=0) / W
+total = (w * (xv - mean) ** 2).sum(axis=0) / W
+
+
+def group_means(keys):
+    out = {}
+    for k in sorted(set(keys)):
+        idx = [i for i, key in enumerate(keys) if key == k]
+        wk = w[idx].sum(axis=0)
+        mk = np.where(wk > 0, (w[idx] * xv[idx]).sum(axis=0) / np.where(wk > 0, wk, 1.0), 0.0)
+        out[k] = (idx, wk, mk)
+    return out
+
+
+by_member = group_means(members)
+by_method = group_means(methods)
+between_members = sum(wk * (mk - mean) ** 2 for _, wk, mk in by_member.values()) / W
+between_methods = np.zeros_like(mean)
+within = np.zeros_like(mean)
+for key, (idx, wk, mk) in by_method.items():
+    member_mean = by_member[key.split("|")[0]][2]
+    between_methods += wk * (mk - member_mean) ** 2
+    within += (w[idx] * (xv[idx] - mk) ** 2).sum(axis=0)
+between_methods /= W
+within /= W
+
+spread = gdal.Open(os.path.join(out, "snowfall_spread.tif"))
+share = gdal.Open(os.path.join(out, "snowfall_spread_share.tif"))
+got = [spread.GetRasterBand(i).ReadAsArray().astype(np.float64) for i in range(1, 5)]
+got_share = [share.GetRasterBand(i).ReadAsArray().astype(np.float64) for i in range(1, 4)]
+failures = 0
+
+
+def check(name, want, have_, tol):
+    global failures
+    missing = have_ == nodata
+    if (missing != ~ok).any():
+        print(f"FAIL {name}: nodata at {int((missing != ~ok).sum())} cells where the coverage rule says otherwise")
+        failures += 1
+        return
+    err = np.abs(have_[ok] - want[ok])
+    worst = err.max() if err.size else 0.0
+    status = "ok" if worst <= tol else "FAIL"
+    failures += status == "FAIL"
+    print(f"{status} {name}: {int(ok.sum())} cells, largest difference {worst:.2e} (tolerance {tol:g})")
+
+
+# Float32 output of values up to ~50 cm: a few 1e-5 relative.
+scale = max(1.0, float(np.nanmax(np.sqrt(total[ok]))))
+tol = 2e-5 * scale
+check("total σ", np.sqrt(total), got[0], tol)
+check("σ between members", np.sqrt(between_members), got[1], tol)
+check("σ between methods", np.sqrt(between_methods), got[2], tol)
+check("σ within", np.sqrt(within), got[3], tol)
+identity = np.abs(got[0][ok] ** 2 - (got[1][ok] ** 2 + got[2][ok] ** 2 + got[3][ok] ** 2))
+print(f"{'ok' if identity.max() <= 1e-3 * scale**2 else 'FAIL'} parts add up: largest |σ² − Σ parts²| {identity.max():.2e}")
+failures += identity.max() > 1e-3 * scale**2
+spread_cells = ok & (total > 1e-6 * scale**2)
+for k, (name, part) in enumerate([("members", between_members), ("methods", between_methods), ("track", within)]):
+    want = part[spread_cells] / total[spread_cells]
+    err = np.abs(got_share[k][spread_cells] - want).max()
+    print(f"{'ok' if err <= 1e-3 else 'FAIL'} share {name}: largest difference {err:.2e}")
+    failures += err > 1e-3
+sys.exit(1 if failures else 0)

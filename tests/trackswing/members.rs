@@ -1,0 +1,431 @@
+//! Several members and method combinations ([models]): the groups run one by one and are
+//! compared cell by cell; the spread splits into members, methods and track by the law of
+//! total variance (checked against numpy in tests/ref/check_spread.py, run by CI on the
+//! several-member demo).
+
+use super::support::bin;
+use std::path::{Path, PathBuf};
+use trackswing::geotiff::read_geotiff;
+
+fn demo_grid() -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-grid")
+}
+
+/// A case over the shipped demo's files with the given `[[member]]` names (each reading the
+/// same files) and snow-ratio list.
+fn case(dir: &Path, names: &[&str], snow_ratio: &str) -> PathBuf {
+    let g = demo_grid();
+    let mut text = format!(
+        "title = \"two names for one model run (invented demo storm)\"\ntowns = \"{}\"\n",
+        g.join("towns.csv").display()
+    );
+    for n in names {
+        text.push_str(&format!(
+            "[[member]]\nname = \"{n}\"\nterrain = \"{}\"\nsteps = \"{}\"\ntrack = \"{}\"\n",
+            g.join("terrain.tif").display(),
+            g.join("fields/step_*.tif").display(),
+            g.join("track.csv").display()
+        ));
+    }
+    text.push_str(&format!(
+        "[offsets]\ncross_km = \"-40:40:20\"\nalong_km = \"0\"\n[shift]\ncore_radius_km = 400\nouter_radius_km = 1000\n[methods]\nsnow_ratio = \"{snow_ratio}\"\n"
+    ));
+    let p = dir.join(format!("case-{}.toml", names.len()));
+    std::fs::write(&p, text).unwrap();
+    p
+}
+
+fn run(case: &Path, out: &Path) {
+    let o = bin()
+        .arg("run")
+        .arg(case)
+        .arg("--out")
+        .arg(out)
+        .arg("--quiet")
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+}
+
+#[test]
+fn two_identical_members_have_no_spread_between_them_and_the_single_members_layers() {
+    let d = tempfile::tempdir().unwrap();
+    let (one, two) = (d.path().join("one"), d.path().join("two"));
+    run(&case(d.path(), &["a"], "max-column-temperature"), &one);
+    run(&case(d.path(), &["a", "b"], "max-column-temperature"), &two);
+    // The primary member's layers are the single member's, byte for byte.
+    for f in [
+        "snowfall_by_scenario.tif",
+        "snowfall_baseline.tif",
+        "snowfall_p90.tif",
+        "snowfall_exceedance.tif",
+        "flip_distance.tif",
+        "towns.csv",
+        "rain_snow_lines.geojson",
+    ] {
+        assert_eq!(
+            std::fs::read(one.join(f)).unwrap(),
+            std::fs::read(two.join(f)).unwrap(),
+            "{f}"
+        );
+    }
+    // Between members: exactly 0 wherever the spread has a value; the total is the within
+    // part; the members' means and baselines are the same field twice.
+    let spread = read_geotiff(&two.join("snowfall_spread.tif")).unwrap();
+    // Nodata reads back as NaN.
+    let mut cells = 0;
+    for i in 0..spread.bands[0].len() {
+        if spread.bands[0][i].is_nan() {
+            continue;
+        }
+        cells += 1;
+        assert_eq!(spread.bands[1][i], 0.0, "cell {i}");
+        assert_eq!(spread.bands[2][i], 0.0, "cell {i}: one method");
+        assert_eq!(spread.bands[3][i], spread.bands[0][i], "cell {i}");
+    }
+    assert!(cells > 5000, "{cells} cells with a spread");
+    let base = read_geotiff(&two.join("snowfall_member_baseline.tif")).unwrap();
+    assert_eq!(base.bands.len(), 2);
+    assert_eq!(base.bands[0], base.bands[1]);
+    let single = read_geotiff(&one.join("snowfall_baseline.tif")).unwrap();
+    assert_eq!(base.bands[0], single.bands[0]);
+    // The towns table says so too.
+    let mut r = csv::Reader::from_path(two.join("towns_bust.csv")).unwrap();
+    let h = r.headers().unwrap().clone();
+    let col = |n: &str| {
+        h.iter()
+            .position(|c| c == n)
+            .unwrap_or_else(|| panic!("{n}"))
+    };
+    let (sm, sa, sb) = (
+        col("share_members"),
+        col("baseline_cm_a"),
+        col("baseline_cm_b"),
+    );
+    let mut rows = 0;
+    for rec in r.records() {
+        let rec = rec.unwrap();
+        assert_eq!(rec.get(sa), rec.get(sb));
+        if !rec.get(sm).unwrap().is_empty() {
+            assert_eq!(rec.get(sm).unwrap().parse::<f64>().unwrap(), 0.0);
+            rows += 1;
+        }
+    }
+    assert!(rows > 10, "{rows} towns with shares");
+}
+
+#[test]
+fn two_snow_ratio_methods_split_the_spread_and_the_stack_names_every_band() {
+    let d = tempfile::tempdir().unwrap();
+    let out = d.path().join("out");
+    run(&case(d.path(), &["a"], "fixed,growth-zone"), &out);
+    let stack = read_geotiff(&out.join("snowfall_by_member_scenario.tif")).unwrap();
+    // 1 member × 2 methods × 5 offsets.
+    assert_eq!(stack.bands.len(), 10);
+    let md = |b: usize, k: &str| -> String {
+        stack.band_metadata[b]
+            .iter()
+            .find(|(key, _)| key == k)
+            .map(|(_, v)| v.clone())
+            .unwrap_or_default()
+    };
+    assert_eq!(md(0, "snow_ratio"), "fixed");
+    assert_eq!(md(5, "snow_ratio"), "growth-zone");
+    assert_eq!(md(9, "member"), "a");
+    let w: f64 = (0..10)
+        .map(|b| md(b, "weight").parse::<f64>().unwrap())
+        .sum();
+    assert!((w - 1.0).abs() < 1e-9, "band weights add up to {w}");
+    // The growth-zone ratio differs from 10:1 where snow falls: a positive part between
+    // methods there; no part between members with one member.
+    let spread = read_geotiff(&out.join("snowfall_spread.tif")).unwrap();
+    let between_methods = spread.bands[2].iter().filter(|v| **v > 0.1).count();
+    assert!(between_methods > 500, "{between_methods} cells");
+    assert!(spread.bands[1].iter().all(|v| *v == 0.0 || v.is_nan()));
+    // The map of the dominant source is drawn and listed.
+    let m: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.join("manifest.json")).unwrap()).unwrap();
+    assert!(m["files"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .any(|f| f["file"] == "map_spread_source.png" && f["kind"] == "image"));
+    assert!(out.join("map_spread_source.png").is_file());
+}
+
+#[test]
+fn a_member_on_another_grid_is_refused_by_name() {
+    let d = tempfile::tempdir().unwrap();
+    let small = d.path().join("small");
+    let o = bin()
+        .args([
+            "make-demo",
+            "--nx",
+            "40",
+            "--ny",
+            "30",
+            "--steps",
+            "3",
+            "--out",
+        ])
+        .arg(&small)
+        .output()
+        .unwrap();
+    assert!(o.status.success());
+    let p = case(d.path(), &["a"], "max-column-temperature");
+    let text = std::fs::read_to_string(&p).unwrap().replace(
+        "[offsets]",
+        &format!(
+            "[[member]]\nname = \"coarse\"\nterrain = \"{0}/terrain.tif\"\nsteps = \"{0}/fields/step_*.tif\"\ntrack = \"{0}/track.csv\"\n[offsets]",
+            small.display()
+        ),
+    );
+    std::fs::write(&p, text).unwrap();
+    let out = d.path().join("out");
+    let o = bin()
+        .arg("run")
+        .arg(&p)
+        .arg("--out")
+        .arg(&out)
+        .arg("--quiet")
+        .output()
+        .unwrap();
+    let e = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(3), "{e}");
+    assert!(
+        e.contains("member 'coarse'") && e.contains("40×30 cells") && e.contains("one grid"),
+        "{e}"
+    );
+    assert!(!out.exists(), "nothing is written");
+}
+
+#[test]
+fn members_from_model_files_on_the_command_line_and_the_sounding_of_one() {
+    let d = tempfile::tempdir().unwrap();
+    let g = d.path().join("g");
+    let o = bin()
+        .args([
+            "make-demo",
+            "--grib2",
+            "--nx",
+            "48",
+            "--ny",
+            "39",
+            "--steps",
+            "5",
+            "--out",
+        ])
+        .arg(&g)
+        .output()
+        .unwrap();
+    assert!(o.status.success());
+    let out = d.path().join("out");
+    let o = bin()
+        .arg("run")
+        .arg(&g)
+        .arg("--member")
+        .arg(format!("twin={}", g.display()))
+        .args([
+            "--track",
+            "find",
+            "--cross=-40:40:40",
+            "--along",
+            "0",
+            "--quiet",
+            "--out",
+        ])
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let m: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.join("manifest.json")).unwrap()).unwrap();
+    let names: Vec<&str> = m["ensemble"]["members"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|v| v["name"].as_str().unwrap())
+        .collect();
+    assert_eq!(names, ["step_000", "twin"]);
+    assert_eq!(m["ensemble"]["members"][1]["weight"], 0.5);
+    // A malformed --member is a bad command line.
+    let o = bin()
+        .arg("run")
+        .arg(&g)
+        .args(["--member", "no-equals-sign", "--out"])
+        .arg(d.path().join("x"))
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("expected NAME=FILES"));
+
+    // `sounding --member` shows the member asked for, and names the members of the case when
+    // the name is wrong.
+    let dm = d.path().join("dm");
+    assert!(bin()
+        .args([
+            "make-demo",
+            "--members",
+            "--nx",
+            "48",
+            "--ny",
+            "39",
+            "--steps",
+            "5",
+            "--out"
+        ])
+        .arg(&dm)
+        .status()
+        .unwrap()
+        .success());
+    let town = "--at=47.2,-29.5";
+    let o = bin()
+        .arg("sounding")
+        .arg(dm.join("case.toml"))
+        .args([town, "--member", "warm-wet"])
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(String::from_utf8_lossy(&o.stdout).contains("(member warm-wet)"));
+    let o = bin()
+        .arg("sounding")
+        .arg(dm.join("case.toml"))
+        .args([town, "--member", "nope"])
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(2));
+    let e = String::from_utf8_lossy(&o.stderr);
+    assert!(e.contains("demo, north-track, warm-wet"), "{e}");
+}
+
+/// One GRIB2 file's messages made ensemble member `perturbation` of `count`: product template
+/// 4.0 becomes 4.1 and 4.8 becomes 4.11 by inserting, after octet 34 of Section 4, the three
+/// octets of WMO-No. 306 Vol. I.2 code tables 4.6 (type of ensemble forecast, 3 = positively
+/// perturbed), the perturbation number and the number of forecasts in the ensemble; the
+/// section's and the message's lengths grow by 3.
+fn as_ensemble_member(bytes: &[u8], perturbation: u8, count: u8) -> Vec<u8> {
+    let mut out = Vec::new();
+    let mut at = 0;
+    while at + 16 <= bytes.len() {
+        assert_eq!(&bytes[at..at + 4], b"GRIB");
+        let total = u64::from_be_bytes(bytes[at + 8..at + 16].try_into().unwrap()) as usize;
+        let msg = &bytes[at..at + total];
+        let mut m = msg[..16].to_vec();
+        let mut s = 16;
+        while s < total - 4 {
+            let len = u32::from_be_bytes(msg[s..s + 4].try_into().unwrap()) as usize;
+            let sect = &msg[s..s + len];
+            if sect[4] == 4 {
+                let template = u16::from_be_bytes([sect[7], sect[8]]);
+                let new = match template {
+                    0 => 1u16,
+                    8 => 11,
+                    other => panic!("template 4.{other}"),
+                };
+                let mut t = sect[..34].to_vec();
+                t[7..9].copy_from_slice(&new.to_be_bytes());
+                t.extend([3, perturbation, count]);
+                t.extend(&sect[34..]);
+                let l = (t.len() as u32).to_be_bytes();
+                t[..4].copy_from_slice(&l);
+                m.extend(t);
+            } else {
+                m.extend(sect);
+            }
+            s += len;
+        }
+        m.extend(b"7777");
+        let l = (m.len() as u64).to_be_bytes();
+        m[8..16].copy_from_slice(&l);
+        out.extend(m);
+        at += total;
+    }
+    out
+}
+
+#[test]
+fn an_ensemble_grib2_file_is_split_into_its_members_never_mixed() {
+    let d = tempfile::tempdir().unwrap();
+    let mut spec = trackswing::demo::DemoSpec::scaled(48, 39, 5, 2, 4);
+    let (plain, north, ens) = (
+        d.path().join("plain"),
+        d.path().join("north"),
+        d.path().join("ens"),
+    );
+    trackswing::demo::grib2_case::write_case_grib2(&plain, &spec).unwrap();
+    spec.variant.path_offset_km = (0.0, 80.0);
+    trackswing::demo::grib2_case::write_case_grib2(&north, &spec).unwrap();
+    std::fs::create_dir_all(&ens).unwrap();
+    let mut names: Vec<_> = std::fs::read_dir(plain.join("fields"))
+        .unwrap()
+        .map(|e| e.unwrap().file_name())
+        .collect();
+    names.sort();
+    for n in &names {
+        // Member 1's messages first in every file: what is read must not depend on the order.
+        let mut bytes =
+            as_ensemble_member(&std::fs::read(north.join("fields").join(n)).unwrap(), 1, 2);
+        bytes.extend(as_ensemble_member(
+            &std::fs::read(plain.join("fields").join(n)).unwrap(),
+            0,
+            2,
+        ));
+        std::fs::write(ens.join(n), bytes).unwrap();
+    }
+    let files: Vec<PathBuf> = names.iter().map(|n| ens.join(n)).collect();
+    // Read as one member, the files are refused, not mixed.
+    let e = trackswing::read::grib::GribSource::open(&files, &|_| {})
+        .err()
+        .unwrap()
+        .to_string();
+    assert!(
+        e.contains("2 ensemble members (perturbation numbers 0, 1)"),
+        "{e}"
+    );
+    assert_eq!(
+        trackswing::read::grib::perturbations(&files).unwrap(),
+        [0, 1]
+    );
+    // inspect lists them.
+    let o = bin().arg("inspect").arg(&ens).output().unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(String::from_utf8_lossy(&o.stdout)
+        .contains("Ensemble members (perturbation numbers of templates 4.1/4.11): 2: 0, 1"));
+    // A run splits them into members named by perturbation number; each member's run as
+    // issued is the run of its own file, bit for bit.
+    let run_zero = |what: &Path, out: &Path| {
+        let o = bin()
+            .arg("run")
+            .arg(what)
+            .args(["--cross", "0", "--along", "0", "--quiet", "--out"])
+            .arg(out)
+            .output()
+            .unwrap();
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    };
+    let (out, out_plain, out_north) =
+        (d.path().join("o"), d.path().join("op"), d.path().join("on"));
+    run_zero(&ens, &out);
+    run_zero(&plain.join("fields"), &out_plain);
+    run_zero(&north.join("fields"), &out_north);
+    let base = read_geotiff(&out.join("snowfall_member_baseline.tif")).unwrap();
+    assert_eq!(base.descriptions, ["step_000-p0", "step_000-p1"]);
+    let one = |dir: &Path| {
+        read_geotiff(&dir.join("snowfall_baseline.tif"))
+            .unwrap()
+            .bands[0]
+            .clone()
+    };
+    let (p0, p1) = (one(&out_plain), one(&out_north));
+    assert_ne!(p0, p1, "the members differ");
+    let same = |a: &[f32], b: &[f32]| {
+        a.iter()
+            .zip(b)
+            .all(|(x, y)| x == y || (x.is_nan() && y.is_nan()))
+    };
+    assert!(same(&base.bands[0], &p0));
+    assert!(same(&base.bands[1], &p1));
+    let m: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.join("manifest.json")).unwrap()).unwrap();
+    assert_eq!(m["ensemble"]["members"][1]["weight"], 0.5);
+}

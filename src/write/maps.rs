@@ -569,6 +569,8 @@ pub struct MapContext<'a> {
     /// With several members or methods: the dominant source of the spread per cell
     /// ([`legend::SOURCE_CODES`]).
     pub dominant_source: Option<&'a [f32]>,
+    /// With several members or methods: how many of each.
+    pub groups: Option<(usize, usize)>,
 }
 
 /// The quicklook maps besides the baseline's, with what each needs from the scenarios.
@@ -702,7 +704,15 @@ pub fn write_maps(
         track,
         centres,
         towns: ranked_towns,
-        subtitle: format!("{} · {} track offsets", ctx.title, r.scenarios.len()),
+        subtitle: match ctx.groups {
+            // A several-member case: the single-run maps show the first member and methods.
+            Some((members, methods)) => format!(
+                "{} · {members} members × {methods} method combinations × {} track offsets",
+                ctx.title,
+                r.scenarios.len()
+            ),
+            None => format!("{} · {} track offsets", ctx.title, r.scenarios.len()),
+        },
         notes: vec![
             format!(
                 "Offsets: across the track {} (positive = left of the storm's motion), along it {} (positive = ahead).",
@@ -713,6 +723,13 @@ pub fn write_maps(
             format!("Totals over {}.", ctx.period),
         ],
     };
+    let mut overlay = overlay;
+    if ctx.groups.is_some() {
+        overlay.notes.push(
+            "Fields other than the source of the spread are the first member's, with the first methods."
+                .into(),
+        );
+    }
 
     let snow_words = format!(
         "snowfall in {}",

@@ -228,6 +228,10 @@ fn write_decision_products(
         prior_words: prior_words(&case.summary.prior),
         period: &sum.period_words,
         dominant_source: sum.members.as_ref().map(|m| m.dominant.as_slice()),
+        groups: sum
+            .members
+            .as_ref()
+            .map(|m| (m.names.len(), m.options.len())),
     };
     for (file, needs) in maps::NEEDING {
         if let Some(reason) = sum.scope.missing(needs) {

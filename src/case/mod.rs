@@ -6,6 +6,8 @@
 
 mod error;
 mod files;
+mod here;
+mod member;
 mod prior;
 mod resolve;
 pub mod schema;

@@ -1,15 +1,14 @@
 //! From the case file as written (plus the command line's overrides) to a checked [`Case`]:
 //! one function per section, each error naming the setting (or the flag) and what was expected.
 
-use super::files::{expand_model, expand_pattern, ModelFiles};
+use super::here::Here;
+use super::member::{resolve_member, split_ensembles};
 use super::prior::resolve_prior;
 use super::schema::{
-    CaseFile, MemberFile, MethodsFile, OffsetList, OffsetsFile, OutputFile, ShiftFile, StepFiles,
-    WeightsFile,
+    CaseFile, MethodsFile, OffsetList, OffsetsFile, OutputFile, ShiftFile, WeightsFile,
 };
 use super::{
-    Case, CaseError, InputFormat, Inputs, Member, MethodOption, OutputSettings, Overrides, Physics,
-    SummarySettings,
+    Case, CaseError, Inputs, MethodOption, OutputSettings, Overrides, Physics, SummarySettings,
 };
 use crate::diagnose::{Methods, PtypeMethod, SlrMethod};
 use crate::read::region::{Region, RegionError};
@@ -19,7 +18,7 @@ use crate::summarise::coverage::{check_min_coverage, DEFAULT_MIN_COVERAGE};
 use crate::summarise::weights::{scenario_weights, TrackPrior};
 use crate::units::Units;
 use crate::write::raster_type::RasterType;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 /// Default core radius, km: the displacement is complete over the low's circulation and
 /// precipitation shield close to the centre (a synoptic low's cloud shield spans several hundred
@@ -49,40 +48,6 @@ pub const TIMING_LIMIT_H: f64 = 48.0;
 pub const INTENSITY_RANGE: (f64, f64) = (0.05, 5.0);
 /// Accepted warm-layer biases, K either way.
 pub const WARM_BIAS_LIMIT_K: f64 = 10.0;
-
-/// Where the case file is, for errors and relative paths.
-struct Here<'a> {
-    path: &'a Path,
-    dir: &'a Path,
-}
-
-impl Here<'_> {
-    /// An error about a setting, or about a flag when `field` is one (`--units`).
-    fn invalid(&self, field: &str, what: String) -> CaseError {
-        if field.starts_with("--") {
-            CaseError::Flag {
-                flag: field.to_string(),
-                what,
-            }
-        } else {
-            CaseError::Invalid {
-                path: self.path.to_path_buf(),
-                field: field.to_string(),
-                what,
-            }
-        }
-    }
-
-    /// A file named by a setting, relative to the case file, which must exist.
-    fn existing(&self, field: &str, rel: &str) -> Result<PathBuf, CaseError> {
-        let p = self.dir.join(rel);
-        if p.is_file() {
-            Ok(p)
-        } else {
-            Err(self.invalid(field, format!("file '{}' does not exist", p.display())))
-        }
-    }
-}
 
 /// Resolves a parsed case file with the command line's overrides.
 pub(super) fn resolve(path: &Path, file: CaseFile, over: &Overrides) -> Result<Case, CaseError> {
@@ -162,136 +127,6 @@ pub(super) fn resolve(path: &Path, file: CaseFile, over: &Overrides) -> Result<C
         output,
         force: over.force,
     })
-}
-
-/// The `i`-th `[[member]]`: GeoTIFF terrain and steps, or model files; its track and weight.
-fn resolve_member(here: &Here, i: usize, m: &MemberFile) -> Result<Member, CaseError> {
-    let at = |key: &str| format!("member[{i}]{key}");
-    let weight = m.weight.unwrap_or(1.0);
-    if !(weight.is_finite() && weight > 0.0) {
-        return Err(here.invalid(
-            &at(".weight"),
-            format!("{weight}: expected a positive number (1 unless this member counts more or less than the others)"),
-        ));
-    }
-    let find_track = m.track.as_deref() == Some("find");
-    let track = match m.track.as_deref() {
-        Some("find") | None => None,
-        Some(t) => Some(here.existing(&at(".track"), t)?),
-    };
-    let model_format = match m.format.as_deref() {
-        None | Some("grib2") => InputFormat::Model,
-        Some("gdal") if cfg!(feature = "gdal") => InputFormat::Gdal,
-        Some("gdal") => return Err(here.invalid(
-            &at(".format"),
-            "\"gdal\" needs a build with GDAL: rebuild with `cargo build --release --features gdal` (needs the system GDAL library, Debian: libgdal-dev)".into(),
-        )),
-        Some(other) => return Err(here.invalid(
-            &at(".format"),
-            format!("'{other}': expected \"grib2\" or \"gdal\""),
-        )),
-    };
-    if m.format.is_some() && m.model.is_none() {
-        return Err(here.invalid(
-            &at(".format"),
-            "applies to model files; give model = ... (GeoTIFF terrain and steps are read without it)".into(),
-        ));
-    }
-    match (&m.terrain, &m.steps, &m.model) {
-        (Some(terrain), Some(steps), None) => {
-            let steps = match steps {
-                StepFiles::List(list) => list
-                    .iter()
-                    .enumerate()
-                    .map(|(k, s)| here.existing(&at(&format!(".steps[{k}]")), s))
-                    .collect::<Result<Vec<_>, _>>()?,
-                StepFiles::Pattern(p) => expand_pattern(here.dir, p)
-                    .map_err(|what| here.invalid(&at(".steps"), what))?,
-            };
-            if steps.is_empty() {
-                return Err(here.invalid(&at(".steps"), "no step files listed".into()));
-            }
-            Ok(Member {
-                name: m.name.clone(),
-                terrain: here.existing(&at(".terrain"), terrain)?,
-                steps,
-                skipped: Vec::new(),
-                track,
-                format: InputFormat::GeoTiff,
-                find_track,
-                weight,
-                perturbation: None,
-            })
-        }
-        (None, None, Some(model)) => {
-            let items: Vec<String> = match model {
-                StepFiles::Pattern(p) => vec![p.clone()],
-                StepFiles::List(l) => l.clone(),
-            };
-            let mut found = ModelFiles::default();
-            for (k, item) in items.iter().enumerate() {
-                let field = if items.len() == 1 {
-                    at(".model")
-                } else {
-                    at(&format!(".model[{k}]"))
-                };
-                found.extend(
-                    expand_model(here.dir, item).map_err(|what| here.invalid(&field, what))?,
-                );
-            }
-            Ok(Member {
-                name: m.name.clone(),
-                terrain: found.files[0].clone(),
-                steps: found.files,
-                skipped: found.skipped,
-                track,
-                format: model_format,
-                find_track,
-                weight,
-                perturbation: None,
-            })
-        }
-        _ => Err(here.invalid(
-            &at(""),
-            "give either terrain and steps (GeoTIFF files) or model (GRIB2 files: a folder, a pattern or a list), not both".into(),
-        )),
-    }
-}
-
-/// Model files holding several ensemble members (GRIB2 templates 4.1/4.11) become one member
-/// each, named `NAME-pN` after the perturbation number, sharing the member's weight equally
-/// (the `[[member]]` weight is the whole ensemble's). Files that cannot be scanned are left as
-/// they are, for the reader to name the problem.
-fn split_ensembles(members: Vec<Member>) -> Vec<Member> {
-    let mut out = Vec::with_capacity(members.len());
-    for m in members {
-        let grib2 = m.format == InputFormat::Model
-            && m.steps.iter().all(|f| {
-                matches!(
-                    crate::read::source::magic(f),
-                    Ok(crate::read::source::Magic::Grib2)
-                )
-            });
-        let found = if grib2 {
-            crate::read::grib::perturbations(&m.steps).unwrap_or_default()
-        } else {
-            Vec::new()
-        };
-        if found.len() < 2 {
-            out.push(m);
-            continue;
-        }
-        let share = m.weight / found.len() as f64;
-        for p in found {
-            out.push(Member {
-                name: format!("{}-p{p}", m.name),
-                weight: share,
-                perturbation: Some(p),
-                ..m.clone()
-            });
-        }
-    }
-    out
 }
 
 /// `region` (or `--region`, which wins).

@@ -244,6 +244,7 @@ fn main() -> anyhow::Result<()> {
         shards: Vec::new(),
         warnings: Vec::new(),
         window: None,
+        reference: None,
     };
     let started = Instant::now();
     let summary = trackswing::summarise::summary::summarise(&case, &result)?;

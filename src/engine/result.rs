@@ -41,6 +41,8 @@ pub struct RunResult {
     pub warnings: Vec<String>,
     /// The window of the model grid the run read, when the case gives a region.
     pub window: Option<crate::read::region::Window>,
+    /// The model run's reference time (its cycle), when the files say.
+    pub reference: Option<DateTime<Utc>>,
 }
 
 /// What a run (or a merge of shards) computed beside its prepared inputs.
@@ -103,6 +105,7 @@ impl RunResult {
             shards: computed.shards,
             warnings: Vec::new(),
             window: source.window().cloned(),
+            reference: source.reference_time(),
         }
     }
 }

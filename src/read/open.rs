@@ -83,6 +83,9 @@ impl Source for RegionSource {
     fn window(&self) -> Option<&Window> {
         Some(&self.window)
     }
+    fn reference_time(&self) -> Option<DateTime<Utc>> {
+        self.inner.reference_time()
+    }
 }
 
 /// Opens a member's fields, cut to `region` (the box and where it was given, `--region` or the

@@ -66,6 +66,10 @@ pub trait Source: Sync {
     fn window(&self) -> Option<&Window> {
         None
     }
+    /// The model run's reference time (its cycle), when the files say (GRIB2 Section 1).
+    fn reference_time(&self) -> Option<DateTime<Utc>> {
+        None
+    }
 }
 
 /// GeoTIFF files: one terrain file and one file per step.

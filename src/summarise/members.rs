@@ -40,6 +40,9 @@ pub struct MemberSummary {
     /// ([`crate::render::legend::SOURCE_CODES`]: 1 members, 2 methods, 3 track, 0 none, 4 no
     /// spread); NaN where the spread is missing.
     pub dominant: Vec<f32>,
+    /// When the members are successive cycles of a model (every member has a reference time,
+    /// all different): the members in time order, with their reference times.
+    pub cycles: Option<Vec<(usize, chrono::DateTime<chrono::Utc>)>>,
     /// Per ranked town (in the order of `Summary::ranked`): the parts of its snowfall's variance
     /// and each member's baseline.
     pub towns: Vec<TownSpread>,
@@ -140,7 +143,17 @@ pub fn summarise_members(
             }
         })
         .collect();
+    let references: Vec<Option<chrono::DateTime<chrono::Utc>>> = (0..members.len())
+        .map(|m| {
+            e.groups
+                .iter()
+                .find(|g| g.member == m && g.option == 0)
+                .and_then(|g| g.run.reference)
+        })
+        .collect();
+    let cycles = cycles_of(&references);
     MemberSummary {
+        cycles,
         dominant,
         names: members.iter().map(|m| m.name.clone()).collect(),
         member_weights: members.iter().map(|m| m.weight / member_sum).collect(),
@@ -192,6 +205,62 @@ fn town_spread(
     TownSpread { parts, baselines }
 }
 
+/// The members in time order when they are successive cycles: at least two, each with a
+/// reference time, no two the same.
+fn cycles_of(
+    references: &[Option<chrono::DateTime<chrono::Utc>>],
+) -> Option<Vec<(usize, chrono::DateTime<chrono::Utc>)>> {
+    let mut v: Vec<(usize, chrono::DateTime<chrono::Utc>)> = references
+        .iter()
+        .enumerate()
+        .map(|(i, r)| r.map(|t| (i, t)))
+        .collect::<Option<_>>()?;
+    v.sort_by_key(|&(_, t)| t);
+    let distinct = v.windows(2).all(|w| w[0].1 < w[1].1);
+    (v.len() >= 2 && distinct).then_some(v)
+}
+
+/// The run-to-run change of a town's snowfall as modelled, in words: each cycle's baseline in
+/// time order and the change from the first to the last; `None` where a baseline is missing.
+pub fn trend_words(
+    cycles: &[(usize, chrono::DateTime<chrono::Utc>)],
+    baselines_mm: &[f32],
+    units: Units,
+) -> Option<String> {
+    let values: Vec<f32> = cycles
+        .iter()
+        .map(|&(m, _)| baselines_mm.get(m).copied().unwrap_or(f32::NAN))
+        .collect();
+    if values.iter().any(|v| v.is_nan()) {
+        return None;
+    }
+    let su = units.snow_unit();
+    let change = units.snow(values[values.len() - 1] - values[0]);
+    let path: Vec<String> = cycles
+        .iter()
+        .zip(&values)
+        .map(|((_, t), v)| format!("{} {:.1}", t.format("%dT%HZ"), units.snow(*v)))
+        .collect();
+    let how = if change.abs() < 0.05 {
+        "unchanged".to_string()
+    } else if change > 0.0 {
+        format!("up {change:.1} {su}")
+    } else {
+        format!("down {:.1} {su}", -change)
+    };
+    Some(format!(
+        "run to run, {how} over the last {} cycles ({} {su})",
+        cycles.len(),
+        path.join(" → ")
+    ))
+}
+
+/// The change from the first cycle's baseline to the last's, mm (NaN where one is missing).
+pub fn trend_mm(cycles: &[(usize, chrono::DateTime<chrono::Utc>)], baselines_mm: &[f32]) -> f32 {
+    let at = |k: usize| baselines_mm.get(cycles[k].0).copied().unwrap_or(f32::NAN);
+    at(cycles.len() - 1) - at(0)
+}
+
 /// Which source a share of at least half the variance names, in plain words; a mixed spread
 /// gives the three shares. Nothing where the spread is missing or zero.
 pub fn source_words(
@@ -233,6 +302,27 @@ pub fn source_words(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn cycles_in_time_order_and_their_trend() {
+        use chrono::TimeZone;
+        let t = |h: u32| Some(chrono::Utc.with_ymd_and_hms(2026, 1, 13, h, 0, 0).unwrap());
+        // Listed out of order: sorted by reference time.
+        let c = cycles_of(&[t(12), t(0), t(6)]).unwrap();
+        assert_eq!(c.iter().map(|x| x.0).collect::<Vec<_>>(), [1, 2, 0]);
+        // Two members of one cycle, or one without a time: not cycles.
+        assert!(cycles_of(&[t(6), t(6)]).is_none());
+        assert!(cycles_of(&[t(6), None]).is_none());
+        assert!(cycles_of(&[t(6)]).is_none());
+        // Baselines 180, 120, 150 mm for the members 0 (12Z), 1 (00Z), 2 (06Z): 12 → 15 → 18 cm.
+        let b = [180.0, 120.0, 150.0];
+        assert_eq!(trend_mm(&c, &b), 60.0);
+        assert_eq!(
+            trend_words(&c, &b, Units::Metric).unwrap(),
+            "run to run, up 6.0 cm over the last 3 cycles (13T00Z 12.0 → 13T06Z 15.0 → 13T12Z 18.0 cm)"
+        );
+        assert!(trend_words(&c, &[180.0, f32::NAN, 150.0], Units::Metric).is_none());
+    }
 
     #[test]
     fn the_words_name_the_dominant_source() {

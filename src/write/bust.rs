@@ -9,7 +9,7 @@ use super::{Kind, WriteError, Written};
 use crate::render::legend::threshold_text;
 use crate::scenario::Scenario;
 use crate::summarise::bust::{sentence, TownDecision};
-use crate::summarise::members::{source_words, MemberSummary, TownSpread};
+use crate::summarise::members::{source_words, trend_mm, trend_words, MemberSummary, TownSpread};
 use crate::summarise::sensitivity::{FlipKind, FlipSearch};
 use crate::units::Units;
 use geojson::JsonObject;
@@ -196,6 +196,16 @@ fn row(
             let w = source_words(p, units, m.names.len() > 1, m.options.len() > 1);
             if !w.is_empty() {
                 words = format!("{words} Across members and methods, {w}.");
+            }
+        }
+        if let Some(cycles) = &m.cycles {
+            // Successive cycles of one model: the run-to-run change as modelled.
+            v.push((
+                format!("cycle_trend_{su}"),
+                snow(trend_mm(cycles, &ts.baselines) as f64),
+            ));
+            if let Some(w) = trend_words(cycles, &ts.baselines, units) {
+                words = format!("{words} As modelled, {w}.");
             }
         }
     }

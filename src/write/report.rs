@@ -450,6 +450,12 @@ pub fn write_report(dir: &Path) -> Result<PathBuf, ReportError> {
                 col("share_track", "Share from track"),
             ]);
         }
+        if header.iter().any(|h| h == &format!("cycle_trend_{su}")) {
+            shown.push(col(
+                &format!("cycle_trend_{su}"),
+                &format!("Run to run, first to last cycle ({su})"),
+            ));
+        }
         shown.push(col("summary", "In words"));
         let idx: Vec<usize> = shown
             .iter()

@@ -429,3 +429,132 @@ fn an_ensemble_grib2_file_is_split_into_its_members_never_mixed() {
         serde_json::from_slice(&std::fs::read(out.join("manifest.json")).unwrap()).unwrap();
     assert_eq!(m["ensemble"]["members"][1]["weight"], 0.5);
 }
+
+/// One GRIB2 file's messages as the same fields from a cycle `hours` earlier: the reference
+/// time (Section 1, octets 13–19) moves back and the forecast time (Section 4, octets 19–22,
+/// in hours: code table 4.4 unit 1) forward by as much, so every valid time stays (WMO-No. 306
+/// Vol. I.2, templates 4.0 and 4.8; the end of a 4.8 interval is an absolute time and stays).
+fn from_earlier_cycle(bytes: &[u8], hours: u32) -> Vec<u8> {
+    use chrono::{Datelike, TimeZone, Timelike};
+    let mut out = bytes.to_vec();
+    let mut at = 0;
+    while at + 16 <= out.len() {
+        let total = u64::from_be_bytes(out[at + 8..at + 16].try_into().unwrap()) as usize;
+        let mut s = at + 16;
+        while s < at + total - 4 {
+            let len = u32::from_be_bytes(out[s..s + 4].try_into().unwrap()) as usize;
+            match out[s + 4] {
+                1 => {
+                    let o = &mut out[s..s + len];
+                    let year = u16::from_be_bytes([o[12], o[13]]) as i32;
+                    let t = chrono::Utc
+                        .with_ymd_and_hms(
+                            year,
+                            o[14] as u32,
+                            o[15] as u32,
+                            o[16] as u32,
+                            o[17] as u32,
+                            o[18] as u32,
+                        )
+                        .unwrap()
+                        - chrono::Duration::hours(hours as i64);
+                    o[12..14].copy_from_slice(&(t.year() as u16).to_be_bytes());
+                    (o[14], o[15], o[16], o[17], o[18]) = (
+                        t.month() as u8,
+                        t.day() as u8,
+                        t.hour() as u8,
+                        t.minute() as u8,
+                        t.second() as u8,
+                    );
+                }
+                4 => {
+                    let o = &mut out[s..s + len];
+                    assert_eq!(o[17], 1, "forecast time in hours");
+                    let ft = u32::from_be_bytes(o[18..22].try_into().unwrap()) + hours;
+                    o[18..22].copy_from_slice(&ft.to_be_bytes());
+                }
+                _ => {}
+            }
+            s += len;
+        }
+        at += total;
+    }
+    out
+}
+
+#[test]
+fn successive_cycles_give_the_run_to_run_change_in_time_order() {
+    let d = tempfile::tempdir().unwrap();
+    let mut spec = trackswing::demo::DemoSpec::scaled(48, 39, 5, 2, 4);
+    let (early_src, later) = (d.path().join("early-src"), d.path().join("later"));
+    trackswing::demo::grib2_case::write_case_grib2(&early_src, &spec).unwrap();
+    spec.variant.warm_k = -1.0;
+    spec.variant.wet_factor = 1.3;
+    trackswing::demo::grib2_case::write_case_grib2(&later, &spec).unwrap();
+    // Both members from the second valid time on: the earlier cycle's first step then has a
+    // total since its start, as a real earlier cycle would.
+    let early = d.path().join("early");
+    let later_fields = d.path().join("later-fields");
+    std::fs::create_dir_all(&early).unwrap();
+    std::fs::create_dir_all(&later_fields).unwrap();
+    for e in std::fs::read_dir(early_src.join("fields")).unwrap() {
+        let p = e.unwrap().path();
+        let name = p.file_name().unwrap().to_owned();
+        if name.to_string_lossy() == "step_000.grib2" {
+            continue;
+        }
+        let b = from_earlier_cycle(&std::fs::read(&p).unwrap(), 6);
+        std::fs::write(early.join(&name), b).unwrap();
+        std::fs::copy(later.join("fields").join(&name), later_fields.join(&name)).unwrap();
+    }
+    // The later cycle first on the command line; the towns of the demo.
+    let out = d.path().join("out");
+    let o = bin()
+        .arg("run")
+        .arg(&later_fields)
+        .arg("--member")
+        .arg(format!("early={}", early.display()))
+        .arg("--towns")
+        .arg(later.join("towns.csv"))
+        .args([
+            "--track",
+            "find",
+            "--cross=-20:20:20",
+            "--along",
+            "0",
+            "--quiet",
+            "--out",
+        ])
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let mut r = csv::Reader::from_path(out.join("towns_bust.csv")).unwrap();
+    let h = r.headers().unwrap().clone();
+    let col = |n: &str| {
+        h.iter()
+            .position(|c| c == n)
+            .unwrap_or_else(|| panic!("{n}"))
+    };
+    let (trend, b_later, b_early, words) = (
+        col("cycle_trend_cm"),
+        col("baseline_cm_step_001"),
+        col("baseline_cm_early"),
+        col("summary"),
+    );
+    let mut checked = 0;
+    for rec in r.records() {
+        let rec = rec.unwrap();
+        let num = |k: usize| rec.get(k).unwrap().parse::<f64>().ok();
+        if let (Some(t), Some(l), Some(e)) = (num(trend), num(b_later), num(b_early)) {
+            // Later minus earlier, each rounded to 0.1 cm.
+            assert!((t - (l - e)).abs() <= 0.1 + 1e-9, "{t} against {l} − {e}");
+            let w = rec.get(words).unwrap();
+            assert!(w.contains("over the last 2 cycles (13T06Z "), "{w}");
+            if t.abs() >= 0.1 {
+                checked += 1;
+            }
+        }
+    }
+    assert!(checked >= 3, "{checked} towns with a change");
+}

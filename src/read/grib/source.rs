@@ -498,6 +498,11 @@ impl Source for GribSource {
     fn inputs(&self) -> Vec<PathBuf> {
         self.cat.files.clone()
     }
+    fn reference_time(&self) -> Option<DateTime<Utc>> {
+        // The cycle of the first step's fields (a run's fields share it).
+        let first = self.plan.first()?.reads().into_iter().next()?;
+        Some(self.cat.entries[first].product.reference)
+    }
 }
 
 /// The ensemble perturbation numbers of the fields of used parameters, sorted (empty for

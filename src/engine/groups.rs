@@ -32,6 +32,21 @@ pub struct Ensemble {
     pub groups: Vec<GroupRun>,
 }
 
+impl Ensemble {
+    /// Member `member`'s run as issued: with the first method combination.
+    pub fn as_issued(&self, member: usize) -> Option<&RunResult> {
+        self.groups
+            .iter()
+            .find(|g| g.member == member && g.option == 0)
+            .map(|g| &g.run)
+    }
+
+    /// How many members the groups hold.
+    pub fn members(&self) -> usize {
+        self.groups.iter().map(|g| g.member + 1).max().unwrap_or(0)
+    }
+}
+
 /// Runs every group of the case. The later groups' warnings are added to the primary run's,
 /// each naming its member and methods.
 pub fn run_groups(

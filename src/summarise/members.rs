@@ -109,12 +109,7 @@ pub fn summarise_members(
                 .collect()
         })
         .collect();
-    let baseline_of = |m: usize| {
-        e.groups
-            .iter()
-            .find(|g| g.member == m && g.option == 0)
-            .map(|g| &g.run.totals[g.run.baseline].snowfall)
-    };
+    let baseline_of = |m: usize| e.as_issued(m).map(|r| &r.totals[r.baseline].snowfall);
     let member_baseline = (0..members.len())
         .map(|m| {
             baseline_of(m)
@@ -144,12 +139,7 @@ pub fn summarise_members(
         })
         .collect();
     let references: Vec<Option<chrono::DateTime<chrono::Utc>>> = (0..members.len())
-        .map(|m| {
-            e.groups
-                .iter()
-                .find(|g| g.member == m && g.option == 0)
-                .and_then(|g| g.run.reference)
-        })
+        .map(|m| e.as_issued(m).and_then(|r| r.reference))
         .collect();
     let cycles = cycles_of(&references);
     MemberSummary {
@@ -191,15 +181,11 @@ fn town_spread(
     let parts = (carried >= min * all - 1e-12)
         .then(|| parts(&values))
         .flatten();
-    let members = e.groups.iter().map(|g| g.member).max().map_or(0, |m| m + 1);
-    let baselines = (0..members)
+    let baselines = (0..e.members())
         .map(|m| {
-            e.groups
-                .iter()
-                .find(|g| g.member == m && g.option == 0)
-                .map_or(f32::NAN, |g| {
-                    value_at(grid, &g.run.totals[g.run.baseline].snowfall, t.lon, t.lat)
-                })
+            e.as_issued(m).map_or(f32::NAN, |r| {
+                value_at(grid, &r.totals[r.baseline].snowfall, t.lon, t.lat)
+            })
         })
         .collect();
     TownSpread { parts, baselines }

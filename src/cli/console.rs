@@ -215,7 +215,7 @@ pub fn summary(
         let (m, k) = (case.inputs.members.len(), case.physics.options.len());
         let _ = writeln!(
             out,
-            "{m} member{} × {k} method combination{} × {} offset scenarios = {} scenarios in all; the line above is the first member's with the first methods",
+            "{m} member{} × {k} method combination{} × {} offset scenarios = {} scenarios in all; the line above is the first member's with the first methods, the summaries and towns below pool them all",
             if m == 1 { "" } else { "s" },
             if k == 1 { "" } else { "s" },
             r.scenarios.len(),

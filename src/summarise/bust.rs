@@ -10,7 +10,9 @@
 //! range is as wide as the forecast itself.
 
 use super::ice::ice_accretion;
-use super::quantiles::{exceedance, prepare, summary, Summary};
+use super::names::ScenarioNames;
+use super::pool::Pool;
+use super::quantiles::Summary;
 use super::sensitivity::{
     by_distance, difference, flip_search, stencil, Axis, CellTotals, FlipKind, FlipSearch, Ptype,
 };
@@ -124,9 +126,14 @@ pub fn bust_score(p10_mm: f64, p90_mm: f64, baseline_mm: f64) -> f64 {
 
 /// Every town's decision numbers, ranked: highest bust score first, missing last, ties by name.
 /// `snow_thresholds_mm` are snow depths and `ice_thresholds_mm` ice accretions, in mm.
+///
+/// `r` gives the grid, the towns and the offsets (the primary run's in an ensemble) and `pool`
+/// the scenarios summarised ([`super::pool`]): the distributions, extremes and onsets pool
+/// every scenario; the flip and the sensitivities use the blend at each offset; the baseline is
+/// the run as issued.
 pub fn town_decisions(
     r: &RunResult,
-    weights: &[f64],
+    pool: &Pool<'_>,
     min_coverage: f64,
     snow_thresholds_mm: &[f64],
     ice_thresholds_mm: &[f64],
@@ -139,7 +146,7 @@ pub fn town_decisions(
         .iter()
         .map(|t| {
             let point = TownPoint::new(&r.grid, t.lon, t.lat);
-            let per: Vec<CellTotals> = r
+            let per: Vec<CellTotals> = pool
                 .totals
                 .iter()
                 .map(|tot| match &point {
@@ -153,7 +160,7 @@ pub fn town_decisions(
                     },
                 })
                 .collect();
-            let ice: Vec<f32> = r
+            let ice: Vec<f32> = pool
                 .totals
                 .iter()
                 .map(|tot| {
@@ -163,38 +170,25 @@ pub fn town_decisions(
                 })
                 .collect();
             let snowfall: Vec<f32> = per.iter().map(|c| c.snowfall).collect();
-            let weighted = |v: &[f32]| {
-                let mut pairs: Vec<(f64, f64)> = v
-                    .iter()
-                    .zip(weights)
-                    .map(|(x, w)| (*x as f64, *w))
-                    .collect();
-                prepare(&mut pairs, min_coverage).map(|_| pairs)
-            };
-            let exceedances = |pairs: Option<&[(f64, f64)]>, thresholds: &[f64]| -> Vec<f64> {
-                thresholds
-                    .iter()
-                    .map(|th| pairs.map_or(f64::NAN, |p| exceedance(p, *th)))
-                    .collect()
-            };
-            let snow_pairs = weighted(&snowfall);
-            let snow = snow_pairs.as_deref().map(summary);
-            let snow_exceedance = exceedances(snow_pairs.as_deref(), snow_thresholds_mm);
-            let ice_pairs = weighted(&ice);
-            let ice_exceedance = exceedances(ice_pairs.as_deref(), ice_thresholds_mm);
+            let snow_blend = pool.place(&snowfall, snow_thresholds_mm, min_coverage);
+            let snow = snow_blend.as_ref().map(|b| b.0);
+            let snow_exceedance = exceedances(snow_blend.as_ref(), snow_thresholds_mm);
+            let ice_blend = pool.place(&ice, ice_thresholds_mm, min_coverage);
+            let ice_exceedance = exceedances(ice_blend.as_ref(), ice_thresholds_mm);
             // Over the scenarios with data, where the coverage rule summarises the town.
-            let extremes = snow_pairs.as_ref().and_then(|_| extremes(&snowfall));
+            let extremes = snow.and_then(|_| extremes(&snowfall));
             let base = per[r.baseline];
-            let flip = flip_search(&r.scenarios, &order, &base, |k| per[k]);
+            let offsets = pool.offsets_of(&per);
+            let flip = flip_search(&r.scenarios, &order, &offsets[r.baseline], |k| offsets[k]);
             let diff = |st: &Option<super::sensitivity::Stencil>| {
                 st.as_ref()
-                    .map_or(f32::NAN, |s| difference(s, |k| snowfall[k]))
+                    .map_or(f32::NAN, |s| difference(s, |k| offsets[k].snowfall))
             };
             let score = snow.map_or(f64::NAN, |s| {
                 bust_score(s.quantiles[0], s.quantiles[2], base.snowfall as f64)
             });
             let (sensitivity_cross, sensitivity_along) = (diff(&cross), diff(&along));
-            let onset_shift_h = onset_shift_hours(r, t.lon, t.lat);
+            let onset_shift_h = onset_shift_hours(r, pool, t.lon, t.lat);
             TownDecision {
                 name: t.name.clone(),
                 lat: t.lat,
@@ -202,7 +196,7 @@ pub fn town_decisions(
                 onset_shift_h,
                 baseline: base,
                 ice_baseline: ice[r.baseline],
-                ice: ice_pairs.as_deref().map(summary),
+                ice: ice_blend.map(|b| b.0),
                 ice_exceedance,
                 snowfall,
                 snow,
@@ -225,6 +219,11 @@ pub fn town_decisions(
             .then_with(|| a.name.cmp(&b.name)),
     });
     out
+}
+
+/// The probabilities of reaching each threshold from a place's summary (NaN where missing).
+fn exceedances(blend: Option<&(Summary, Vec<f64>)>, thresholds: &[f64]) -> Vec<f64> {
+    blend.map_or_else(|| vec![f64::NAN; thresholds.len()], |b| b.1.clone())
 }
 
 /// Smallest and largest of the values that are not missing (`None` when all are).
@@ -296,12 +295,21 @@ fn nearest_reaching(
 /// all offsets run." The low and high clauses name the nearest offset that brings the town to
 /// its P10 (or below) and its P90 (or above): how little track error it takes to reach the
 /// ends of the P10–P90 spread.
-pub fn sentence(t: &TownDecision, scenarios: &[Scenario], units: Units) -> String {
+///
+/// `names` names the scenarios of `t.snowfall` (pooled over groups in an ensemble: then the
+/// low and high clauses name the member or methods too); the flip is at an offset of the blend.
+pub fn sentence(t: &TownDecision, names: &ScenarioNames, units: Units) -> String {
+    let scenarios = names.scenarios();
+    let pooled = names.is_pooled();
     let (Some(s), Some(x)) = (t.snow, t.extremes) else {
         return "Missing in some track offsets (near the grid edge or where the model has no data), so no spread is given.".to_string();
     };
     let base = t.baseline.snowfall as f64;
-    let mut parts = vec![format!("{} as modelled", snow_words(base, units))];
+    let mut parts = vec![match names.group_words(0) {
+        // In an ensemble the run as issued is the primary group's.
+        Some(g) => format!("{} as modelled by {g}", snow_words(base, units)),
+        None => format!("{} as modelled", snow_words(base, units)),
+    }];
     if let Some(ty) = t.baseline.dominant().filter(|p| *p != Ptype::Snow) {
         parts[0].push_str(&format!(" (mostly {})", ty.words()));
     }
@@ -314,33 +322,49 @@ pub fn sentence(t: &TownDecision, scenarios: &[Scenario], units: Units) -> Strin
             } else {
                 format!("{amount} or less")
             };
-            parts.push(format!(
-                "{amount} if the low tracks {}",
-                scenarios[k].in_words_in(units)
-            ));
+            parts.push(if pooled {
+                format!("{amount} in {}", in_group(names, k, units))
+            } else {
+                format!(
+                    "{amount} if the low tracks {}",
+                    scenarios[k].in_words_in(units)
+                )
+            });
         }
     }
     if p90 - base >= NOTABLE_MM as f64 {
         if let Some(k) = nearest_reaching(&t.snowfall, scenarios, p90, false) {
-            parts.push(format!(
-                "{} or more if it tracks {}",
-                snow_words(p90, units),
-                scenarios[k].in_words_in(units)
-            ));
+            parts.push(if pooled {
+                format!(
+                    "{} or more in {}",
+                    snow_words(p90, units),
+                    in_group(names, k, units)
+                )
+            } else {
+                format!(
+                    "{} or more if it tracks {}",
+                    snow_words(p90, units),
+                    scenarios[k].in_words_in(units)
+                )
+            });
         }
     }
     match t.flip {
         FlipSearch::Flip(f) => {
             let at = scenarios[f.scenario].in_words_in(units);
-            parts.push(match (f.kind, f.to) {
-                (FlipKind::Type, Some(to)) => {
-                    format!("turns mostly to {} with the low {at}", to.words())
-                }
-                (FlipKind::Halves, _) | (FlipKind::Type, None) => {
-                    format!("halves with the low {at}")
-                }
-                (FlipKind::Doubles, _) => format!("doubles with the low {at}"),
-            });
+            let blend = if pooled { "the blend " } else { "" };
+            parts.push(
+                blend.to_string()
+                    + &match (f.kind, f.to) {
+                        (FlipKind::Type, Some(to)) => {
+                            format!("turns mostly to {} with the low {at}", to.words())
+                        }
+                        (FlipKind::Halves, _) | (FlipKind::Type, None) => {
+                            format!("halves with the low {at}")
+                        }
+                        (FlipKind::Doubles, _) => format!("doubles with the low {at}"),
+                    },
+            );
         }
         FlipSearch::Never => {
             let far = scenarios
@@ -348,15 +372,25 @@ pub fn sentence(t: &TownDecision, scenarios: &[Scenario], units: Units) -> Strin
                 .map(|s| s.cross_km.hypot(s.along_km))
                 .fold(0.0, f64::max);
             parts.push(format!(
-                "no change of type, halving or doubling within the offsets run (up to {})",
-                units.distance(far.round())
+                "no change of type, halving or doubling within the offsets run (up to {}){}",
+                units.distance(far.round()),
+                if pooled { " in the blend" } else { "" }
             ));
         }
         FlipSearch::Missing => {}
     }
     let hi = snow_words(x.max as f64, units);
+    let over = if pooled {
+        "all members, methods and offsets run"
+    } else {
+        "all offsets run"
+    };
     if hi == "no snow" {
-        parts.push("no snow in any offset run".to_string());
+        parts.push(if pooled {
+            format!("no snow in any of {over}")
+        } else {
+            "no snow in any offset run".to_string()
+        });
         return parts.join("; ") + ".";
     }
     let lo = snow_words(x.min as f64, units);
@@ -367,21 +401,36 @@ pub fn sentence(t: &TownDecision, scenarios: &[Scenario], units: Units) -> Strin
             .trim_end()
             .to_string()
     };
-    parts.push(format!("{lo}–{hi} over all offsets run"));
+    parts.push(format!("{lo}–{hi} over {over}"));
     parts.join("; ") + "."
+}
+
+/// Pooled scenario `k` as the place of a low or high clause: `member 'north' as modelled`,
+/// `member 'north' with the low 40 km left`.
+fn in_group(names: &ScenarioNames, k: usize, units: Units) -> String {
+    let s = names.scenario(k);
+    let group = names.group_words(k).unwrap_or_default();
+    if s.is_baseline() {
+        format!("{group} as modelled")
+    } else {
+        format!("{group} with the low {}", s.in_words_in(units))
+    }
 }
 
 /// Earliest and latest onset of measurable snow over the scenarios, hours relative to the
 /// baseline's onset (NaN, NaN when the baseline never reaches it).
-fn onset_shift_hours(r: &RunResult, lon: f64, lat: f64) -> (f64, f64) {
-    let time = |k: u32| r.valid_times[k as usize - 1];
-    let onset = |s: usize| crate::accumulate::onset_at(&r.totals[s], &r.grid, lon, lat);
-    let Some(base) = onset(r.baseline).map(time) else {
+fn onset_shift_hours(r: &RunResult, pool: &Pool<'_>, lon: f64, lat: f64) -> (f64, f64) {
+    // Each scenario's onset is a step of its own group, whose steps may be other times.
+    let onset = |s: usize| {
+        crate::accumulate::onset_at(pool.totals[s], &r.grid, lon, lat)
+            .map(|k| pool.valid_times(s)[k as usize - 1])
+    };
+    let Some(base) = onset(r.baseline) else {
         return (f64::NAN, f64::NAN);
     };
-    let shifts: Vec<f64> = (0..r.totals.len())
+    let shifts: Vec<f64> = (0..pool.totals.len())
         .filter_map(onset)
-        .map(|k| (time(k) - base).num_minutes() as f64 / 60.0)
+        .map(|t| (t - base).num_minutes() as f64 / 60.0)
         .collect();
     let lo = shifts.iter().copied().fold(f64::INFINITY, f64::min);
     let hi = shifts.iter().copied().fold(f64::NEG_INFINITY, f64::max);
@@ -390,6 +439,7 @@ fn onset_shift_hours(r: &RunResult, lon: f64, lat: f64) -> (f64, f64) {
 
 #[cfg(test)]
 mod tests {
+    use super::super::quantiles::{prepare, summary};
     use super::*;
 
     fn decision(base: f32, snowfall: Vec<f32>, flip: FlipSearch) -> TownDecision {
@@ -438,7 +488,7 @@ mod tests {
         });
         let t = decision(180.0, vec![200.0, 190.0, 180.0, 60.0, 40.0], flip);
         assert_eq!(
-            sentence(&t, &sc, Units::Metric),
+            sentence(&t, &ScenarioNames::single(&sc), Units::Metric),
             "18 cm as modelled; 4.0 cm or less if the low tracks 40 km left; 20 cm or more if it tracks 40 km right; turns mostly to rain with the low 20 km left; 4.0–20 cm over all offsets run."
         );
         let t = decision(
@@ -446,14 +496,14 @@ mod tests {
             vec![185.0, 182.0, 180.0, 178.0, 175.0],
             FlipSearch::Never,
         );
-        let s = sentence(&t, &sc, Units::Us);
+        let s = sentence(&t, &ScenarioNames::single(&sc), Units::Us);
         assert_eq!(
             s,
             "7.1 in as modelled; no change of type, halving or doubling within the offsets run (up to 40 km (25 mi)); 6.9–7.3 in over all offsets run."
         );
         // No snow anywhere: no range to give (it once read "0–no snow").
         let t = decision(0.0, vec![0.0; 5], FlipSearch::Never);
-        let s = sentence(&t, &sc, Units::Metric);
+        let s = sentence(&t, &ScenarioNames::single(&sc), Units::Metric);
         assert!(s.ends_with("; no snow in any offset run."), "{s}");
         assert!(!s.contains('–'), "{s}");
     }

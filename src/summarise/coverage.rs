@@ -40,6 +40,7 @@
 //! side), not a looser rule.
 
 use crate::accumulate::Totals;
+use std::borrow::Borrow;
 
 /// Default minimum share of the prior's weight with data for a cell to be summarised.
 pub const DEFAULT_MIN_COVERAGE: f64 = 0.9;
@@ -105,8 +106,8 @@ pub struct CoverageCounts {
 impl PriorCoverage {
     /// Coverage of every cell from the scenarios' totals (a cell missing in a scenario is missing
     /// in all its totals, so snowfall stands for them all).
-    pub fn of(totals: &[Totals], weights: &[f64], min: f64) -> Self {
-        let n = totals.first().map_or(0, Totals::len);
+    pub fn of<T: Borrow<Totals>>(totals: &[T], weights: &[f64], min: f64) -> Self {
+        let n = totals.first().map_or(0, |t| t.borrow().len());
         let mut pairs = Vec::with_capacity(totals.len());
         let share = (0..n)
             .map(|i| {
@@ -115,7 +116,7 @@ impl PriorCoverage {
                     totals
                         .iter()
                         .zip(weights)
-                        .map(|(t, w)| (t.snowfall[i] as f64, *w)),
+                        .map(|(t, w)| (t.borrow().snowfall[i] as f64, *w)),
                 );
                 share(&pairs).unwrap_or(0.0)
             })

@@ -14,6 +14,9 @@ pub mod bust;
 pub mod coverage;
 pub mod ice;
 pub mod members;
+pub mod mixture;
+pub mod names;
+pub mod pool;
 pub mod quantiles;
 pub mod scope;
 pub mod sensitivity;
@@ -100,17 +103,24 @@ pub fn value_at(grid: &Grid, field: &[f32], lon: f64, lat: f64) -> f32 {
         .map_or(f32::NAN, |b| b.sample(field))
 }
 
-/// Totals of every scenario at every town.
+/// Totals of every scenario of a run at every town.
 pub fn towns(result: &RunResult) -> Vec<TownSummary> {
+    towns_in(&result.grid, &result.towns, &result.totals)
+}
+
+/// Totals of every scenario in `totals` (a run's, or a pool's, [`pool`]) at every town.
+pub fn towns_in<T: std::borrow::Borrow<Totals>>(
+    grid: &Grid,
+    towns: &[crate::read::Town],
+    totals: &[T],
+) -> Vec<TownSummary> {
     let at = |t: &crate::read::Town, f: &dyn Fn(&Totals) -> &[f32]| -> Vec<f32> {
-        result
-            .totals
+        totals
             .iter()
-            .map(|tot| value_at(&result.grid, f(tot), t.lon, t.lat))
+            .map(|tot| value_at(grid, f(tot.borrow()), t.lon, t.lat))
             .collect()
     };
-    result
-        .towns
+    towns
         .iter()
         .map(|t| {
             let snowfall = at(t, &|x| &x.snowfall);

@@ -19,6 +19,7 @@
 
 use crate::accumulate::Totals;
 use rayon::prelude::*;
+use std::borrow::Borrow;
 
 /// Quantiles every summary reports.
 pub const QUANTILES: [f64; 3] = [0.1, 0.5, 0.9];
@@ -107,51 +108,65 @@ pub struct DistributionLayers {
 /// every cell where they carry at least `min_coverage` of the weight ([`prepare`]).
 /// `thresholds` are in the same units as `value` (mm). Memory: the outputs plus one cell's
 /// values at a time; the totals are read in place.
-pub fn distribution(
-    totals: &[Totals],
+pub fn distribution<T: Borrow<Totals> + Sync>(
+    totals: &[T],
     weights: &[f64],
     value: impl Fn(&Totals, usize) -> f32 + Sync,
     thresholds: &[f64],
     min_coverage: f64,
 ) -> DistributionLayers {
-    let n = totals.first().map_or(0, Totals::len);
-    // Per cell: mean, the three quantiles, then one exceedance per threshold; cells in
-    // parallel blocks (each cell's values depend on that cell only, so any thread count gives
-    // the same bits), then spread into the layers.
-    let width = 4 + thresholds.len();
+    let n = totals.first().map_or(0, |t| t.borrow().len());
+    fill_layers(
+        n,
+        thresholds.len(),
+        |i, pairs: &mut Vec<(f64, f64)>, cell| {
+            pairs.clear();
+            pairs.extend(
+                totals
+                    .iter()
+                    .zip(weights)
+                    .map(|(t, w)| (value(t.borrow(), i) as f64, *w)),
+            );
+            if prepare(pairs, min_coverage).is_none() {
+                return;
+            }
+            let s = summary(pairs);
+            cell[0] = s.mean as f32;
+            for (v, q) in cell[1..4].iter_mut().zip(s.quantiles) {
+                *v = q as f32;
+            }
+            for (v, t) in cell[4..].iter_mut().zip(thresholds) {
+                *v = exceedance(pairs, *t) as f32;
+            }
+        },
+    )
+}
+
+/// The layers of `n` cells with `thresholds` exceedance layers: `cell(i, scratch, out)` writes
+/// cell i's mean, P10/P50/P90 and exceedances into `out` (left NaN where missing). Cells run
+/// in parallel blocks, each with its own `scratch`; each cell's values depend on that cell
+/// only, so any thread count gives the same bits.
+pub fn fill_layers<S: Default>(
+    n: usize,
+    thresholds: usize,
+    cell: impl Fn(usize, &mut S, &mut [f32]) + Sync,
+) -> DistributionLayers {
+    let width = 4 + thresholds;
     const BLOCK: usize = 4096;
     let mut flat = vec![f32::NAN; n * width];
     flat.par_chunks_mut(BLOCK * width)
         .enumerate()
         .for_each(|(b, chunk)| {
-            let mut pairs = Vec::with_capacity(totals.len());
-            for (j, cell) in chunk.chunks_exact_mut(width).enumerate() {
-                let i = b * BLOCK + j;
-                pairs.clear();
-                pairs.extend(
-                    totals
-                        .iter()
-                        .zip(weights)
-                        .map(|(t, w)| (value(t, i) as f64, *w)),
-                );
-                if prepare(&mut pairs, min_coverage).is_none() {
-                    continue;
-                }
-                let s = summary(&pairs);
-                cell[0] = s.mean as f32;
-                for (v, q) in cell[1..4].iter_mut().zip(s.quantiles) {
-                    *v = q as f32;
-                }
-                for (v, t) in cell[4..].iter_mut().zip(thresholds) {
-                    *v = exceedance(&pairs, *t) as f32;
-                }
+            let mut scratch = S::default();
+            for (j, out) in chunk.chunks_exact_mut(width).enumerate() {
+                cell(b * BLOCK + j, &mut scratch, out);
             }
         });
     let layer = |k: usize| -> Vec<f32> { flat.iter().skip(k).step_by(width).copied().collect() };
     DistributionLayers {
         mean: layer(0),
         quantiles: [layer(1), layer(2), layer(3)],
-        exceedance: (0..thresholds.len()).map(|t| layer(4 + t)).collect(),
+        exceedance: (0..thresholds).map(|t| layer(4 + t)).collect(),
     }
 }
 

@@ -276,9 +276,13 @@ pub struct FlipLayers {
     pub kind: Vec<f32>,
 }
 
-/// The flip at every cell.
-pub fn flip_layers(totals: &[Totals], scenarios: &[Scenario], baseline: usize) -> FlipLayers {
-    let n = totals.first().map_or(0, Totals::len);
+/// The flip at every cell of `n`: `cell(k, i)` gives offset scenario k's totals at cell i.
+pub fn flip_layers(
+    n: usize,
+    scenarios: &[Scenario],
+    baseline: usize,
+    cell: impl Fn(usize, usize) -> CellTotals,
+) -> FlipLayers {
     let order = by_distance(scenarios);
     let mut out = FlipLayers {
         distance_km: vec![f32::NAN; n],
@@ -287,8 +291,8 @@ pub fn flip_layers(totals: &[Totals], scenarios: &[Scenario], baseline: usize) -
         kind: vec![f32::NAN; n],
     };
     for i in 0..n {
-        let base = CellTotals::of(&totals[baseline], i);
-        match flip_search(scenarios, &order, &base, |k| CellTotals::of(&totals[k], i)) {
+        let base = cell(baseline, i);
+        match flip_search(scenarios, &order, &base, |k| cell(k, i)) {
             FlipSearch::Flip(f) => {
                 out.distance_km[i] = f.distance_km as f32;
                 out.cross_km[i] = f.cross_km as f32;
@@ -361,21 +365,18 @@ pub fn difference(st: &Stencil, value: impl Fn(usize) -> f32) -> f32 {
     ((b - a) / (hi.1 - lo.1) * PER_KM) as f32
 }
 
-/// Per-cell sensitivity of `value` along `axis`, per [`PER_KM`] km (all NaN without offsets on
-/// the axis).
+/// Per-cell sensitivity along `axis` of `value(k, i)` (offset scenario k, cell i of `n`), per
+/// [`PER_KM`] km (all NaN without offsets on the axis).
 pub fn sensitivity_layer(
-    totals: &[Totals],
+    n: usize,
     scenarios: &[Scenario],
     baseline: usize,
     axis: Axis,
-    value: impl Fn(&Totals, usize) -> f32,
+    value: impl Fn(usize, usize) -> f32,
 ) -> Vec<f32> {
-    let n = totals.first().map_or(0, Totals::len);
     match stencil(scenarios, baseline, axis) {
         None => vec![f32::NAN; n],
-        Some(st) => (0..n)
-            .map(|i| difference(&st, |k| value(&totals[k], i)))
-            .collect(),
+        Some(st) => (0..n).map(|i| difference(&st, |k| value(k, i))).collect(),
     }
 }
 

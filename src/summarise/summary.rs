@@ -4,20 +4,31 @@
 use super::bust::{town_decisions, TownDecision};
 use super::coverage::PriorCoverage;
 use super::ice::ice_accretion;
-use super::quantiles::{distribution, DistributionLayers};
+use super::names::ScenarioNames;
+use super::pool::Pool;
+use super::quantiles::DistributionLayers;
 use super::scope::{Needs, Scope};
 use super::sensitivity::{flip_layers, sensitivity_layer, Axis, FlipLayers};
 use super::types::{flip_cells, TypeFlip};
 use super::weights::{scenario_weights, WeightsError};
-use super::{spread, towns, Spread, TownSummary};
+use super::{spread, towns_in, Spread, TownSummary};
 use crate::accumulate::period::Period;
 use crate::case::Case;
 use crate::engine::RunResult;
 
 /// What a run's scenarios say together.
 pub struct Summary {
-    /// Normalised weight per scenario (the track-error prior).
+    /// Normalised weight per offset scenario (the track-error prior).
     pub weights: Vec<f64>,
+    /// Weight of every summarised scenario (the prior's in a single run; every group's
+    /// scenarios, `W_g × p_s`, in an ensemble, [`super::pool`]).
+    pub pooled_weights: Vec<f64>,
+    /// Names of the summarised scenarios, which `towns`, `onsets` and `ranked[..].snowfall`
+    /// index.
+    pub names: ScenarioNames,
+    /// The valid times of each group's steps (one group in a single run): the onsets are step
+    /// numbers in the times of their scenario's group.
+    pub group_times: Vec<Vec<chrono::DateTime<chrono::Utc>>>,
     /// Where the prior is known well enough to summarise.
     pub coverage: PriorCoverage,
     /// Snowfall over the scenarios with data, mm.
@@ -60,7 +71,61 @@ pub struct Decisions {
     pub flip: FlipLayers,
 }
 
+/// How the descriptions of the pooled summaries name what they are over: a run's track
+/// offsets, or every group's scenarios ([`super::pool`]).
+#[derive(Clone, Copy, Debug)]
+pub struct PoolWords {
+    /// What the weighted summaries are over.
+    pub over: &'static str,
+    /// What weighs them.
+    pub weighted_by: &'static str,
+    /// The weight that a quantile's share is of.
+    pub weight: &'static str,
+    /// The weight a cell's coverage is a share of.
+    pub weight_long: &'static str,
+    /// Where the sensitivities are taken.
+    pub at_origin: &'static str,
+    /// What the flip is of ("" for a run's own totals).
+    pub of_blend: &'static str,
+}
+
+impl PoolWords {
+    /// The words of a run of one member with one method combination.
+    pub const SINGLE: PoolWords = PoolWords {
+        over: "the track offsets",
+        weighted_by: "the track-error prior",
+        weight: "the prior's weight",
+        weight_long: "the track-error prior's weight",
+        at_origin: "at the model as issued",
+        of_blend: "",
+    };
+    /// The words of an ensemble.
+    pub const POOLED: PoolWords = PoolWords {
+        over: "every member, method combination and track offset",
+        weighted_by: "member weight × method weight × the track-error prior",
+        weight: "the blended weight",
+        weight_long: "the blended weight (member × method × track-error prior)",
+        at_origin: "at offset 0 of the blend of every member and method combination (their weighted mean at each offset)",
+        of_blend: " of the blend of every member and method combination (their weighted mean at each offset)",
+    };
+}
+
 impl Summary {
+    /// How descriptions name what the weighted summaries are over.
+    pub fn words(&self) -> PoolWords {
+        if self.names.is_pooled() {
+            PoolWords::POOLED
+        } else {
+            PoolWords::SINGLE
+        }
+    }
+
+    /// The valid times of summarised scenario `k`'s steps.
+    pub fn valid_times(&self, k: usize) -> &[chrono::DateTime<chrono::Utc>] {
+        let per_group = self.names.len() / self.group_times.len().max(1);
+        &self.group_times[k / per_group.max(1)]
+    }
+
     /// The snowfall's min/max/range when the run has scenarios to compare.
     pub fn compared(&self) -> Option<&Spread> {
         self.scope
@@ -70,13 +135,18 @@ impl Summary {
     }
 }
 
-/// Summarises an ensemble: the primary group's run as [`summarise`] does, and where the
-/// spread across every group comes from.
+/// Summarises an ensemble: every summary pools the scenarios of every group under weights
+/// `W_g × p_s` ([`super::pool`]), and [`super::members`] says where the spread comes from.
+/// The layers of the run as issued (baseline, per-scenario stack, rain–snow lines) stay the
+/// primary group's.
 pub fn summarise_ensemble(
     case: &Case,
     e: &crate::engine::Ensemble,
 ) -> Result<Summary, WeightsError> {
-    let mut s = summarise(case, &e.groups[0].run)?;
+    let primary = &e.groups[0].run;
+    let prior = scenario_weights(&case.summary.prior, &primary.scenarios)?;
+    let pool = Pool::ensemble(case, e, &prior);
+    let mut s = summarise_pool(case, primary, prior, &pool);
     s.members = Some(super::members::summarise_members(
         case, e, &s.weights, &s.ranked,
     ));
@@ -85,12 +155,19 @@ pub fn summarise_ensemble(
 
 /// Summarises a run under the case's prior, minimum coverage and thresholds.
 pub fn summarise(case: &Case, r: &RunResult) -> Result<Summary, WeightsError> {
-    let weights = scenario_weights(&case.summary.prior, &r.scenarios)?;
-    let coverage = PriorCoverage::of(&r.totals, &weights, case.summary.min_coverage);
-    let snowfall: Vec<&[f32]> = r.totals.iter().map(|t| t.snowfall.as_slice()).collect();
+    let prior = scenario_weights(&case.summary.prior, &r.scenarios)?;
+    let pool = Pool::single(r, &prior);
+    Ok(summarise_pool(case, r, prior.clone(), &pool))
+}
+
+/// Summarises the scenarios of `pool`; `r` gives the grid, the towns, the offsets and the
+/// run as issued, `prior` the prior's weight of each offset.
+fn summarise_pool(case: &Case, r: &RunResult, prior: Vec<f64>, pool: &Pool<'_>) -> Summary {
+    let coverage = PriorCoverage::of(&pool.totals, &pool.weights, case.summary.min_coverage);
+    let snowfall: Vec<&[f32]> = pool.totals.iter().map(|t| t.snowfall.as_slice()).collect();
     let snow_spread = spread(&snowfall, &coverage);
     let period = Period::of(&r.valid_times);
-    let scope = Scope::of(&r.scenarios);
+    let scope = Scope::of(pool.names.scenarios());
     let snow_mm: Vec<f64> = case
         .summary
         .snow_thresholds
@@ -103,29 +180,30 @@ pub fn summarise(case: &Case, r: &RunResult) -> Result<Summary, WeightsError> {
         .iter()
         .map(|t| case.output.units.liquid_to_mm(*t))
         .collect();
+    let n = r.grid.len();
     let decisions = scope.track().then(|| {
         let min = coverage.min;
         let sensitivity = |needs, axis| {
             scope.missing(needs).is_none().then(|| {
-                sensitivity_layer(&r.totals, &r.scenarios, r.baseline, axis, |t, i| {
-                    t.snowfall[i]
+                sensitivity_layer(n, &r.scenarios, r.baseline, axis, |k, i| {
+                    pool.at_offset(k, i).snowfall
                 })
             })
         };
         Decisions {
-            snow: distribution(&r.totals, &weights, |t, i| t.snowfall[i], &snow_mm, min),
-            ice: distribution(&r.totals, &weights, ice_accretion, &ice_mm, min),
+            snow: pool.distribution(|t, i| t.snowfall[i], &snow_mm, min),
+            ice: pool.distribution(ice_accretion, &ice_mm, min),
             sensitivity_cross: sensitivity(Needs::Cross, Axis::Cross),
             sensitivity_along: sensitivity(Needs::Along, Axis::Along),
-            flip: flip_layers(&r.totals, &r.scenarios, r.baseline),
+            flip: flip_layers(n, &r.scenarios, r.baseline, |k, i| pool.at_offset(k, i)),
         }
     });
-    let ranked = town_decisions(r, &weights, coverage.min, &snow_mm, &ice_mm);
+    let ranked = town_decisions(r, pool, coverage.min, &snow_mm, &ice_mm);
     let onsets = r
         .towns
         .iter()
         .map(|t| {
-            r.totals
+            pool.totals
                 .iter()
                 .map(|tot| crate::accumulate::onset_at(tot, &r.grid, t.lon, t.lat))
                 .collect()
@@ -134,12 +212,15 @@ pub fn summarise(case: &Case, r: &RunResult) -> Result<Summary, WeightsError> {
     let type_flips = scope
         .missing(Needs::Comparison)
         .is_none()
-        .then(|| flip_cells(r));
-    Ok(Summary {
-        towns: towns(r),
+        .then(|| flip_cells(n, &pool.totals, r.baseline));
+    Summary {
+        towns: towns_in(&r.grid, &r.towns, &pool.totals),
         type_flips,
         onsets,
-        weights,
+        weights: prior,
+        pooled_weights: pool.weights.clone(),
+        names: pool.names.clone(),
+        group_times: pool.groups.iter().map(|g| g.valid_times.to_vec()).collect(),
         coverage,
         snow_spread,
         scope,
@@ -148,5 +229,5 @@ pub fn summarise(case: &Case, r: &RunResult) -> Result<Summary, WeightsError> {
         decisions,
         ranked,
         members: None,
-    })
+    }
 }

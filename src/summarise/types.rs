@@ -4,8 +4,8 @@
 //! In a scenario where less than measurable liquid fell at a cell, that cell has no type in
 //! that scenario; a cell missing in any scenario has no pattern.
 
+use crate::accumulate::Totals;
 use crate::accumulate::MEASURABLE_LIQUID;
-use crate::engine::RunResult;
 use rayon::prelude::*;
 
 /// Precipitation types in the order ties are broken (the first largest wins).
@@ -13,7 +13,7 @@ pub const TYPES: [&str; 4] = ["snow", "ice_pellets", "freezing_rain", "rain"];
 
 /// Dominant type of one cell of one scenario: `Some(index into TYPES)`, `None` when less than
 /// measurable fell; `Err(())` when the cell is missing.
-fn dominant(t: &crate::accumulate::Totals, i: usize) -> Result<Option<usize>, ()> {
+fn dominant(t: &Totals, i: usize) -> Result<Option<usize>, ()> {
     let liquid = t.liquid[i];
     if liquid.is_nan() {
         return Err(());
@@ -39,14 +39,14 @@ pub type Pattern = (usize, u8);
 /// A cell's flip pattern and the number of scenarios in which each type dominates.
 pub type TypeFlip = (Pattern, [u16; 4]);
 
-/// The flip pattern of every cell (`None` where fewer than two types occur or a scenario is
-/// missing).
-pub fn flip_cells(r: &RunResult) -> Vec<Option<TypeFlip>> {
-    (0..r.grid.len())
+/// The flip pattern of every cell of `n` over the scenarios `totals` (`None` where fewer than
+/// two types occur or a scenario is missing); `baseline` indexes the model as issued.
+pub fn flip_cells(n: usize, totals: &[&Totals], baseline: usize) -> Vec<Option<TypeFlip>> {
+    (0..n)
         .into_par_iter()
         .map(|i| {
             let mut counts = [0u16; 4];
-            for t in &r.totals {
+            for t in totals {
                 match dominant(t, i) {
                     Err(()) => return None,
                     Ok(Some(k)) => counts[k] += 1,
@@ -57,10 +57,7 @@ pub fn flip_cells(r: &RunResult) -> Vec<Option<TypeFlip>> {
             if set.count_ones() < 2 {
                 return None;
             }
-            let base = dominant(&r.totals[r.baseline], i)
-                .ok()
-                .flatten()
-                .unwrap_or(4);
+            let base = dominant(totals[baseline], i).ok().flatten().unwrap_or(4);
             Some(((base, set), counts))
         })
         .collect()

@@ -7,9 +7,9 @@
 use super::towns::spreadsheet_safe;
 use super::{Kind, WriteError, Written};
 use crate::render::legend::threshold_text;
-use crate::scenario::Scenario;
 use crate::summarise::bust::{sentence, TownDecision};
 use crate::summarise::members::{source_words, trend_mm, trend_words, MemberSummary, TownSpread};
+use crate::summarise::names::ScenarioNames;
 use crate::summarise::sensitivity::{FlipKind, FlipSearch};
 use crate::units::Units;
 use geojson::JsonObject;
@@ -62,7 +62,7 @@ pub fn flip_words(f: &FlipSearch) -> &'static str {
 fn row(
     rank: usize,
     t: &TownDecision,
-    scenarios: &[Scenario],
+    names: &ScenarioNames,
     units: Units,
     thresholds: &[f64],
     ice_thresholds: &[f64],
@@ -123,7 +123,9 @@ fn row(
         ),
         (
             "flip_direction".into(),
-            Cell::Text(flip.map_or(String::new(), |f| scenarios[f.scenario].in_words_in(units))),
+            Cell::Text(flip.map_or(String::new(), |f| {
+                names.scenario(f.scenario).in_words_in(units)
+            })),
         ),
         ("flip_what".into(), Cell::Text(flip_words(&t.flip).into())),
         (
@@ -177,7 +179,7 @@ fn row(
             Cell::Num(*p, 2),
         ));
     }
-    let mut words = sentence(t, scenarios, units);
+    let mut words = sentence(t, names, units);
     if let Some((ts, m)) = spread {
         // Where the spread comes from, over every member, method and offset.
         let p = ts.parts;
@@ -222,7 +224,7 @@ pub const FILES: [&str; 2] = ["towns_bust.csv", "towns_bust.geojson"];
 pub fn write_towns_bust(
     dir: &Path,
     ranked: &[TownDecision],
-    scenarios: &[Scenario],
+    names: &ScenarioNames,
     units: Units,
     snow_thresholds: &[f64],
     ice_thresholds: &[f64],
@@ -240,8 +242,8 @@ pub fn write_towns_bust(
     });
     let header_only = row(
         0,
-        &placeholder(scenarios.len(), snow_thresholds.len(), ice_thresholds.len()),
-        scenarios,
+        &placeholder(names.len(), snow_thresholds.len(), ice_thresholds.len()),
+        names,
         units,
         snow_thresholds,
         ice_thresholds,
@@ -254,7 +256,7 @@ pub fn write_towns_bust(
         let cells = row(
             i + 1,
             t,
-            scenarios,
+            names,
             units,
             snow_thresholds,
             ice_thresholds,

@@ -11,7 +11,7 @@ use crate::render::legend;
 use crate::summarise::quantiles::DistributionLayers;
 use crate::summarise::scope::{Needs, NotComputed};
 use crate::summarise::sensitivity::PER_KM;
-use crate::summarise::summary::Summary;
+use crate::summarise::summary::{PoolWords, Summary};
 use crate::units::Units;
 use std::path::Path;
 
@@ -25,6 +25,8 @@ pub struct DecisionSettings<'a> {
     pub ice_thresholds: &'a [f64],
     /// Dataset metadata for every GeoTIFF.
     pub meta: &'a [(String, String)],
+    /// How the descriptions name what the summaries are over.
+    pub words: PoolWords,
 }
 
 /// One band of a decision raster: its description, values and band metadata.
@@ -97,6 +99,7 @@ fn write_family(
     r: &RunResult,
     meta: &[(String, String)],
     period: &str,
+    words: PoolWords,
     stem: &str,
     what: &str,
     unit: &str,
@@ -112,8 +115,15 @@ fn write_family(
         meta,
         &format!("{stem}_mean.tif"),
         unit,
-        &format!("{what}: mean over the track offsets, weighted by the track-error prior; totals over {period}"),
-        vec![one(format!("{what}, weighted mean, totals over {period}"), conv(&d.mean), unit)],
+        &format!(
+            "{what}: mean over {}, weighted by {}; totals over {period}",
+            words.over, words.weighted_by
+        ),
+        vec![one(
+            format!("{what}, weighted mean, totals over {period}"),
+            conv(&d.mean),
+            unit,
+        )],
     )?);
     for (q, layer) in ["p10", "p50", "p90"].iter().zip(&d.quantiles) {
         let pct = &q[1..];
@@ -123,7 +133,7 @@ fn write_family(
             meta,
             &format!("{stem}_{q}.tif"),
             unit,
-            &format!("{what}: weighted {pct}th percentile over the track offsets ({pct} % of the prior's weight lies at or below it); totals over {period}"),
+            &format!("{what}: weighted {pct}th percentile over {} ({pct} % of {} lies at or below it); totals over {period}", words.over, words.weight),
             vec![one(format!("{what}, P{pct}, totals over {period}"), conv(layer), unit)],
         )?);
     }
@@ -147,7 +157,8 @@ fn write_family(
         &format!("{stem}_exceedance.tif"),
         "1",
         &format!(
-            "Probability (0–1, weighted by the track-error prior) of each threshold or more of {what} ({} {unit}); one band per threshold; totals over {period}",
+            "Probability (0–1, weighted by {}) of each threshold or more of {what} ({} {unit}); one band per threshold; totals over {period}",
+            words.weighted_by,
             thresholds.iter().map(|t| legend::threshold_text(*t)).collect::<Vec<_>>().join(", ")
         ),
         bands,
@@ -198,7 +209,7 @@ pub fn write_decision_rasters(
     };
 
     let share: Vec<f32> = sum.coverage.share.iter().map(|v| *v as f32).collect();
-    let what = format!("Share (0–1) of the track-error prior's weight carried by the scenarios with a total at each cell (the others took values from beyond the grid edge); the weighted summaries and min/max/range are computed over those scenarios, weights renormalised, where it is at least {min}, and are nodata below");
+    let what = format!("Share (0–1) of {} carried by the scenarios with a total at each cell (the others took values from beyond the grid edge); the weighted summaries and min/max/range are computed over those scenarios, weights renormalised, where it is at least {min}, and are nodata below", s.words.weight_long);
     let mut band = one("share of the prior's weight with data".into(), share, "1");
     band.metadata.push(("min_coverage".into(), min.to_string()));
     out.push(write_bands(
@@ -217,6 +228,7 @@ pub fn write_decision_rasters(
         r,
         s.meta,
         period,
+        s.words,
         "snowfall",
         "snowfall",
         su,
@@ -230,6 +242,7 @@ pub fn write_decision_rasters(
         r,
         s.meta,
         period,
+        s.words,
         "ice_accretion",
         "ice accretion",
         lu,
@@ -268,7 +281,7 @@ pub fn write_decision_rasters(
             s.meta,
             file,
             &per,
-            &format!("Change of snowfall per {PER_KM} km of track shift at the model as issued, {words}; totals over {period}"),
+            &format!("Change of snowfall per {PER_KM} km of track shift {}, {words}; totals over {period}", s.words.at_origin),
             vec![one(format!("snowfall change per {PER_KM} km, {words}"), data, &per)],
         )?);
     }
@@ -290,7 +303,7 @@ pub fn write_decision_rasters(
         s.meta,
         "flip_distance.tif",
         "km",
-        &format!("Smallest track shift (√(cross² + along²), km) at which the dominant precipitation type changes or the snowfall halves or doubles (each floored at 1 cm); band 2/3 give that shift's cross/along offset, band 4 what flips; nodata where nothing flips within the offsets run; totals over {period}"),
+        &format!("Smallest track shift (√(cross² + along²), km) at which the dominant precipitation type{} changes or the snowfall halves or doubles (each floored at 1 cm); band 2/3 give that shift's cross/along offset, band 4 what flips; nodata where nothing flips within the offsets run; totals over {period}", s.words.of_blend),
         vec![
             km("flip distance, km", &flip.distance_km),
             km("cross-track offset of the flip, km (positive left)", &flip.cross_km),

@@ -343,7 +343,7 @@ pub fn write_manifest(
                     "snow_ratio": o.methods.slr.name(),
                     "weight": o.weight,
                 })).collect::<Vec<_>>(),
-                "primary": "the layers that describe one run (baseline, scenarios, percentiles, sensitivity, flips, towns) describe the first member with the first method combination; snowfall_spread*.tif, snowfall_member_*.tif, snowfall_by_member_scenario.tif and the towns_bust.csv columns sd_total_*, share_*, baseline_*_<member> cover every member and combination",
+                "primary": "the layers of the run as issued and of each offset (snowfall_baseline and the other baseline layers, snowfall_by_scenario.tif, rain_snow_lines.geojson, transition_zones.geojson, snowfall_bands_baseline.geojson, the maps' lines) are the first member's with the first method combination; the weighted summaries (prior_coverage, mean, P10/P50/P90, exceedance, min/max/range, flip_zone, towns.csv, towns_bust.csv) pool every member, method combination and offset, each weighing member × method × track-error prior; the sensitivity and flip-distance layers and towns_bust.csv's flip and change columns are of the blend (the weighted mean over members and methods at each offset); snowfall_spread*.tif, snowfall_member_*.tif and snowfall_by_member_scenario.tif say where the spread comes from",
                 "spread": "law of total variance: total = between members + between methods within a member + within (track offsets and other axes), weighted by member × method × track-error prior",
             })
         }),

@@ -705,7 +705,7 @@ pub fn write_maps(
         centres,
         towns: ranked_towns,
         subtitle: match ctx.groups {
-            // A several-member case: the single-run maps show the first member and methods.
+            // A several-member case: the subtitle counts every group's scenarios.
             Some((members, methods)) => format!(
                 "{} · {members} members × {methods} method combinations × {} track offsets",
                 ctx.title,
@@ -726,7 +726,7 @@ pub fn write_maps(
     let mut overlay = overlay;
     if ctx.groups.is_some() {
         overlay.notes.push(
-            "Fields other than the source of the spread are the first member's, with the first methods."
+            "The baseline and the rain–snow lines are the first member's, with the first methods; P90 and range pool every member, method and offset; flip distance is of their blend."
                 .into(),
         );
     }

@@ -199,6 +199,7 @@ fn write_decision_products(
         snow_thresholds: &case.summary.snow_thresholds,
         ice_thresholds: &case.summary.ice_thresholds,
         meta: &meta,
+        words: sum.words(),
     };
     let (mut files, not) = decisions::write_decision_rasters(dir, r, sum, &settings)?;
     skipped.extend(not);
@@ -214,7 +215,7 @@ fn write_decision_products(
         files.extend(bust::write_towns_bust(
             dir,
             &sum.ranked,
-            &r.scenarios,
+            &sum.names,
             case.output.units,
             &case.summary.snow_thresholds,
             &case.summary.ice_thresholds,
@@ -392,15 +393,16 @@ fn write_set(
             &case.output.snowfall_bands,
         )?);
     }
+    let group_times = |k: usize| sum.valid_times(k);
     files.extend(towns::write_towns(
         dir,
         &sum.towns,
-        &r.scenarios,
+        &sum.names,
         r.baseline,
         case.output.units,
         &towns::Onsets {
             steps: &sum.onsets,
-            valid_times: &r.valid_times,
+            valid_times: &group_times,
         },
     )?);
     files.extend(write_decision_products(

@@ -1,7 +1,7 @@
 //! The towns table (CSV) and points (GeoJSON) with every scenario's snowfall.
 
 use super::{write_text_atomic, Kind, WriteError, Written};
-use crate::scenario::Scenario;
+use crate::summarise::names::ScenarioNames;
 use crate::summarise::TownSummary;
 use crate::units::Units;
 use geojson::{Feature, FeatureCollection, Geometry, JsonObject};
@@ -25,23 +25,24 @@ fn num(v: f32, decimals: usize) -> String {
     }
 }
 
-/// Column name of one scenario's snowfall, e.g. `snow_cm_c+20_a-50` (other axes appended when
-/// not neutral, see [`Scenario::tag`]).
-fn scenario_column(s: &Scenario, unit: &str) -> String {
-    format!("snow_{unit}_{}", s.tag())
+/// Column name of scenario k's snowfall, e.g. `snow_cm_c+20_a-50` (other axes appended when
+/// not neutral, see [`crate::scenario::Scenario::tag`]; prefixed by the member or methods in
+/// an ensemble, [`ScenarioNames::tag`]).
+fn scenario_column(names: &ScenarioNames, k: usize, unit: &str) -> String {
+    format!("snow_{unit}_{}", names.tag(k))
 }
 
-/// Column name of one scenario's onset step, e.g. `onset_step_c+20_a-50`.
-fn onset_column(s: &Scenario) -> String {
-    format!("onset_step_{}", s.tag())
+/// Column name of scenario k's onset step, e.g. `onset_step_c+20_a-50`.
+fn onset_column(names: &ScenarioNames, k: usize) -> String {
+    format!("onset_step_{}", names.tag(k))
 }
 
 /// When snow begins at each town.
 pub struct Onsets<'a> {
     /// Per town (in the towns' order), per scenario: the 1-based step of first measurable snow.
     pub steps: &'a [Vec<Option<u32>>],
-    /// Valid time of every step.
-    pub valid_times: &'a [chrono::DateTime<chrono::Utc>],
+    /// The valid time of every step of scenario k (its group's steps, in an ensemble).
+    pub valid_times: &'a dyn Fn(usize) -> &'a [chrono::DateTime<chrono::Utc>],
 }
 
 /// How a town's values come from the grid, in the words of the towns outputs' descriptions
@@ -52,16 +53,17 @@ pub const POINT_RULE: &str = "A town's totals are bilinear from the four grid ce
 pub fn write_towns(
     dir: &Path,
     towns: &[TownSummary],
-    scenarios: &[Scenario],
+    names: &ScenarioNames,
     baseline: usize,
     units: Units,
     onsets: &Onsets<'_>,
 ) -> Result<Vec<Written>, WriteError> {
     let u = units.snow_unit();
-    let time_of = |k: Option<u32>| {
-        k.map(|k| {
-            onsets.valid_times[k as usize - 1].to_rfc3339_opts(chrono::SecondsFormat::Secs, true)
-        })
+    // Scenario s's onset step k as its valid time.
+    let time_of = |s: usize, k: u32| (onsets.valid_times)(s)[k as usize - 1];
+    let text_of = |t: Option<chrono::DateTime<chrono::Utc>>| {
+        t.map(|t| t.to_rfc3339_opts(chrono::SecondsFormat::Secs, true))
+            .unwrap_or_default()
     };
     let mut header = vec![
         "name".to_string(),
@@ -75,7 +77,7 @@ pub fn write_towns(
         "max_offset".into(),
         "baseline_snow_fraction".into(),
     ];
-    header.extend(scenarios.iter().map(|s| scenario_column(s, u)));
+    header.extend((0..names.len()).map(|k| scenario_column(names, k, u)));
     header.extend(
         [
             "baseline_onset_utc",
@@ -84,7 +86,7 @@ pub fn write_towns(
         ]
         .map(String::from),
     );
-    header.extend(scenarios.iter().map(onset_column));
+    header.extend((0..names.len()).map(|k| onset_column(names, k)));
     let mut w = csv::Writer::from_writer(Vec::new());
     let csv_err = |e: csv::Error| WriteError::Io {
         path: dir.join("towns.csv"),
@@ -95,9 +97,12 @@ pub fn write_towns(
     for (ti, t) in towns.iter().enumerate() {
         let missing = t.min.is_nan();
         let steps = &onsets.steps[ti];
-        let earliest = steps.iter().flatten().min().copied();
-        let latest = steps.iter().flatten().max().copied();
-        let text = |v: Option<String>| v.unwrap_or_default();
+        let times = steps
+            .iter()
+            .enumerate()
+            .filter_map(|(s, k)| k.map(|k| time_of(s, k)));
+        let earliest = times.clone().min();
+        let latest = times.max();
         let mut row = vec![
             spreadsheet_safe(&t.name),
             format!("{:.5}", t.lat),
@@ -109,20 +114,20 @@ pub fn write_towns(
             if missing {
                 String::new()
             } else {
-                scenarios[t.argmin].in_words_in(units)
+                names.words(t.argmin, units)
             },
             if missing {
                 String::new()
             } else {
-                scenarios[t.argmax].in_words_in(units)
+                names.words(t.argmax, units)
             },
             num(t.snow_fraction[baseline], 2),
         ];
         row.extend(t.snowfall.iter().map(|v| num(units.snow(*v), 1)));
         row.extend([
-            text(time_of(steps[baseline])),
-            text(time_of(earliest)),
-            text(time_of(latest)),
+            text_of(steps[baseline].map(|k| time_of(baseline, k))),
+            text_of(earliest),
+            text_of(latest),
         ]);
         row.extend(
             steps
@@ -145,19 +150,27 @@ pub fn write_towns(
         put(format!("min_{u}"), units.snow(t.min));
         put(format!("max_{u}"), units.snow(t.max));
         put(format!("range_{u}"), units.snow(t.range()));
-        for (s, v) in scenarios.iter().zip(&t.snowfall) {
-            put(scenario_column(s, u), units.snow(*v));
+        for (k, v) in t.snowfall.iter().enumerate() {
+            put(scenario_column(names, k, u), units.snow(*v));
         }
+        let json_time = |t: Option<chrono::DateTime<chrono::Utc>>| {
+            t.map_or(serde_json::Value::Null, |t| {
+                t.to_rfc3339_opts(chrono::SecondsFormat::Secs, true).into()
+            })
+        };
         for (name, v) in [
-            ("baseline_onset_utc", time_of(steps[baseline])),
-            ("earliest_onset_utc", time_of(earliest)),
-            ("latest_onset_utc", time_of(latest)),
+            (
+                "baseline_onset_utc",
+                steps[baseline].map(|k| time_of(baseline, k)),
+            ),
+            ("earliest_onset_utc", earliest),
+            ("latest_onset_utc", latest),
         ] {
-            p.insert(name.into(), v.map_or(serde_json::Value::Null, Into::into));
+            p.insert(name.into(), json_time(v));
         }
-        for (s, k) in scenarios.iter().zip(steps) {
+        for (s, k) in steps.iter().enumerate() {
             p.insert(
-                onset_column(s),
+                onset_column(names, s),
                 k.map_or(serde_json::Value::Null, Into::into),
             );
         }
@@ -231,6 +244,7 @@ pub(super) fn write_table_and_points(
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::scenario::Scenario;
 
     #[test]
     fn formulas_are_neutralised() {
@@ -242,9 +256,10 @@ mod tests {
     #[test]
     fn scenario_columns_carry_both_offsets() {
         let s = Scenario::offset(20.0, -50.0);
-        assert_eq!(scenario_column(&s, "cm"), "snow_cm_c+20_a-50");
-        assert_eq!(onset_column(&s), "onset_step_c+20_a-50");
         let t = Scenario { timing_h: 3.0, ..s };
-        assert_eq!(scenario_column(&t, "in"), "snow_in_c+20_a-50_t+3");
+        let names = ScenarioNames::single(&[s, t]);
+        assert_eq!(scenario_column(&names, 0, "cm"), "snow_cm_c+20_a-50");
+        assert_eq!(onset_column(&names, 0), "onset_step_c+20_a-50");
+        assert_eq!(scenario_column(&names, 1, "in"), "snow_in_c+20_a-50_t+3");
     }
 }

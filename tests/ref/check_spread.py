@@ -1,5 +1,6 @@
 #!/usr/bin/env python3
-"""Checks the spread layers of a several-member run against an independent computation.
+"""Checks the spread layers and the blended summaries of a several-member run against an
+independent computation.
 
 Reads the per-scenario stack `snowfall_by_member_scenario.tif` through GDAL (band values, and the
 band metadata `member`, `precip_type`, `snow_ratio`, `weight`), computes with numpy the weighted
@@ -8,6 +9,12 @@ methods within a member, within), and compares them with `snowfall_spread.tif` a
 `snowfall_spread_share.tif` as GDAL reads them. Cells follow the coverage rule of the manifest
 (`min_coverage`): summarised over the bands with a value, weights renormalised, where they carry
 at least that share of the weight.
+
+The blended summaries (snowfall_mean/min/max/exceedance/p10/p50/p90.tif) pool every band: the
+mean and the probabilities are weighted over the bands with a value, min and max over them; a
+percentile P_q of the blend must satisfy F(P_q - e) <= q <= F(P_q + e), F the mixture of the
+groups' cumulative distributions (each group's mid-step positions, linear between its values,
+evaluated with numpy.interp), weighted by each group's share of the weight with a value.
 
     /usr/bin/python3 tests/ref/check_spread.py OUT_DIR
 """
@@ -106,4 +113,73 @@ for k, (name, part) in enumerate([("members", between_members), ("methods", betw
     err = np.abs(got_share[k][spread_cells] - want).max()
     print(f"{'ok' if err <= 1e-3 else 'FAIL'} share {name}: largest difference {err:.2e}")
     failures += err > 1e-3
+
+
+def layer(name, band=1):
+    ds = gdal.Open(os.path.join(out, name))  # kept open while its band is read
+    v = ds.GetRasterBand(band)
+    a = v.ReadAsArray().astype(np.float64)
+    return np.where(a == v.GetNoDataValue(), np.nan, a)
+
+
+def close(name, want, got_, tol):
+    global failures
+    miss = np.isnan(got_)
+    if (miss != ~ok).any():
+        print(f"FAIL {name}: nodata at {int((miss != ~ok).sum())} cells where the coverage rule says otherwise")
+        failures += 1
+        return
+    err = np.abs(got_[ok] - want[ok]).max()
+    status = "ok" if err <= tol else "FAIL"
+    failures += status == "FAIL"
+    print(f"{status} blended {name}: largest difference {err:.2e} (tolerance {tol:g})")
+
+
+close("mean", mean, layer("snowfall_mean.tif"), tol)
+close("min", np.where(ok, np.nanmin(np.where(have, x, np.inf), axis=0), np.nan), layer("snowfall_min.tif"), tol)
+close("max", np.where(ok, np.nanmax(np.where(have, x, -np.inf), axis=0), np.nan), layer("snowfall_max.tif"), tol)
+ex = gdal.Open(os.path.join(out, "snowfall_exceedance.tif"))
+for b in range(1, ex.RasterCount + 1):
+    t = float(ex.GetRasterBand(b).GetMetadata()["threshold"])
+    # The layer compares mm with the threshold in mm; the stack holds cm rounded to float32,
+    # so a band within 1e-4 cm of the threshold may count either way.
+    xs = np.where(have, x, -np.inf)
+    lo = (w * (xs >= t + 1e-4)).sum(axis=0) / W
+    hi = (w * (xs >= t - 1e-4)).sum(axis=0) / W
+    g = layer("snowfall_exceedance.tif", b)
+    close(f"P(snowfall >= {t:g}) above its lower bound", np.minimum(g, lo), np.where(ok, lo, np.nan), 1e-5)
+    close(f"P(snowfall >= {t:g}) below its upper bound", np.maximum(g, hi), np.where(ok, hi, np.nan), 1e-5)
+
+groups = {}
+for i, key in enumerate(methods):
+    groups.setdefault(key, []).append(i)
+quantile_layers = {q: layer(f"snowfall_p{int(q * 100)}.tif") for q in (0.1, 0.5, 0.9)}
+rows, cols = np.nonzero(ok)
+bad = 0
+eps = 1e-3
+for r, c in zip(rows, cols):
+    parts = []
+    for idx in groups.values():
+        v = x[idx, r, c]
+        wt = w[idx, r, c]
+        keep = ~np.isnan(v) & (wt > 0)
+        if not keep.any():
+            continue
+        order = np.argsort(v[keep], kind="stable")
+        vs, ws = v[keep][order], wt[keep][order]
+        pos = (np.cumsum(ws) - ws / 2) / ws.sum()
+        parts.append((ws.sum(), vs, pos))
+    total_w = sum(p[0] for p in parts)
+
+    def cdf(z):
+        return sum(wg / total_w * np.interp(z, vs, pos, left=0.0, right=1.0) for wg, vs, pos in parts)
+
+    for q, lay in quantile_layers.items():
+        p = lay[r, c]
+        if not (cdf(p - eps) <= q + 1e-9 and cdf(p + eps) >= q - 1e-9):
+            bad += 1
+            if bad <= 5:
+                print(f"  cell ({r}, {c}): P{int(q * 100)} = {p}, F(P - e) = {cdf(p - eps)}, F(P + e) = {cdf(p + eps)}")
+print(f"{'ok' if bad == 0 else 'FAIL'} blended P10/P50/P90: {len(rows)} cells, {bad} outside the mixture's quantile")
+failures += bad > 0
 sys.exit(1 if failures else 0)

@@ -53,15 +53,25 @@ fn two_identical_members_have_no_spread_between_them_and_the_single_members_laye
     let (one, two) = (d.path().join("one"), d.path().join("two"));
     run(&case(d.path(), &["a"], "max-column-temperature"), &one);
     run(&case(d.path(), &["a", "b"], "max-column-temperature"), &two);
-    // The primary member's layers are the single member's, byte for byte.
+    // The primary member's layers are the single member's, byte for byte; so are the
+    // summaries that pool both members (a mixture of one distribution with itself is that
+    // distribution) and those of their blend at each offset (½a + ½a = a exactly).
     for f in [
         "snowfall_by_scenario.tif",
         "snowfall_baseline.tif",
+        "rain_snow_lines.geojson",
+        "prior_coverage.tif",
+        "snowfall_mean.tif",
+        "snowfall_p10.tif",
+        "snowfall_p50.tif",
         "snowfall_p90.tif",
         "snowfall_exceedance.tif",
+        "snowfall_min.tif",
+        "snowfall_max.tif",
+        "snowfall_range.tif",
+        "ice_accretion_p90.tif",
+        "snowfall_sensitivity_cross.tif",
         "flip_distance.tif",
-        "towns.csv",
-        "rain_snow_lines.geojson",
     ] {
         assert_eq!(
             std::fs::read(one.join(f)).unwrap(),
@@ -89,6 +99,55 @@ fn two_identical_members_have_no_spread_between_them_and_the_single_members_laye
     assert_eq!(base.bands[0], base.bands[1]);
     let single = read_geotiff(&one.join("snowfall_baseline.tif")).unwrap();
     assert_eq!(base.bands[0], single.bands[0]);
+    // towns.csv holds every pooled scenario: member a's and b's columns are the single run's.
+    let table = |p: &Path| {
+        let mut r = csv::Reader::from_path(p).unwrap();
+        let h: Vec<String> = r.headers().unwrap().iter().map(String::from).collect();
+        let rows: Vec<Vec<String>> = r
+            .records()
+            .map(|x| x.unwrap().iter().map(String::from).collect())
+            .collect();
+        (h, rows)
+    };
+    let (h1, r1) = table(&one.join("towns.csv"));
+    let (h2, r2) = table(&two.join("towns.csv"));
+    let mut compared = 0;
+    for (i, name) in h1.iter().enumerate() {
+        let Some(tag) = name.strip_prefix("snow_cm_") else {
+            continue;
+        };
+        for m in ["a", "b"] {
+            let j = h2
+                .iter()
+                .position(|c| *c == format!("snow_cm_{m}_{tag}"))
+                .unwrap_or_else(|| panic!("no column for member {m}, {tag}"));
+            for (x, y) in r1.iter().zip(&r2) {
+                assert_eq!(x[i], y[j], "{name} of member {m}");
+                compared += 1;
+            }
+        }
+    }
+    assert!(compared >= 2 * 5 * 10, "{compared} values compared");
+    // The bust table's pooled numbers are the single run's.
+    let (b1, q1) = table(&one.join("towns_bust.csv"));
+    let (b2, q2) = table(&two.join("towns_bust.csv"));
+    for c in [
+        "name",
+        "p10_cm",
+        "p50_cm",
+        "p90_cm",
+        "mean_cm",
+        "flip_km",
+        "bust_score",
+    ] {
+        let (i, j) = (
+            b1.iter().position(|x| x == c).unwrap(),
+            b2.iter().position(|x| x == c).unwrap(),
+        );
+        for (x, y) in q1.iter().zip(&q2) {
+            assert_eq!(x[i], y[j], "{c}");
+        }
+    }
     // The towns table says so too.
     let mut r = csv::Reader::from_path(two.join("towns_bust.csv")).unwrap();
     let h = r.headers().unwrap().clone();

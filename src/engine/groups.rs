@@ -71,8 +71,7 @@ pub fn run_groups(
             advice: "list fewer members, methods or offsets".into(),
         });
     }
-    let member_sum: f64 = members.iter().map(|m| m.weight).sum();
-    let mut out: Vec<GroupRun> = Vec::with_capacity(groups);
+    let mut runs = Vec::with_capacity(groups);
     for (mi, m) in members.iter().enumerate() {
         for (oi, o) in options.iter().enumerate() {
             let label = format!("member '{}', methods {}", m.name, o.label());
@@ -80,12 +79,9 @@ pub fn run_groups(
                 inner: progress,
                 label: &label,
             };
-            let mut r = run(&case.group(mi, oi), threads, &named)?;
-            if let Some(first) = out.first() {
-                check_same_grid(&first.run, &r, case, mi)?;
-                if r.valid_times != first.run.valid_times {
-                    r.warnings.push(period_warning(&first.run, &r, &m.name));
-                }
+            let r = run(&case.group(mi, oi), threads, &named)?;
+            if let Some((_, _, first)) = runs.first() {
+                check_same_grid(first, &r, case, mi)?;
                 let n = r.grid.len();
                 if let Err((need, avail)) = fits_in_memory(n, total) {
                     return Err(EngineError::TooBig {
@@ -96,16 +92,40 @@ pub fn run_groups(
                     });
                 }
             }
-            out.push(GroupRun {
-                member: mi,
-                option: oi,
-                weight: m.weight / member_sum * o.weight,
-                run: r,
-            });
+            runs.push((mi, oi, r));
         }
     }
-    // Every warning in one list, the primary's first, then those of the other groups that say
-    // something new, named by their group (a warning every member gives is said once).
+    ensemble_of(case, runs)
+}
+
+/// The ensemble of every group's run (member outer, method combination inner, as `(member,
+/// combination, run)`), computed here or merged from shards: checks that the members share
+/// the primary's grid, weighs the groups, says which members cover another period, and puts
+/// every warning in the primary run's list, the primary's first, then those of the other groups
+/// that say something new, named by their group (a warning every member gives is said once).
+pub fn ensemble_of(
+    case: &Case,
+    runs: Vec<(usize, usize, RunResult)>,
+) -> Result<Ensemble, EngineError> {
+    let members = &case.inputs.members;
+    let options = &case.physics.options;
+    let member_sum: f64 = members.iter().map(|m| m.weight).sum();
+    let mut out: Vec<GroupRun> = Vec::with_capacity(runs.len());
+    for (mi, oi, mut r) in runs {
+        if let Some(first) = out.first() {
+            check_same_grid(&first.run, &r, case, mi)?;
+            if r.valid_times != first.run.valid_times {
+                r.warnings
+                    .push(period_warning(&first.run, &r, &members[mi].name));
+            }
+        }
+        out.push(GroupRun {
+            member: mi,
+            option: oi,
+            weight: members[mi].weight / member_sum * options[oi].weight,
+            run: r,
+        });
+    }
     let mut seen: Vec<String> = out[0].run.warnings.clone();
     let mut later = Vec::new();
     for g in out.iter().skip(1) {

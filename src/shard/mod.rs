@@ -36,6 +36,7 @@ use sha2::{Digest, Sha256};
 use std::io::{BufReader, BufWriter, Read, Seek, SeekFrom, Write};
 use std::path::{Path, PathBuf};
 
+pub mod ensemble;
 pub mod select;
 pub use select::Shard;
 
@@ -221,6 +222,18 @@ pub fn run_and_write(
     shard: Shard,
     folder: &Path,
 ) -> Result<(RunResult, PathBuf), ShardError> {
+    run_and_write_as(case, threads, progress, shard, folder, &file_name(shard))
+}
+
+/// [`run_and_write`] into the file `name` of `folder`.
+pub fn run_and_write_as(
+    case: &Case,
+    threads: usize,
+    progress: &dyn Progress,
+    shard: Shard,
+    folder: &Path,
+    name: &str,
+) -> Result<(RunResult, PathBuf), ShardError> {
     let prepared = engine::prepare(case, progress)?;
     let count = prepared.scenarios.len();
     if shard.index >= count {
@@ -232,7 +245,7 @@ pub fn run_and_write(
     }
     let key = run_key(case, &prepared)?;
     let r = engine::run_prepared(case, prepared, threads, progress, Some(shard))?;
-    let path = write_shard(folder, shard, key, &r)?;
+    let path = write_shard_as(folder, name, shard, key, &r)?;
     Ok((r, path))
 }
 
@@ -260,23 +273,30 @@ pub fn write_shard(
     key: serde_json::Value,
     r: &RunResult,
 ) -> Result<PathBuf, ShardError> {
+    write_shard_as(folder, &file_name(shard), shard, key, r)
+}
+
+/// [`write_shard`] into the file `name` of `folder`.
+pub fn write_shard_as(
+    folder: &Path,
+    name: &str,
+    shard: Shard,
+    key: serde_json::Value,
+    r: &RunResult,
+) -> Result<PathBuf, ShardError> {
     let io = |path: &Path| {
         let path = path.to_path_buf();
         move |source| ShardError::Io { path, source }
     };
     std::fs::create_dir_all(folder).map_err(io(folder))?;
-    let path = folder.join(file_name(shard));
+    let path = folder.join(name);
     if path.exists() && !starts_with_magic(&path) {
         return Err(ShardError::Format {
             path,
             what: "exists and is not a shard file; not replaced".into(),
         });
     }
-    let tmp = folder.join(format!(
-        ".{}.partial-{}",
-        file_name(shard),
-        std::process::id()
-    ));
+    let tmp = folder.join(format!(".{name}.partial-{}", std::process::id()));
     let written = write_to(&tmp, shard, key, r).map_err(io(&tmp));
     let done = written.and_then(|()| std::fs::rename(&tmp, &path).map_err(io(&path)));
     if done.is_err() {

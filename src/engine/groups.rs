@@ -4,9 +4,12 @@
 //!
 //! Groups run one after another (member outer, method inner), so memory for the fields stays
 //! that of one run; the totals of every group are kept, and the memory check counts them all.
+//! With two members or more, each member then runs once more as issued with its low moved onto
+//! the members' weighted mean track ([`super::align`]); only its snowfall total is kept.
 //! Members must share the primary member's grid: resampling members on other grids onto it is
 //! not done, and such a case is refused with the grids named.
 
+use super::align::{align_members, Alignment, NotAligned};
 use super::{budget, fits_in_memory, run, EngineError, RunResult};
 use crate::case::Case;
 use crate::progress::Progress;
@@ -30,6 +33,9 @@ pub struct GroupRun {
 pub struct Ensemble {
     /// The groups, member outer, method combination inner.
     pub groups: Vec<GroupRun>,
+    /// The members' runs as issued aligned on their weighted mean track ([`super::align`]), or
+    /// why they are not.
+    pub alignment: Result<Alignment, NotAligned>,
 }
 
 impl Ensemble {
@@ -122,7 +128,13 @@ pub fn run_groups(
         }
     }
     out[0].run.warnings.extend(later);
-    Ok(Ensemble { groups: out })
+    let mut warnings = std::mem::take(&mut out[0].run.warnings);
+    let alignment = align_members(case, &out, threads, progress, &mut warnings)?;
+    out[0].run.warnings = warnings;
+    Ok(Ensemble {
+        groups: out,
+        alignment,
+    })
 }
 
 /// Progress of one group: its bars carry the group's name.

@@ -206,6 +206,7 @@ fn main() -> anyhow::Result<()> {
             },
             fixed_ratio: 10.0,
             options: Vec::new(),
+            explicit_shifts: None,
         },
         summary: SummarySettings {
             prior: trackswing::summarise::weights::TrackPrior::Gaussian {

@@ -116,6 +116,10 @@ pub struct Physics {
     /// Every method combination the case lists, with its weight (adding up to 1); `methods`
     /// is the first.
     pub options: Vec<MethodOption>,
+    /// A displacement per valid time that moves the storm in every scenario in place of the
+    /// scenario's offsets; set only on the case of a member aligned on the members' mean track
+    /// (whose only scenario is the baseline), `None` otherwise.
+    pub explicit_shifts: Option<crate::shift::ExplicitShifts>,
 }
 
 /// One combination of methods and its weight in the blend.

@@ -428,6 +428,7 @@ fn resolve_methods(
         methods: options[0].methods,
         fixed_ratio: ratio,
         options,
+        explicit_shifts: None,
     })
 }
 

@@ -4,9 +4,12 @@
 //!
 //! Groups run one after another (member outer, method inner), so memory for the fields stays
 //! that of one run; the totals of every group are kept, and the memory check counts them all.
+//! With two members or more, each member then runs once more as issued with its low moved onto
+//! the members' weighted mean track ([`super::align`]); only its snowfall total is kept.
 //! Members must share the primary member's grid: resampling members on other grids onto it is
 //! not done, and such a case is refused with the grids named.
 
+use super::align::{align_members, Alignment, NotAligned};
 use super::{budget, fits_in_memory, run, EngineError, RunResult};
 use crate::case::Case;
 use crate::progress::Progress;
@@ -30,6 +33,9 @@ pub struct GroupRun {
 pub struct Ensemble {
     /// The groups, member outer, method combination inner.
     pub groups: Vec<GroupRun>,
+    /// The members' runs as issued aligned on their weighted mean track ([`super::align`]), or
+    /// why they are not.
+    pub alignment: Result<Alignment, NotAligned>,
 }
 
 impl Ensemble {
@@ -95,7 +101,7 @@ pub fn run_groups(
             runs.push((mi, oi, r));
         }
     }
-    ensemble_of(case, runs)
+    ensemble_of(case, runs, threads, progress)
 }
 
 /// The ensemble of every group's run (member outer, method combination inner, as `(member,
@@ -103,9 +109,13 @@ pub fn run_groups(
 /// the primary's grid, weighs the groups, says which members cover another period, and puts
 /// every warning in the primary run's list, the primary's first, then those of the other groups
 /// that say something new, named by their group (a warning every member gives is said once).
+/// With several members, each is then run once more aligned on their mean track
+/// ([`super::align`]), on `threads` threads.
 pub fn ensemble_of(
     case: &Case,
     runs: Vec<(usize, usize, RunResult)>,
+    threads: usize,
+    progress: &dyn Progress,
 ) -> Result<Ensemble, EngineError> {
     let members = &case.inputs.members;
     let options = &case.physics.options;
@@ -142,7 +152,13 @@ pub fn ensemble_of(
         }
     }
     out[0].run.warnings.extend(later);
-    Ok(Ensemble { groups: out })
+    let mut warnings = std::mem::take(&mut out[0].run.warnings);
+    let alignment = align_members(case, &out, threads, progress, &mut warnings)?;
+    out[0].run.warnings = warnings;
+    Ok(Ensemble {
+        groups: out,
+        alignment,
+    })
 }
 
 /// Progress of one group: its bars carry the group's name.

@@ -14,7 +14,10 @@
 //! why one failed; [`warnings`] what it warns about once the totals are in; [`window`]
 //! the held steps and the read-ahead; [`wet`] the wet-cell index and the dry screen; [`kernel`]
 //! the per-cell physics; [`moisture`] the dry air below the cloud; [`track`] the storm's track
-//! and each scenario's displacement; [`budget`] whether a run fits in memory and in reasonable time.
+//! and each scenario's displacement (or the case's explicit displacement per step, when
+//! [`crate::case::Physics::explicit_shifts`] is set); [`align`] the members' weighted mean track
+//! and each member's run aligned on it; [`budget`] whether a run fits in memory and in
+//! reasonable time.
 //!
 //! A scenario's step k has the model's step k's length and valid time t_k; its fields are the
 //! model's at t_k − timing_h, linear in time between the two steps that bracket it (the
@@ -33,6 +36,7 @@ use crate::scenario::{scenario_product, Scenario, TimeSample};
 use crate::shard::select::Shard;
 use chrono::Duration;
 
+pub mod align;
 pub mod budget;
 pub mod error;
 pub mod groups;
@@ -315,7 +319,10 @@ pub fn run_prepared(
                     continue;
                 };
                 let at = t_k - hours(s.timing_h);
-                let shift = scenario_shift(track.as_ref(), s, at, k, &path)?;
+                let shift = match &case.physics.explicit_shifts {
+                    Some(x) => x.at(at),
+                    None => scenario_shift(track.as_ref(), s, at, k, &path)?,
+                };
                 inputs.push(Some(window.scenario_step(k, sample, shift, s)));
             }
             centres.push(track.as_ref().and_then(|t| t.position_at(t_k)));

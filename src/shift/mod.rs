@@ -16,6 +16,9 @@
 
 use crate::grid::{CellMetric, Grid};
 
+pub mod explicit;
+pub use explicit::ExplicitShifts;
+
 /// How the displacement is spread around the low centre.
 #[derive(Clone, Copy, Debug, PartialEq, serde::Serialize)]
 pub struct Taper {

@@ -6,6 +6,7 @@
 //! weight (the member's share of the members' weights × the combination's weight) times the
 //! track-error prior's weight of its offsets, the same in every group.
 
+use super::aligned::{track_explains, track_explains_cells};
 use super::bust::TownDecision;
 use super::value_at;
 use super::variance::{parts, spread_layers, Group, Parts, SpreadLayers};
@@ -36,6 +37,10 @@ pub struct MemberSummary {
     pub member_mean: Vec<Vec<f32>>,
     /// Per member: its run as issued (first method combination, offset 0).
     pub member_baseline: Vec<Vec<f32>>,
+    /// Per cell, the share of the spread between the members' runs as issued that their track
+    /// differences explain ([`super::aligned`]); `None` when the members are not aligned (the
+    /// ensemble says why).
+    pub track_explains: Option<Vec<f32>>,
     /// Per cell, the source with at least half the snowfall variance
     /// ([`crate::render::legend::SOURCE_CODES`]: 1 members, 2 methods, 3 track, 0 none, 4 no
     /// spread); NaN where the spread is missing.
@@ -55,6 +60,9 @@ pub struct TownSpread {
     pub parts: Option<Parts>,
     /// Each member's baseline snowfall, mm.
     pub baselines: Vec<f32>,
+    /// The share of the spread between the members' baselines that their track differences
+    /// explain ([`super::aligned`]; NaN where missing); `None` when the members are not aligned.
+    pub track_explains: Option<f32>,
 }
 
 /// Summarises the groups of an ensemble: `prior` is the track-error prior's weight of each
@@ -110,19 +118,34 @@ pub fn summarise_members(
         })
         .collect();
     let baseline_of = |m: usize| e.as_issued(m).map(|r| &r.totals[r.baseline].snowfall);
-    let member_baseline = (0..members.len())
+    let member_baseline: Vec<Vec<f32>> = (0..members.len())
         .map(|m| {
             baseline_of(m)
                 .cloned()
                 .unwrap_or_else(|| vec![f32::NAN; cells])
         })
         .collect();
+    let member_sum: f64 = members.iter().map(|m| m.weight).sum();
+    let member_weights: Vec<f64> = members.iter().map(|m| m.weight / member_sum).collect();
+    let track_explains = e
+        .alignment
+        .as_ref()
+        .ok()
+        .map(|a| track_explains_cells(&member_baseline, &a.snowfall, &member_weights));
     let grid = &e.groups[0].run.grid;
     let towns = ranked
         .iter()
-        .map(|t| town_spread(t, e, &weights, &groups, per_group, min, grid))
+        .map(|t| {
+            town_spread(
+                t,
+                e,
+                (&weights, &groups, per_group),
+                min,
+                grid,
+                &member_weights,
+            )
+        })
         .collect();
-    let member_sum: f64 = members.iter().map(|m| m.weight).sum();
     let dominant = (0..cells)
         .map(|i| {
             let sd = spread.sd[0][i];
@@ -146,26 +169,27 @@ pub fn summarise_members(
         cycles,
         dominant,
         names: members.iter().map(|m| m.name.clone()).collect(),
-        member_weights: members.iter().map(|m| m.weight / member_sum).collect(),
+        member_weights,
         options: options.iter().map(|o| o.label()).collect(),
         option_weights: options.iter().map(|o| o.weight).collect(),
         prior_weights: prior.to_vec(),
         spread,
         member_mean,
         member_baseline,
+        track_explains,
         towns,
     }
 }
 
-/// One town's parts by the grid's point rule, under the coverage rule of the cells.
+/// One town's parts by the grid's point rule, under the coverage rule of the cells: `scenarios`
+/// are every (group, scenario) pair's weight and group, and the scenarios per group.
 fn town_spread(
     t: &TownDecision,
     e: &Ensemble,
-    weights: &[f64],
-    groups: &[Group],
-    per_group: usize,
+    (weights, groups, per_group): (&[f64], &[Group], usize),
     min: f64,
     grid: &crate::grid::Grid,
+    member_weights: &[f64],
 ) -> TownSpread {
     let mut values = Vec::with_capacity(weights.len());
     let mut carried = 0.0;
@@ -181,14 +205,26 @@ fn town_spread(
     let parts = (carried >= min * all - 1e-12)
         .then(|| parts(&values))
         .flatten();
-    let baselines = (0..e.members())
+    let baselines: Vec<f32> = (0..e.members())
         .map(|m| {
             e.as_issued(m).map_or(f32::NAN, |r| {
                 value_at(grid, &r.totals[r.baseline].snowfall, t.lon, t.lat)
             })
         })
         .collect();
-    TownSpread { parts, baselines }
+    let track_explains = e.alignment.as_ref().ok().map(|a| {
+        let aligned: Vec<f32> = a
+            .snowfall
+            .iter()
+            .map(|f| value_at(grid, f, t.lon, t.lat))
+            .collect();
+        track_explains(&baselines, &aligned, member_weights)
+    });
+    TownSpread {
+        parts,
+        baselines,
+        track_explains,
+    }
 }
 
 /// The members in time order when they are successive cycles: at least two, each with a

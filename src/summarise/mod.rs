@@ -10,6 +10,7 @@
 //! P10/P50/P90 and threshold probabilities), [`sensitivity`] (change per 50 km of offset and
 //! the flip distance), [`ice`] (ice accretion) and [`bust`] (the ranked bust-prone towns).
 
+pub mod aligned;
 pub mod bust;
 pub mod coverage;
 pub mod ice;

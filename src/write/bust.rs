@@ -7,6 +7,7 @@
 use super::towns::spreadsheet_safe;
 use super::{Kind, WriteError, Written};
 use crate::render::legend::threshold_text;
+use crate::summarise::aligned::explains_words;
 use crate::summarise::bust::{sentence, TownDecision};
 use crate::summarise::members::{source_words, trend_mm, trend_words, MemberSummary, TownSpread};
 use crate::summarise::names::ScenarioNames;
@@ -194,11 +195,17 @@ fn row(
         for (name, b) in m.names.iter().zip(&ts.baselines) {
             v.push((format!("baseline_{su}_{name}"), snow(*b as f64)));
         }
+        if let Some(x) = ts.track_explains {
+            v.push(("track_explains_members".into(), Cell::Num(x as f64, 2)));
+        }
         if let Some(p) = &p {
             let w = source_words(p, units, m.names.len() > 1, m.options.len() > 1);
             if !w.is_empty() {
                 words = format!("{words} Across members and methods, {w}.");
             }
+        }
+        if let Some(w) = ts.track_explains.and_then(explains_words) {
+            words = format!("{words} Between the members' runs as issued, {w}.");
         }
         if let Some(cycles) = &m.cycles {
             // Successive cycles of one model: the run-to-run change as modelled.
@@ -239,6 +246,7 @@ pub fn write_towns_bust(
     let nothing = members.map(|m| TownSpread {
         parts: None,
         baselines: vec![f32::NAN; m.names.len()],
+        track_explains: m.track_explains.as_ref().map(|_| f32::NAN),
     });
     let header_only = row(
         0,

@@ -101,6 +101,8 @@ pub struct About<'a> {
     pub period: Option<&'a Period>,
     /// Normalised weight per scenario.
     pub weights: &'a [f64],
+    /// The members aligned on their weighted mean track, when they are.
+    pub alignment: Option<&'a crate::engine::align::Alignment>,
 }
 
 #[derive(Serialize)]
@@ -345,6 +347,7 @@ pub fn write_manifest(
                 })).collect::<Vec<_>>(),
                 "primary": "the layers of the run as issued and of each offset (snowfall_baseline and the other baseline layers, snowfall_by_scenario.tif, rain_snow_lines.geojson, transition_zones.geojson, snowfall_bands_baseline.geojson, the maps' lines) are the first member's with the first method combination; the weighted summaries (prior_coverage, mean, P10/P50/P90, exceedance, min/max/range, flip_zone, towns.csv, towns_bust.csv) pool every member, method combination and offset, each weighing member × method × track-error prior; the sensitivity and flip-distance layers and towns_bust.csv's flip and change columns are of the blend (the weighted mean over members and methods at each offset); snowfall_spread*.tif, snowfall_member_*.tif and snowfall_by_member_scenario.tif say where the spread comes from",
                 "spread": "law of total variance: total = between members + between methods within a member + within (track offsets and other axes), weighted by member × method × track-error prior",
+                "alignment": about.alignment.map(|a| alignment_entry(case, a)),
             })
         }),
         decisions,
@@ -352,4 +355,22 @@ pub fn write_manifest(
     let text = serde_json::to_string_pretty(&m).expect("manifest serialises");
     write_text_atomic(dir, "manifest.json", &(text + "\n"))?;
     Ok(())
+}
+
+/// The members' weighted mean track (degrees, to 0.001°) and each member's displacement onto it
+/// per step (east and north km, to the metre), for the manifest's ensemble section.
+fn alignment_entry(case: &Case, a: &crate::engine::align::Alignment) -> serde_json::Value {
+    let round = |x: f64| (x * 1000.0).round() / 1000.0;
+    serde_json::json!({
+        "what": "each member's run as issued with its low moved at every step onto the members' weighted mean track (mean of the low centres on the sphere, member weights); track_explains_members = 1 − Var(aligned)/Var(as issued) between the members",
+        "mean_track": a.times.iter().zip(&a.mean_track).map(|(t, c)| serde_json::json!({
+            "valid": t.to_rfc3339(),
+            "lon": c.map(|c| round(c.0)),
+            "lat": c.map(|c| round(c.1)),
+        })).collect::<Vec<_>>(),
+        "displacement_km": case.inputs.members.iter().zip(&a.displacements).map(|(m, d)| serde_json::json!({
+            "member": m.name,
+            "east_north_km": d.iter().map(|x| x.map(|(e, n)| [round(e), round(n)])).collect::<Vec<_>>(),
+        })).collect::<Vec<_>>(),
+    })
 }

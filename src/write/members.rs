@@ -1,12 +1,14 @@
 //! The layers of a case with several members or method combinations: the snowfall's spread
-//! and where it comes from, each member's mean and its run as issued (GeoTIFF, Float32, output
-//! snow units). Names are fixed, so GIS projects and scripts can rely on them.
+//! and where it comes from, each member's mean and its run as issued, and with two members or
+//! more each member aligned on the members' mean track and the share of their spread that the
+//! alignment explains (GeoTIFF, Float32, output snow units or 0–1). Names are fixed, so GIS
+//! projects and scripts can rely on them.
 
 use super::decisions::{one, write_bands, Band};
 use super::{WriteError, Written};
 use crate::case::Case;
 use crate::engine::{Ensemble, RunResult};
-use crate::summarise::members::MemberSummary;
+use crate::summarise::members::{MemberSummary, NO_SPREAD_MM};
 use std::path::Path;
 
 /// The files [`write_member_layers`] writes.
@@ -17,6 +19,9 @@ pub const FILES: [&str; 5] = [
     "snowfall_member_baseline.tif",
     "snowfall_by_member_scenario.tif",
 ];
+
+/// The files of the track-aligned comparison, written when the members are aligned.
+pub const ALIGNED_FILES: [&str; 2] = ["snowfall_member_aligned.tif", "track_explains_members.tif"];
 
 /// Writes the spread, its shares, the members' means and baselines, and the stack of every
 /// member's, method's and offset's snowfall.
@@ -118,6 +123,40 @@ pub fn write_member_layers(
         )?);
     }
     out.push(write_stack(dir, r, case, e, m, &meta, period)?);
+    if let (Ok(a), Some(explains)) = (&e.alignment, &m.track_explains) {
+        let bands: Vec<Band> = m
+            .names
+            .iter()
+            .zip(&a.snowfall)
+            .map(|(name, v)| {
+                let mut b = one(name.clone(), to_unit(v), su);
+                b.metadata.push(("member".into(), name.clone()));
+                b
+            })
+            .collect();
+        out.push(write_bands(
+            dir,
+            r,
+            &meta,
+            ALIGNED_FILES[0],
+            su,
+            &format!("Snowfall of each member (one band per member, band description = member name): its run as issued (first method combination, offset 0) with its low moved at every step onto the members' weighted mean track (within the shift taper; far field and terrain stay); totals over {period}"),
+            bands,
+        )?);
+        out.push(write_bands(
+            dir,
+            r,
+            &meta,
+            ALIGNED_FILES[1],
+            "1",
+            &format!("Share (0–1) of the variance between the members' runs as issued that goes once their lows are moved onto one track: 1 − Var(aligned)/Var(as issued) over the members, member-weighted, clamped to 0–1; near 1 the members differ in where they put the low, near 0 in the air mass; nodata where the runs as issued agree (σ below {} mm) or a member is missing; totals over {period}", NO_SPREAD_MM),
+            vec![one(
+                "share of the members' spread explained by their track differences".into(),
+                explains.clone(),
+                "1",
+            )],
+        )?);
+    }
     Ok(out)
 }
 

@@ -422,6 +422,14 @@ fn write_set(
             &meta,
             &sum.period_words,
         )?);
+        if let Err(why) = &e.alignment {
+            for layer in members::ALIGNED_FILES {
+                skipped.push(NotComputed {
+                    layer: layer.into(),
+                    reason: why.to_string(),
+                });
+            }
+        }
     }
     if case.output.report {
         // Listed now, written right after the manifest it is built from.
@@ -434,6 +442,7 @@ fn write_set(
         not_computed: &skipped,
         period: sum.period.as_ref(),
         weights: &sum.weights,
+        alignment: ensemble.and_then(|e| e.alignment.as_ref().ok()),
     };
     manifest::write_manifest(dir, case, r, &files, &about)?;
     let mut all = files;

@@ -450,6 +450,12 @@ pub fn write_report(dir: &Path) -> Result<PathBuf, ReportError> {
                 col("share_track", "Share from track"),
             ]);
         }
+        if header.iter().any(|h| h == "track_explains_members") {
+            shown.push(col(
+                "track_explains_members",
+                "Share of the members' difference that is where they put the low",
+            ));
+        }
         if header.iter().any(|h| h == &format!("cycle_trend_{su}")) {
             shown.push(col(
                 &format!("cycle_trend_{su}"),

@@ -16,6 +16,11 @@ percentile P_q of the blend must satisfy F(P_q - e) <= q <= F(P_q + e), F the mi
 groups' cumulative distributions (each group's mid-step positions, linear between its values,
 evaluated with numpy.interp), weighted by each group's share of the weight with a value.
 
+When the members are aligned on their mean track, it also recomputes `track_explains_members.tif`
+from `snowfall_member_baseline.tif` and `snowfall_member_aligned.tif` with the manifest's member
+weights: 1 − Var(aligned)/Var(as issued) between the members, clamped to 0–1, nodata where a
+member is missing or the members as issued have a standard deviation under 0.05 mm.
+
     /usr/bin/python3 tests/ref/check_spread.py OUT_DIR
 """
 import json
@@ -182,4 +187,41 @@ for r, c in zip(rows, cols):
                 print(f"  cell ({r}, {c}): P{int(q * 100)} = {p}, F(P - e) = {cdf(p - eps)}, F(P + e) = {cdf(p + eps)}")
 print(f"{'ok' if bad == 0 else 'FAIL'} blended P10/P50/P90: {len(rows)} cells, {bad} outside the mixture's quantile")
 failures += bad > 0
+
+aligned_path = os.path.join(out, "snowfall_member_aligned.tif")
+if os.path.exists(aligned_path):
+    manifest = json.load(open(os.path.join(out, "manifest.json")))
+    mw = np.array([m["weight"] for m in manifest["ensemble"]["members"]])[:, None, None]
+
+    def bands(name):
+        ds = gdal.Open(os.path.join(out, name))
+        arr = []
+        for i in range(1, ds.RasterCount + 1):
+            b = ds.GetRasterBand(i)
+            v = b.ReadAsArray().astype(np.float64)
+            v[v == b.GetNoDataValue()] = np.nan
+            arr.append(v)
+        return np.stack(arr)
+
+    def var(v):
+        m = (mw * v).sum(axis=0) / mw.sum()
+        return (mw * (v - m) ** 2).sum(axis=0) / mw.sum()
+
+    b, a = bands("snowfall_member_baseline.tif"), bands("snowfall_member_aligned.tif")
+    got = bands("track_explains_members.tif")[0]
+    # The threshold, 0.05 mm of snow, in the layers' unit (cm or in).
+    no_spread = 0.005 if manifest["units"] == "metric" else 0.05 / 25.4
+    sd = np.sqrt(var(b))
+    have_all = ~np.isnan(b).any(axis=0) & ~np.isnan(a).any(axis=0)
+    want = np.clip(1.0 - var(a) / np.where(sd > 0, sd**2, 1.0), 0.0, 1.0)
+    want[~have_all | (sd < no_spread)] = np.nan
+    # Away from the threshold, where Float32 rounding cannot move a cell across it.
+    clear = ~have_all | (sd < 0.5 * no_spread) | (sd > 2.0 * no_spread)
+    wrong_nodata = int((np.isnan(got) != np.isnan(want))[clear].sum())
+    # Float32 totals: the share is good to about 1e-3 where σ is ten times the threshold.
+    firm = have_all & (sd >= 10.0 * no_spread)
+    err = np.abs(got[firm] - want[firm]).max() if firm.any() else 0.0
+    bad = wrong_nodata > 0 or err > 1e-3
+    print(f"{'FAIL' if bad else 'ok'} track_explains_members: {int(firm.sum())} cells, largest difference {err:.2e}, nodata differs at {wrong_nodata} cells")
+    failures += bad
 sys.exit(1 if failures else 0)

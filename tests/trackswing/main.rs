@@ -1,5 +1,6 @@
 //! Integration tests: the engine on synthetic cases, the binary on the demo and on bad input.
 
+mod aligned;
 mod atomic;
 mod bad_input;
 mod coverage;

@@ -148,6 +148,32 @@ fn two_identical_members_have_no_spread_between_them_and_the_single_members_laye
             assert_eq!(x[i], y[j], "{c}");
         }
     }
+    // One track twice: its mean is that track, nobody moves, and each member aligned is its run
+    // as issued, bit for bit; with no spread between the members there is nothing for the
+    // track to explain (nodata everywhere).
+    let aligned = read_geotiff(&two.join("snowfall_member_aligned.tif")).unwrap();
+    assert_eq!(aligned.descriptions, ["a", "b"]);
+    for k in 0..2 {
+        assert!(
+            aligned.bands[k]
+                .iter()
+                .zip(&base.bands[k])
+                .all(|(x, y)| x.to_bits() == y.to_bits() || (x.is_nan() && y.is_nan())),
+            "member {k}"
+        );
+    }
+    let explains = read_geotiff(&two.join("track_explains_members.tif")).unwrap();
+    assert!(explains.bands[0].iter().all(|v| v.is_nan()));
+    let m: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(two.join("manifest.json")).unwrap()).unwrap();
+    for d in m["ensemble"]["alignment"]["displacement_km"]
+        .as_array()
+        .unwrap()
+    {
+        for x in d["east_north_km"].as_array().unwrap() {
+            assert_eq!(x, &serde_json::json!([0.0, 0.0]));
+        }
+    }
     // The towns table says so too.
     let mut r = csv::Reader::from_path(two.join("towns_bust.csv")).unwrap();
     let h = r.headers().unwrap().clone();
@@ -156,15 +182,17 @@ fn two_identical_members_have_no_spread_between_them_and_the_single_members_laye
             .position(|c| c == n)
             .unwrap_or_else(|| panic!("{n}"))
     };
-    let (sm, sa, sb) = (
+    let (sm, sa, sb, te) = (
         col("share_members"),
         col("baseline_cm_a"),
         col("baseline_cm_b"),
+        col("track_explains_members"),
     );
     let mut rows = 0;
     for rec in r.records() {
         let rec = rec.unwrap();
         assert_eq!(rec.get(sa), rec.get(sb));
+        assert_eq!(rec.get(te), Some(""), "no spread: no share");
         if !rec.get(sm).unwrap().is_empty() {
             assert_eq!(rec.get(sm).unwrap().parse::<f64>().unwrap(), 0.0);
             rows += 1;
@@ -210,6 +238,20 @@ fn two_snow_ratio_methods_split_the_spread_and_the_stack_names_every_band() {
         .iter()
         .any(|f| f["file"] == "map_spread_source.png" && f["kind"] == "image"));
     assert!(out.join("map_spread_source.png").is_file());
+    // One member: no alignment, and the manifest says why.
+    let why: Vec<&str> = m["not_computed"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|n| {
+            n["layer"] == "snowfall_member_aligned.tif"
+                || n["layer"] == "track_explains_members.tif"
+        })
+        .map(|n| n["reason"].as_str().unwrap())
+        .collect();
+    assert_eq!(why.len(), 2);
+    assert!(why[0].contains("one member"), "{}", why[0]);
+    assert!(!out.join("snowfall_member_aligned.tif").exists());
 }
 
 #[test]

@@ -144,14 +144,29 @@ fn run_case(
     let progress = console::Bar::new(common.quiet);
     let started = std::time::Instant::now();
     let mut merged = None;
-    if case.is_ensemble() && !matches!(mode, Mode::Layers) {
-        return Err(Failure::Usage(anyhow::anyhow!(
-            "shards of a case with several members or methods are not supported yet: run it in one piece (without --shard), or split it into one case per member"
-        )));
-    }
     if case.is_ensemble() {
-        let ensemble =
-            trackswing::engine::run_groups(&case, threads, &progress).map_err(engine_failure)?;
+        let ensemble = match mode {
+            Mode::Layers => {
+                trackswing::engine::run_groups(&case, threads, &progress).map_err(engine_failure)?
+            }
+            Mode::Shard(shard) => {
+                return run_ensemble_shard(&case, threads, &progress, shard, common.quiet)
+            }
+            Mode::Merge(given) => {
+                let paths = if given.is_empty() {
+                    shard_files(&case.output.out_dir).map_err(Failure::Input)?
+                } else {
+                    given.to_vec()
+                };
+                merged = Some(paths.len());
+                let runs = in_pool(threads, || {
+                    trackswing::shard::ensemble::assemble_groups(&case, &progress, &paths)
+                })?
+                .map_err(merge_failure)?;
+                trackswing::engine::ensemble_of(&case, runs, threads, &progress)
+                    .map_err(engine_failure)?
+            }
+        };
         let summary = trackswing::summarise::summary::summarise_ensemble(&case, &ensemble)
             .with_context(|| format!("{}: the track-error weights", case.path.display()))
             .map_err(Failure::Input)?;
@@ -162,7 +177,13 @@ fn run_case(
             .map_err(Failure::Output)?;
         if !common.quiet {
             let write_s = clock.elapsed().as_secs_f64();
-            console::summary(&case, result, &outcome, (started.elapsed(), write_s), None);
+            console::summary(
+                &case,
+                result,
+                &outcome,
+                (started.elapsed(), write_s),
+                merged,
+            );
         }
         return Ok(());
     }
@@ -178,16 +199,10 @@ fn run_case(
                 given.to_vec()
             };
             merged = Some(paths.len());
-            rayon::ThreadPoolBuilder::new()
-                .num_threads(threads)
-                .build()
-                .map_err(|e| Failure::Input(e.into()))?
-                .install(|| trackswing::shard::assemble(&case, &progress, &paths))
-                .map_err(|e| {
-                    stopped(
-                        anyhow::Error::from(e).context("the merge stopped; nothing was written"),
-                    )
-                })?
+            in_pool(threads, || {
+                trackswing::shard::assemble(&case, &progress, &paths)
+            })?
+            .map_err(merge_failure)?
         }
     };
     let clock = std::time::Instant::now();
@@ -221,26 +236,60 @@ fn run_shard(
     let started = std::time::Instant::now();
     let folder = trackswing::shard::default_folder(&case.output.out_dir);
     let (result, path) = trackswing::shard::run_and_write(case, threads, progress, shard, &folder)
-        .map_err(|e| {
-            let failed_write = matches!(
-                e,
-                trackswing::shard::ShardError::Io { .. }
-                    | trackswing::shard::ShardError::Format { .. }
-            );
-            match e {
-                trackswing::shard::ShardError::Engine(e) => engine_failure(e),
-                e if failed_write => Failure::Output(
-                    anyhow::Error::from(e).context(format!("writing shard {}", shard.label())),
-                ),
-                e => {
-                    stopped(anyhow::Error::from(e).context("the run stopped; nothing was written"))
-                }
-            }
-        })?;
+        .map_err(|e| shard_failure(e, shard))?;
     if !quiet {
         console::shard_summary(case, &result, shard, &path, progress, started.elapsed());
     }
     Ok(())
+}
+
+/// Runs `f` on a pool of `threads` threads.
+fn in_pool<T: Send>(threads: usize, f: impl FnOnce() -> T + Send) -> Result<T, Failure> {
+    Ok(rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build()
+        .map_err(|e| Failure::Input(e.into()))?
+        .install(f))
+}
+
+/// A merge that stopped: nothing was written.
+fn merge_failure(e: trackswing::shard::ShardError) -> Failure {
+    stopped(anyhow::Error::from(e).context("the merge stopped; nothing was written"))
+}
+
+/// Runs shard `shard` of a case with several members or methods: every member × method part
+/// it holds, each into its own file.
+fn run_ensemble_shard(
+    case: &Case,
+    threads: usize,
+    progress: &console::Bar,
+    shard: trackswing::shard::Shard,
+    quiet: bool,
+) -> Result<(), Failure> {
+    let started = std::time::Instant::now();
+    let folder = trackswing::shard::default_folder(&case.output.out_dir);
+    let parts =
+        trackswing::shard::ensemble::run_and_write_groups(case, threads, progress, shard, &folder)
+            .map_err(|e| shard_failure(e, shard))?;
+    if !quiet {
+        console::ensemble_shard_summary(case, &parts, shard, progress, started.elapsed());
+    }
+    Ok(())
+}
+
+/// How a shard's failure exits: a failed write is an output failure, the engine's its own.
+fn shard_failure(e: trackswing::shard::ShardError, shard: trackswing::shard::Shard) -> Failure {
+    let failed_write = matches!(
+        e,
+        trackswing::shard::ShardError::Io { .. } | trackswing::shard::ShardError::Format { .. }
+    );
+    match e {
+        trackswing::shard::ShardError::Engine(e) => engine_failure(e),
+        e if failed_write => Failure::Output(
+            anyhow::Error::from(e).context(format!("writing shard {}", shard.label())),
+        ),
+        e => stopped(anyhow::Error::from(e).context("the run stopped; nothing was written")),
+    }
 }
 
 /// The shard files in the default folder of `out_dir`, or an error saying where none were found.

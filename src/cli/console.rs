@@ -122,6 +122,44 @@ pub fn shard_summary(
     let _ = std::io::stdout().lock().write_all(out.as_bytes());
 }
 
+/// Prints what one shard of a case with several members or methods computed: a line per
+/// member × method part and its file.
+pub fn ensemble_shard_summary(
+    case: &Case,
+    parts: &[trackswing::shard::ensemble::GroupPart],
+    shard: trackswing::shard::Shard,
+    bar: &Bar,
+    took: std::time::Duration,
+) {
+    use std::fmt::Write as _;
+    use std::io::Write as _;
+    let mut out = String::new();
+    let _ = writeln!(out, "trackswing: {}", case.title);
+    for p in parts {
+        let held = p.run.totals.iter().filter(|t| !t.is_empty()).count();
+        let _ = writeln!(
+            out,
+            "shard {}, member '{}' with {}: {held} of {} scenarios → {}",
+            shard.label(),
+            case.inputs.members[p.member].name,
+            case.physics.options[p.option].label(),
+            p.run.scenarios.len(),
+            p.file.display()
+        );
+    }
+    for w in bar.warnings.lock().expect("warnings lock").iter() {
+        let _ = writeln!(out, "warning: {w}");
+    }
+    let _ = writeln!(
+        out,
+        "took {:.1} s; `trackswing merge` writes the layers once all {} shards are done",
+        took.as_secs_f64(),
+        shard.count
+    );
+    let _ = writeln!(out, "{}", trackswing::CAUTION);
+    let _ = std::io::stdout().lock().write_all(out.as_bytes());
+}
+
 /// The five bust-prone towns at the top of `towns_bust.csv`, the ranking report.html shows, read
 /// back from the file written so that the terminal, the table and the report cannot disagree.
 /// Nothing when the run wrote no such table.

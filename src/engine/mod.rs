@@ -49,7 +49,7 @@ pub mod wet;
 pub mod window;
 pub use budget::{fits_in_memory, memory_estimate, scenario_budget, Budget};
 pub use error::EngineError;
-pub use groups::{run_groups, Ensemble, GroupRun};
+pub use groups::{ensemble_of, run_groups, Ensemble, GroupRun};
 pub use kernel::{
     accumulate_cell, cell_column, sample_column, step_all_scenarios, BlockCounts, CellStep,
     Sampled, ScenarioStep, SourceAt,

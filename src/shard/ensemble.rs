@@ -162,10 +162,24 @@ pub fn assemble_groups(
                 options[k].label()
             )));
         }
-        let r = super::assemble(&case.group(m, k), progress, paths)
+        let mut r = super::assemble(&case.group(m, k), progress, paths)
             .map_err(|e| in_group(case, m, k, e))?;
+        for s in &mut r.shards {
+            s.shard = format!(
+                "{} of member '{}' with {}",
+                s.shard,
+                case.inputs.members[m].name,
+                options[k].label()
+            );
+        }
         out.push((m, k, r));
     }
+    // The primary run lists every file merged (the manifest's list).
+    let all: Vec<_> = out
+        .iter_mut()
+        .flat_map(|g| std::mem::take(&mut g.2.shards))
+        .collect();
+    out[0].2.shards = all;
     Ok(out)
 }
 

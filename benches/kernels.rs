@@ -1,5 +1,6 @@
 //! Criterion micro-benchmarks of the per-cell kernels: energy-area type, column diagnosis (also
-//! with dry air below the cloud) and bilinear sampling.
+//! with dry air below the cloud), bilinear sampling, and the remapping of a member's totals
+//! onto the output grid.
 //!
 //! `cargo bench --bench kernels`. The end-to-end throughput benchmark is scripts/bench.sh.
 
@@ -11,6 +12,7 @@ use trackswing::diagnose::thermo::isobaric_wet_bulb_deficit_humidity;
 use trackswing::diagnose::{
     diagnose_column, step_column, Methods, Profile, PtypeMethod, SlrMethod,
 };
+use trackswing::engine::regrid::Remap;
 use trackswing::geotiff::{Crs, Georef};
 use trackswing::grid::Grid;
 use trackswing::read::StepLayout;
@@ -128,6 +130,35 @@ fn kernels(c: &mut Criterion) {
                 &mut out,
             )
         })
+    });
+    // A member on another grid: the mapping of a 0.15° × 0.1° member onto the 128 × 104
+    // output grid of the demo shifted by a fraction of a cell (built once per member), and
+    // one scenario's amount carried over (once per field and scenario).
+    let member = Grid::new(
+        120,
+        100,
+        Georef {
+            crs: Crs::Wgs84Geographic,
+            geotransform: [-35.03, 0.17, 0.0, 52.04, 0.0, -0.11],
+        },
+    )
+    .expect("valid grid");
+    let output = Grid::new(
+        128,
+        104,
+        Georef {
+            crs: Crs::Wgs84Geographic,
+            geotransform: [-35.0, 0.15, 0.0, 52.0, 0.0, -0.1],
+        },
+    )
+    .expect("valid grid");
+    c.bench_function("Remap::new, 128 × 104 output cells", |b| {
+        b.iter(|| Remap::new(black_box(&member), &output))
+    });
+    let remap = Remap::new(&member, &output);
+    let amount: Vec<f32> = (0..member.len()).map(|i| (i % 89) as f32).collect();
+    c.bench_function("Remap::conservative, 128 × 104 output cells", |b| {
+        b.iter(|| remap.conservative(black_box(&amount)))
     });
 }
 

@@ -347,9 +347,57 @@ impl Grid {
     /// running 150°…230°; on a grid that [wraps](Grid::wraps) the column is in `0 ≤ col < nx`,
     /// a column past `nx − 1` lying between the last column and the first.
     pub fn index_of(&self, lon: f64, lat: f64) -> Option<(f64, f64)> {
+        let (col, row) = self.fractional_index(lon, lat);
+        let last_col = if self.wraps() { self.nx } else { self.nx - 1 };
+        let inside =
+            col >= 0.0 && row >= 0.0 && col <= last_col as f64 && row <= (self.ny - 1) as f64;
+        inside.then_some((col, row))
+    }
+
+    /// The cell whose area holds a lon/lat point (pixel-is-area: a cell reaches half a cell
+    /// beyond its centre on every side), as a row-major index; `None` outside the grid's outer
+    /// edges. On a grid that [wraps](Grid::wraps) every longitude is inside.
+    ///
+    /// ```
+    /// use trackswing::geotiff::{Crs, Georef};
+    /// let georef = Georef { crs: Crs::Wgs84Geographic, geotransform: [0.0, 1.0, 0.0, 2.0, 0.0, -1.0] };
+    /// let grid = trackswing::grid::Grid::new(2, 2, georef).unwrap();
+    /// // The outer corner of the south-east cell is inside it; a hair beyond is outside.
+    /// assert_eq!(grid.cell_at(1.99, 0.01), Some(3));
+    /// assert_eq!(grid.cell_at(2.01, 0.01), None);
+    /// ```
+    pub fn cell_at(&self, lon: f64, lat: f64) -> Option<usize> {
+        let (col, row) = self.fractional_index(lon, lat);
+        let (c, r) = ((col + 0.5).floor(), (row + 0.5).floor());
+        if !(c.is_finite() && r.is_finite()) || r < 0.0 || r >= self.ny as f64 {
+            return None;
+        }
+        let c = if self.wraps() {
+            c.rem_euclid(self.nx as f64)
+        } else if c < 0.0 || c >= self.nx as f64 {
+            return None;
+        } else {
+            c
+        };
+        Some(r as usize * self.nx + c as usize)
+    }
+
+    /// Area of cell `i` on the Earth, km²: the inverse of the determinant of the metric's
+    /// Jacobian from east/north km to columns/rows, so the area at the cell centre times one
+    /// cell (exact to first order in the cell's size, for lat/lon and projected grids alike).
+    pub fn cell_area_km2(&self, i: usize) -> f64 {
+        let m = &self.metric[i];
+        let det = m.col_per_km_east as f64 * m.row_per_km_north as f64
+            - m.col_per_km_north as f64 * m.row_per_km_east as f64;
+        1.0 / det.abs()
+    }
+
+    /// Fractional (column, row) of a lon/lat point in cell-centre index space, wherever it
+    /// lies (columns of a grid that wraps in `0 ≤ col < nx`).
+    fn fractional_index(&self, lon: f64, lat: f64) -> (f64, f64) {
         let gt = self.georef.geotransform;
         let wraps = self.wraps();
-        let (col, row) = match &self.projector {
+        match &self.projector {
             None if wraps => {
                 let col = ((lon - gt[0]) / gt[1] - 0.5).rem_euclid(self.nx as f64);
                 // rem_euclid may round up to nx itself for a point a hair west of column 0.
@@ -370,11 +418,7 @@ impl Grid {
                 let (x, y) = p.forward(lon, lat);
                 ((x - gt[0]) / gt[1] - 0.5, (y - gt[3]) / gt[5] - 0.5)
             }
-        };
-        let last_col = if wraps { self.nx } else { self.nx - 1 };
-        let inside =
-            col >= 0.0 && row >= 0.0 && col <= last_col as f64 && row <= (self.ny - 1) as f64;
-        inside.then_some((col, row))
+        }
     }
 
     /// The four cell centres around a lon/lat point and their bilinear weights: the one rule

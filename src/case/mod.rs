@@ -93,8 +93,9 @@ pub struct Case {
 /// What a case reads.
 #[derive(Clone, Debug)]
 pub struct Inputs {
-    /// The members (models, cycles or ensemble members), in the case's order; the first is the
-    /// primary, whose run the single-member layers describe.
+    /// The members (models, cycles or ensemble members), in the case's order except that the
+    /// member `[output] grid` names comes first; the first is the primary, whose grid is the
+    /// output grid and whose run the single-member layers describe.
     pub members: Vec<Member>,
     /// Towns CSV.
     pub towns: Option<PathBuf>,
@@ -196,7 +197,7 @@ impl Case {
         v
     }
 
-    /// The primary member: the first the case lists.
+    /// The primary member: the one `[output] grid` names, else the first the case lists.
     pub fn member(&self) -> &Member {
         &self.inputs.members[0]
     }
@@ -611,5 +612,28 @@ snow_ratio = "max-column-temperature"
         let c = Case::load(&p, &over).unwrap();
         assert_eq!(c.physics.options.len(), 2);
         assert_eq!(c.physics.methods.slr, SlrMethod::GrowthZone);
+    }
+
+    #[test]
+    fn the_output_grid_member_becomes_the_primary() {
+        let three = GOOD.replace(
+            "[offsets]",
+            "[[member]]\nname = \"n\"\nterrain = \"terrain.tif\"\nsteps = \"f/s_*.tif\"\ntrack = \"track.csv\"\n[[member]]\nname = \"o\"\nterrain = \"terrain.tif\"\nsteps = \"f/s_*.tif\"\ntrack = \"track.csv\"\n[output]\ngrid = \"o\"\n[offsets]",
+        );
+        let (_d, p) = setup(&three);
+        let c = Case::load(&p, &Overrides::default()).unwrap();
+        let names: Vec<&str> = c.inputs.members.iter().map(|m| m.name.as_str()).collect();
+        assert_eq!(names, ["o", "m", "n"]);
+        assert_eq!(c.member().name, "o");
+        let (_d, p) = setup(&three.replace("grid = \"o\"", "grid = \"p\""));
+        let e = Case::load(&p, &Overrides::default())
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("'output.grid'")
+                && e.contains("'p' names no member")
+                && e.contains("'m', 'n', 'o'"),
+            "{e}"
+        );
     }
 }

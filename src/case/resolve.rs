@@ -73,6 +73,7 @@ pub(super) fn resolve(path: &Path, file: CaseFile, over: &Overrides) -> Result<C
             ));
         }
     }
+    let members = output_grid_first(&here, members, file.output.grid.as_deref())?;
     let towns = file
         .towns
         .as_deref()
@@ -127,6 +128,32 @@ pub(super) fn resolve(path: &Path, file: CaseFile, over: &Overrides) -> Result<C
         output,
         force: over.force,
     })
+}
+
+/// `[output] grid`: the member it names moves to the front and becomes the primary member, so
+/// the output grid, the towns, the terrain and the single-run layers are all one member's; the
+/// others keep their order. A name the case's members do not have is refused, naming them.
+fn output_grid_first(
+    here: &Here,
+    mut members: Vec<super::Member>,
+    grid: Option<&str>,
+) -> Result<Vec<super::Member>, CaseError> {
+    let Some(name) = grid else {
+        return Ok(members);
+    };
+    let Some(k) = members.iter().position(|m| m.name == name) else {
+        let names: Vec<String> = members.iter().map(|m| format!("'{}'", m.name)).collect();
+        return Err(here.invalid(
+            "output.grid",
+            format!(
+                "'{name}' names no member: expected one of {} (the member whose grid the layers are written on)",
+                names.join(", ")
+            ),
+        ));
+    };
+    let chosen = members.remove(k);
+    members.insert(0, chosen);
+    Ok(members)
 }
 
 /// `region` (or `--region`, which wins).

@@ -112,6 +112,9 @@ pub struct OutputFile {
     pub thresholds: Option<Vec<f64>>,
     /// Ice-accretion thresholds for the exceedance probabilities, in the output liquid units.
     pub ice_thresholds: Option<Vec<f64>>,
+    /// The member whose grid the layers are written on (default the first); it becomes the
+    /// primary member.
+    pub grid: Option<String>,
 }
 
 /// `[weights]`: the prior over track offsets.

@@ -200,7 +200,15 @@ pub fn align_members(
             .map(|w| format!("{label}: {w}"))
             .collect();
         warnings.extend(new);
-        snowfall.push(std::mem::take(&mut r.totals[r.baseline].snowfall));
+        let snow = std::mem::take(&mut r.totals[r.baseline].snowfall);
+        // A member on another grid ran on its own: its total is resampled onto the output grid
+        // as its other totals are ([`super::regrid`]).
+        let target = &groups[0].run.grid;
+        snowfall.push(if r.grid.same_as(target) {
+            snow
+        } else {
+            super::regrid::Remap::new(&r.grid, target).conservative(&snow)
+        });
     }
     Ok(Ok(Alignment {
         times,

@@ -4,12 +4,16 @@
 //!
 //! Groups run one after another (member outer, method inner), so memory for the fields stays
 //! that of one run; the totals of every group are kept, and the memory check counts them all.
-//! With two members or more, each member then runs once more as issued with its low moved onto
-//! the members' weighted mean track ([`super::align`]); only its snowfall total is kept.
-//! Members must share the primary member's grid: resampling members on other grids onto it is
-//! not done, and such a case is refused with the grids named.
+//! The first group's grid is the output grid (the case puts the member `[output] grid` names
+//! first). A member on another grid runs on its own grid and its totals are then resampled
+//! onto the output grid ([`super::regrid`]); a member whose grid holds no output cell is
+//! refused. Members are matched by valid time: one whose steps differ from the primary's
+//! covers what it has, and the run says which steps it shares, lacks and adds. With two members
+//! or more, each member then runs once more as issued with its low moved onto the members'
+//! weighted mean track ([`super::align`]); only its snowfall total is kept.
 
 use super::align::{align_members, Alignment, NotAligned};
+use super::regrid::{onto, Remap, CONSERVATION_TOLERANCE};
 use super::{budget, fits_in_memory, run, EngineError, RunResult};
 use crate::case::Case;
 use crate::progress::Progress;
@@ -28,7 +32,8 @@ pub struct GroupRun {
     pub run: RunResult,
 }
 
-/// Every group of a case; the first is the primary (first member, first combination), whose
+/// Every group of a case, all on the output grid; the first is the primary (first member —
+/// the case's first, or the one `[output] grid` names — with the first combination), whose
 /// run the single-run layers describe.
 pub struct Ensemble {
     /// The groups, member outer, method combination inner.
@@ -77,7 +82,7 @@ pub fn run_groups(
             advice: "list fewer members, methods or offsets".into(),
         });
     }
-    let mut runs = Vec::with_capacity(groups);
+    let mut runs: Vec<(usize, usize, RunResult)> = Vec::with_capacity(groups);
     for (mi, m) in members.iter().enumerate() {
         for (oi, o) in options.iter().enumerate() {
             let label = format!("member '{}', methods {}", m.name, o.label());
@@ -86,17 +91,16 @@ pub fn run_groups(
                 label: &label,
             };
             let r = run(&case.group(mi, oi), threads, &named)?;
-            if let Some((_, _, first)) = runs.first() {
-                check_same_grid(first, &r, case, mi)?;
-                let n = r.grid.len();
-                if let Err((need, avail)) = fits_in_memory(n, total) {
-                    return Err(EngineError::TooBig {
-                        need_mib: need >> 20,
-                        avail_mib: avail >> 20,
-                        scenarios: total,
-                        cells: n,
-                    });
-                }
+            // Every group's totals are kept, on the output grid (or the member's own, until
+            // resampled, when larger).
+            let n = r.grid.len().max(runs.first().map_or(0, |f| f.2.grid.len()));
+            if let Err((need, avail)) = fits_in_memory(n, total) {
+                return Err(EngineError::TooBig {
+                    need_mib: need >> 20,
+                    avail_mib: avail >> 20,
+                    scenarios: total,
+                    cells: n,
+                });
             }
             runs.push((mi, oi, r));
         }
@@ -105,8 +109,8 @@ pub fn run_groups(
 }
 
 /// The ensemble of every group's run (member outer, method combination inner, as `(member,
-/// combination, run)`), computed here or merged from shards: checks that the members share
-/// the primary's grid, weighs the groups, says which members cover another period, and puts
+/// combination, run)`), computed here or merged from shards: resamples members on other grids
+/// onto the primary's, weighs the groups, says which members cover another period, and puts
 /// every warning in the primary run's list, the primary's first, then those of the other groups
 /// that say something new, named by their group (a warning every member gives is said once).
 /// With several members, each is then run once more aligned on their mean track
@@ -120,13 +124,26 @@ pub fn ensemble_of(
     let members = &case.inputs.members;
     let options = &case.physics.options;
     let member_sum: f64 = members.iter().map(|m| m.weight).sum();
+    // The mapping of a member onto the output grid is computed on the run's threads, once per
+    // member and shared by its method combinations.
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build()
+        .map_err(|_| EngineError::Threads(threads))?;
+    let mut remaps: Vec<Option<Remap>> = (0..members.len()).map(|_| None).collect();
     let mut out: Vec<GroupRun> = Vec::with_capacity(runs.len());
     for (mi, oi, mut r) in runs {
         if let Some(first) = out.first() {
-            check_same_grid(&first.run, &r, case, mi)?;
-            if r.valid_times != first.run.valid_times {
-                r.warnings
-                    .push(period_warning(&first.run, &r, &members[mi].name));
+            if !r.grid.same_as(&first.run.grid) {
+                let target = &first.run.grid;
+                let map =
+                    remaps[mi].get_or_insert_with(|| pool.install(|| Remap::new(&r.grid, target)));
+                let note = regrid_note(&first.run, &r, map, case, mi)?;
+                r = onto(r, target, map);
+                r.warnings.push(note);
+            }
+            if let Some(w) = period_warning(&first.run, &r, case, mi)? {
+                r.warnings.push(w);
             }
         }
         out.push(GroupRun {
@@ -182,46 +199,124 @@ impl Progress for Named<'_> {
     }
 }
 
-/// Refuses a member whose grid is not the primary member's.
-fn check_same_grid(
+/// What resampling member `member` onto the output grid does, for the warnings; refuses a
+/// member whose grid holds no output cell.
+fn regrid_note(
+    primary: &RunResult,
+    other: &RunResult,
+    map: &Remap,
+    case: &Case,
+    member: usize,
+) -> Result<String, EngineError> {
+    let m = &case.inputs.members[member];
+    let p = &case.inputs.members[0].name;
+    let n = primary.grid.len();
+    let covered = map.covered();
+    if covered == 0 {
+        return Err(EngineError::Members {
+            path: m.steps.first().cloned().unwrap_or_else(|| m.terrain.clone()),
+            member: m.name.clone(),
+            what: format!(
+                "its grid ({}) holds no cell of the output grid (that of member '{p}': {}); members are compared cell by cell on the output grid, so a member must cover part of it",
+                other.grid.describe(),
+                primary.grid.describe()
+            ),
+        });
+    }
+    let missing = if covered < n {
+        format!(
+            "; it covers {covered} of the {n} output cells, and the other {} are missing for it (the spread there comes from the other members)",
+            n - covered
+        )
+    } else {
+        "; it covers every output cell".to_string()
+    };
+    Ok(format!(
+        "member '{}' is on another grid ({}) than the output grid (that of member '{p}': {}): it ran on its own grid and its totals were resampled onto the output grid, amounts conservatively (area-weighted over {k}×{k} parts of each output cell, the area-integral kept within {tol} %), terrain bilinearly, onset from the nearest cell{missing}",
+        m.name,
+        other.grid.describe(),
+        primary.grid.describe(),
+        k = map.parts_per_side,
+        tol = CONSERVATION_TOLERANCE * 100.0,
+    ))
+}
+
+/// A member whose steps differ from the primary's, matched by valid time: which steps it
+/// shares, which of the primary's it lacks (its totals cover only what it has) and which it
+/// adds. Refuses a member whose period does not overlap the primary's: its totals would be of
+/// another storm, or of none.
+fn period_warning(
     primary: &RunResult,
     other: &RunResult,
     case: &Case,
     member: usize,
-) -> Result<(), EngineError> {
-    if other.grid.nx == primary.grid.nx
-        && other.grid.ny == primary.grid.ny
-        && other.grid.georef == primary.grid.georef
-    {
-        return Ok(());
+) -> Result<Option<String>, EngineError> {
+    use crate::accumulate::period::Period;
+    if other.valid_times == primary.valid_times {
+        return Ok(None);
     }
     let m = &case.inputs.members[member];
-    Err(EngineError::Members {
-        path: m.steps.first().cloned().unwrap_or_else(|| m.terrain.clone()),
-        member: m.name.clone(),
-        what: format!(
-            "its grid ({}×{} cells, {}) is not the primary member's ({}×{} cells, {}); members are compared cell by cell and must come on one grid (regrid it first, e.g. with gdalwarp, or give the same --region)",
-            other.grid.nx,
-            other.grid.ny,
-            other.grid.describe(),
-            primary.grid.nx,
-            primary.grid.ny,
-            primary.grid.describe()
-        ),
-    })
-}
-
-/// A member whose steps differ from the primary's: its totals cover another period.
-fn period_warning(primary: &RunResult, other: &RunResult, name: &str) -> String {
+    let p = &case.inputs.members[0].name;
     let words = |r: &RunResult| {
-        crate::accumulate::period::Period::of(&r.valid_times)
-            .map_or_else(|| "no steps".to_string(), |p| p.words())
+        Period::of(&r.valid_times).map_or_else(|| "no steps".to_string(), |p| p.words())
     };
-    format!(
-        "member '{name}' has {} steps over {} against the primary member's {} over {}: its totals cover another period, which the spread between members includes",
+    let shared = other
+        .valid_times
+        .iter()
+        .filter(|t| primary.valid_times.contains(t))
+        .count();
+    // Periods meet when they share a valid time or their spans overlap.
+    let overlap = match (
+        Period::of(&primary.valid_times),
+        Period::of(&other.valid_times),
+    ) {
+        (Some(a), Some(b)) => {
+            let (a0, b0) = (a.start.unwrap_or(a.end), b.start.unwrap_or(b.end));
+            shared > 0 || (b0 < a.end && a0 < b.end)
+        }
+        _ => false,
+    };
+    if !overlap {
+        return Err(EngineError::Members {
+            path: m.steps.first().cloned().unwrap_or_else(|| m.terrain.clone()),
+            member: m.name.clone(),
+            what: format!(
+                "its steps ({}) do not overlap the primary member's ('{p}': {}); members are compared over one storm",
+                words(other),
+                words(primary)
+            ),
+        });
+    }
+    let lacks: Vec<_> = primary
+        .valid_times
+        .iter()
+        .filter(|t| !other.valid_times.contains(t))
+        .copied()
+        .collect();
+    let adds: Vec<_> = other
+        .valid_times
+        .iter()
+        .filter(|t| !primary.valid_times.contains(t))
+        .copied()
+        .collect();
+    let list = |v: &[chrono::DateTime<chrono::Utc>]| match v {
+        [] => "none".to_string(),
+        [t] => format!("1 (valid {})", t.format("%Y-%m-%d %H:%M UTC")),
+        [a, .., b] => format!(
+            "{} (valid {} to {})",
+            v.len(),
+            a.format("%Y-%m-%d %H:%M"),
+            b.format("%Y-%m-%d %H:%M UTC")
+        ),
+    };
+    Ok(Some(format!(
+        "member '{}' has {} steps over {} against the primary member's ('{p}') {} over {}; matched by valid time, it shares {shared} of the primary's steps, lacks {} and adds {}: its totals cover the steps it has, and the spread between members includes the difference in period",
+        m.name,
         other.valid_times.len(),
         words(other),
         primary.valid_times.len(),
-        words(primary)
-    )
+        words(primary),
+        list(&lacks),
+        list(&adds),
+    )))
 }

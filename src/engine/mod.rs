@@ -42,6 +42,7 @@ pub mod error;
 pub mod groups;
 pub mod kernel;
 pub mod moisture;
+pub mod regrid;
 pub mod result;
 pub mod track;
 pub mod warnings;

@@ -254,38 +254,285 @@ fn two_snow_ratio_methods_split_the_spread_and_the_stack_names_every_band() {
     assert!(!out.join("snowfall_member_aligned.tif").exists());
 }
 
+/// Writes the shipped demo's terrain and steps cut to the block of `cols` × `rows` cells from
+/// (`col0`, `row0`), as Float32 (the values read from the demo, bit for bit), into `dir`, its
+/// grid and the demo's track moved `lon_shift` degrees east and its valid times and track
+/// `later_h` hours later.
+fn demo_window(
+    dir: &Path,
+    (col0, row0): (usize, usize),
+    (cols, rows): (usize, usize),
+    lon_shift: f64,
+    later_h: i64,
+) {
+    let later = |t: &str| {
+        (chrono::DateTime::parse_from_rfc3339(t).unwrap() + chrono::Duration::hours(later_h))
+            .with_timezone(&chrono::Utc)
+            .to_rfc3339_opts(chrono::SecondsFormat::Secs, true)
+    };
+    use trackswing::geotiff::{write_cog, BandSpec, CogOptions, SampleEncoding, WriteOptions};
+    std::fs::create_dir_all(dir.join("fields")).unwrap();
+    let g = demo_grid();
+    let mut files = vec![(g.join("terrain.tif"), dir.join("terrain.tif"))];
+    for e in std::fs::read_dir(g.join("fields")).unwrap() {
+        let p = e.unwrap().path();
+        files.push((p.clone(), dir.join("fields").join(p.file_name().unwrap())));
+    }
+    for (from, to) in files {
+        let r = read_geotiff(&from).unwrap();
+        let cut: Vec<Vec<f32>> = r
+            .bands
+            .iter()
+            .map(|b| {
+                (row0..row0 + rows)
+                    .flat_map(|row| b[row * r.width + col0..row * r.width + col0 + cols].to_vec())
+                    .collect()
+            })
+            .collect();
+        let specs: Vec<BandSpec> = cut
+            .iter()
+            .zip(&r.descriptions)
+            .zip(&r.band_metadata)
+            .map(|((data, d), m)| BandSpec {
+                data,
+                description: d.clone(),
+                metadata: m.clone(),
+            })
+            .collect();
+        let mut georef = r.georef;
+        let gt = &mut georef.geotransform;
+        gt[0] += col0 as f64 * gt[1] + lon_shift;
+        gt[3] += row0 as f64 * gt[5];
+        let opts = WriteOptions {
+            encoding: SampleEncoding::Float32,
+            nodata: -9999.0,
+            dataset_metadata: r
+                .dataset_metadata
+                .iter()
+                .map(|(k, v)| match k.as_str() {
+                    "valid_time" => (k.clone(), later(v)),
+                    _ => (k.clone(), v.clone()),
+                })
+                .collect(),
+            band_scaling: vec![],
+        };
+        write_cog(
+            &to,
+            cols,
+            rows,
+            &georef,
+            &specs,
+            &opts,
+            &CogOptions::default(),
+        )
+        .unwrap();
+    }
+    let track = std::fs::read_to_string(g.join("track.csv")).unwrap();
+    let mut lines = track.lines();
+    let mut moved = format!("{}\n", lines.next().unwrap());
+    for l in lines {
+        let f: Vec<&str> = l.split(',').collect();
+        let lon: f64 = f[2].parse().unwrap();
+        moved.push_str(&format!(
+            "{},{},{:.4},{}\n",
+            later(f[0]),
+            f[1],
+            lon + lon_shift,
+            f[3]
+        ));
+    }
+    std::fs::write(dir.join("track.csv"), moved).unwrap();
+}
+
+/// A `[[member]]` table reading a demo-like folder.
+fn member_table(name: &str, dir: &Path) -> String {
+    format!(
+        "[[member]]\nname = \"{name}\"\nterrain = \"{0}/terrain.tif\"\nsteps = \"{0}/fields/step_*.tif\"\ntrack = \"{0}/track.csv\"\n",
+        dir.display()
+    )
+}
+
+/// The demo case of member `a` (the shipped demo) and the members given, with `extra` before
+/// `[offsets]`.
+fn case_with(dir: &Path, members: &[(&str, &Path)], extra: &str) -> PathBuf {
+    let p = case(dir, &["a"], "fixed");
+    let tables: String = members.iter().map(|(n, d)| member_table(n, d)).collect();
+    let text = std::fs::read_to_string(&p)
+        .unwrap()
+        .replace("[offsets]", &format!("{tables}{extra}[offsets]"));
+    std::fs::write(&p, text).unwrap();
+    p
+}
+
+fn manifest_warnings(out: &Path) -> Vec<String> {
+    let m: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.join("manifest.json")).unwrap()).unwrap();
+    m["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|w| w.as_str().unwrap().to_string())
+        .collect()
+}
+
 #[test]
-fn a_member_on_another_grid_is_refused_by_name() {
+fn a_member_on_a_window_of_the_grid_matches_the_same_member_on_the_output_grid() {
+    // The same model run cut to a block 10 columns east and 8 rows south of the output grid's
+    // corner: resampled onto the output grid, each output cell lies in one of its cells, so
+    // away from its edges it must give what the whole grid gives (the same computation on the
+    // same values; only the cells' coordinates are rounded differently, hence the tolerance).
     let d = tempfile::tempdir().unwrap();
-    let small = d.path().join("small");
+    let w = d.path().join("window");
+    let (c0, r0, cols, rows) = (10, 8, 100, 80);
+    demo_window(&w, (c0, r0), (cols, rows), 0.0, 0);
+    let out = d.path().join("out");
+    run(&case_with(d.path(), &[("w", &w)], ""), &out);
+    let stack = read_geotiff(&out.join("snowfall_by_member_scenario.tif")).unwrap();
+    let nx = stack.width;
+    // 2 members × 5 cross-track offsets of up to 40 km (3 to 4 cells); 8 cells keep every
+    // source point of a shifted scenario inside the block.
+    assert_eq!(stack.bands.len(), 10);
+    let margin = 8;
+    let (mut compared, mut outside) = (0, 0);
+    for k in 0..5 {
+        let (a, b) = (&stack.bands[k], &stack.bands[5 + k]);
+        for i in 0..a.len() {
+            let (col, row) = (i % nx, i / nx);
+            let in_block = (c0..c0 + cols).contains(&col) && (r0..r0 + rows).contains(&row);
+            if !in_block {
+                assert!(
+                    b[i].is_nan(),
+                    "scenario {k}, cell {i} outside the block: {}",
+                    b[i]
+                );
+                outside += 1;
+            } else if (c0 + margin..c0 + cols - margin).contains(&col)
+                && (r0 + margin..r0 + rows - margin).contains(&row)
+                && !a[i].is_nan()
+            {
+                assert!(
+                    (a[i] - b[i]).abs() <= 1e-4 * a[i].abs().max(1.0),
+                    "scenario {k}, cell {i}: {} against {}",
+                    b[i],
+                    a[i]
+                );
+                compared += 1;
+            }
+        }
+    }
+    assert!(compared > 5 * 5000, "{compared} cells compared");
+    assert_eq!(outside, 5 * (128 * 104 - cols * rows));
+    let warnings = manifest_warnings(&out);
+    assert!(
+        warnings
+            .iter()
+            .any(|w| w.contains("member 'w' is on another grid")
+                && w.contains(&format!(
+                    "it covers {} of the {} output cells",
+                    cols * rows,
+                    128 * 104
+                ))),
+        "{warnings:?}"
+    );
+}
+
+#[test]
+fn a_member_on_a_coarser_grid_runs_and_its_precipitation_is_conserved() {
+    // The demo storm on 64 × 52 cells over the same region: each cell holds 2 × 2 of the output
+    // grid's. The area-integral of its precipitation on the output grid must be its own within
+    // the remap's stated tolerance (the integral of a field does not depend on the grid it is
+    // on: mathematical fact).
+    use trackswing::case::{Case, Overrides};
+    use trackswing::engine::regrid::CONSERVATION_TOLERANCE;
+    let d = tempfile::tempdir().unwrap();
+    let coarse = d.path().join("coarse");
     let o = bin()
-        .args([
-            "make-demo",
-            "--nx",
-            "40",
-            "--ny",
-            "30",
-            "--steps",
-            "3",
-            "--out",
-        ])
-        .arg(&small)
+        .args(["make-demo", "--nx", "64", "--ny", "52", "--out"])
+        .arg(&coarse)
         .output()
         .unwrap();
     assert!(o.status.success());
-    let p = case(d.path(), &["a"], "max-column-temperature");
+    let p = case_with(d.path(), &[("coarse", &coarse)], "");
+    let case = Case::load(&p, &Overrides::default()).unwrap();
+    let quiet = trackswing::progress::Silent;
+    let own = trackswing::engine::run(&case.group(1, 0), 1, &quiet).unwrap();
+    let e = trackswing::engine::run_groups(&case, 1, &quiet).unwrap();
+    let on_output = &e.groups[1].run;
+    assert_eq!(on_output.grid.len(), 128 * 104);
+    let integral = |g: &trackswing::grid::Grid, v: &[f32]| -> f64 {
+        v.iter()
+            .enumerate()
+            .map(|(i, x)| *x as f64 * g.cell_area_km2(i))
+            .sum()
+    };
+    let mut checked = 0;
+    for (s, (a, b)) in own.totals.iter().zip(&on_output.totals).enumerate() {
+        for (what, x, y) in [
+            ("liquid", &a.liquid, &b.liquid),
+            ("snowfall", &a.snowfall, &b.snowfall),
+        ] {
+            if x.iter().any(|v| v.is_nan()) {
+                continue;
+            }
+            let (ia, ib) = (integral(&own.grid, x), integral(&on_output.grid, y));
+            let err = (ib - ia).abs() / ia;
+            assert!(
+                err < CONSERVATION_TOLERANCE,
+                "scenario {s}, {what}: {ib} against {ia} ({err:.2e})"
+            );
+            checked += 1;
+        }
+    }
+    assert!(checked >= 2, "{checked} fields compared");
+    assert!(
+        on_output
+            .warnings
+            .iter()
+            .any(|w| w.contains("covers every output cell")),
+        "{:?}",
+        on_output.warnings
+    );
+}
+
+#[test]
+fn members_are_matched_by_valid_time_and_one_of_another_storm_is_refused() {
+    let d = tempfile::tempdir().unwrap();
+    // The demo's first 20 of 25 steps: it covers what it has, and the run says so.
+    let g = demo_grid();
+    let steps: Vec<String> = (0..20)
+        .map(|k| {
+            format!(
+                "\"{}\"",
+                g.join(format!("fields/step_{k:03}.tif")).display()
+            )
+        })
+        .collect();
+    let p = case_with(d.path(), &[], "");
     let text = std::fs::read_to_string(&p).unwrap().replace(
         "[offsets]",
         &format!(
-            "[[member]]\nname = \"coarse\"\nterrain = \"{0}/terrain.tif\"\nsteps = \"{0}/fields/step_*.tif\"\ntrack = \"{0}/track.csv\"\n[offsets]",
-            small.display()
+            "[[member]]\nname = \"short\"\nterrain = \"{}\"\nsteps = [{}]\ntrack = \"{}\"\n[offsets]",
+            g.join("terrain.tif").display(),
+            steps.join(", "),
+            g.join("track.csv").display()
         ),
     );
     std::fs::write(&p, text).unwrap();
     let out = d.path().join("out");
+    run(&p, &out);
+    let warnings = manifest_warnings(&out);
+    assert!(
+        warnings.iter().any(|w| w.contains("member 'short' has 20 steps")
+            && w.contains("it shares 20 of the primary's steps, lacks 5 (valid 2026-01-15 04:00 to 2026-01-15 12:00 UTC) and adds none")),
+        "{warnings:?}"
+    );
+    // The same fields 100 hours later (the demo spans 48): no step in common, refused.
+    let later = d.path().join("later");
+    demo_window(&later, (0, 0), (128, 104), 0.0, 100);
+    let out = d.path().join("out-later");
     let o = bin()
         .arg("run")
-        .arg(&p)
+        .arg(case_with(d.path(), &[("later", &later)], ""))
         .arg("--out")
         .arg(&out)
         .arg("--quiet")
@@ -294,10 +541,46 @@ fn a_member_on_another_grid_is_refused_by_name() {
     let e = String::from_utf8_lossy(&o.stderr);
     assert_eq!(o.status.code(), Some(3), "{e}");
     assert!(
-        e.contains("member 'coarse'") && e.contains("40×30 cells") && e.contains("one grid"),
+        e.contains("member 'later'") && e.contains("do not overlap the primary member's"),
         "{e}"
     );
     assert!(!out.exists(), "nothing is written");
+}
+
+#[test]
+fn members_whose_grids_do_not_meet_and_an_unknown_output_grid_are_refused() {
+    let d = tempfile::tempdir().unwrap();
+    let far = d.path().join("far");
+    demo_window(&far, (0, 0), (128, 104), 60.0, 0);
+    let out = d.path().join("out");
+    let refused = |p: &Path, words: &[&str]| {
+        let o = bin()
+            .arg("run")
+            .arg(p)
+            .arg("--out")
+            .arg(&out)
+            .arg("--quiet")
+            .output()
+            .unwrap();
+        let e = String::from_utf8_lossy(&o.stderr);
+        assert_eq!(o.status.code(), Some(3), "{e}");
+        for w in words {
+            assert!(e.contains(w), "{w}: {e}");
+        }
+        assert!(!out.exists(), "nothing is written");
+    };
+    refused(
+        &case_with(d.path(), &[("far", &far)], ""),
+        &[
+            "member 'far'",
+            "holds no cell of the output grid",
+            "128×104 cells",
+        ],
+    );
+    refused(
+        &case_with(d.path(), &[("far", &far)], "[output]\ngrid = \"near\"\n"),
+        &["'output.grid'", "'near' names no member", "'a', 'far'"],
+    );
 }
 
 #[test]

@@ -263,3 +263,108 @@ fn a_shard_never_replaces_a_file_it_did_not_write() {
     let left: Vec<_> = std::fs::read_dir(&folder).unwrap().collect();
     assert_eq!(left.len(), 1, "no partial file left behind");
 }
+
+/// A case of two members (the demo's files under two names, the second's weight 3) with two
+/// snow-ratio methods: 4 member × method parts of 5 offsets each.
+fn members_case(dir: &Path) -> PathBuf {
+    let g = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-grid");
+    let mut text = format!(
+        "title = \"two names for one model run (invented demo storm)\"\ntowns = \"{}\"\n",
+        g.join("towns.csv").display()
+    );
+    for (name, weight) in [("a", 1), ("b", 3)] {
+        text.push_str(&format!(
+            "[[member]]\nname = \"{name}\"\nweight = {weight}\nterrain = \"{}\"\nsteps = \"{}\"\ntrack = \"{}\"\n",
+            g.join("terrain.tif").display(),
+            g.join("fields/step_*.tif").display(),
+            g.join("track.csv").display()
+        ));
+    }
+    text.push_str("[offsets]\ncross_km = \"-40:40:20\"\nalong_km = \"0\"\n[methods]\nsnow_ratio = \"max-column-temperature,growth-zone\"\n");
+    let p = dir.join("members.toml");
+    std::fs::write(&p, text).unwrap();
+    p
+}
+
+#[test]
+fn a_several_member_case_merges_from_shards_by_member_and_method() {
+    let d = tempfile::tempdir().unwrap();
+    let case = members_case(d.path());
+    let args = |verb: &str, out: &Path, more: &[&str]| -> Vec<String> {
+        let mut v = vec![
+            verb.to_string(),
+            case.display().to_string(),
+            "--out".into(),
+            out.display().to_string(),
+            "--quiet".into(),
+        ];
+        v.extend(more.iter().map(|a| a.to_string()));
+        v
+    };
+    let whole = d.path().join("whole");
+    run_ok(&args("run", &whole, &[]), &[]);
+    // 3 shards for 4 parts: whole parts (1 and 4, 2, 3); 7 shards: parts 1–3 split in two,
+    // part 4 alone.
+    for (n, files) in [(3, 4), (7, 7)] {
+        let split = d.path().join(format!("split{n}"));
+        for k in 1..=n {
+            run_ok(&args("run", &split, &["--shard", &format!("{k}/{n}")]), &[]);
+        }
+        let folder = d.path().join(format!("split{n}.shards"));
+        let mut names: Vec<String> = std::fs::read_dir(&folder)
+            .unwrap()
+            .map(|e| e.unwrap().file_name().into_string().unwrap())
+            .collect();
+        names.sort();
+        assert_eq!(names.len(), files, "{names:?}");
+        if n == 3 {
+            assert_eq!(
+                names,
+                [
+                    "shard-1-of-3-group-1.bin",
+                    "shard-1-of-3-group-4.bin",
+                    "shard-2-of-3-group-2.bin",
+                    "shard-3-of-3-group-3.bin"
+                ]
+            );
+        }
+        run_ok(&args("merge", &split, &[]), &[]);
+        let mut compared = 0;
+        for e in std::fs::read_dir(&whole).unwrap() {
+            let name = e.unwrap().file_name();
+            let (a, b) = (whole.join(&name), split.join(&name));
+            if name == "manifest.json" {
+                assert_eq!(
+                    manifest_without_run_facts(&a),
+                    manifest_without_run_facts(&b)
+                );
+                let m: serde_json::Value =
+                    serde_json::from_str(&std::fs::read_to_string(&b).unwrap()).unwrap();
+                assert_eq!(m["merged_from_shards"].as_array().unwrap().len(), files);
+            } else {
+                assert!(
+                    std::fs::read(&a).unwrap() == std::fs::read(&b).unwrap(),
+                    "{} differs between the run in one piece and {n} merged shards",
+                    name.to_string_lossy()
+                );
+            }
+            compared += 1;
+        }
+        assert!(compared > 30, "{compared} files");
+    }
+    // A merge missing one part's files says which member and methods are missing.
+    let folder = d.path().join("split3.shards");
+    let err = run_fails(
+        &args("merge", &d.path().join("partial"), &["--shards"]),
+        &[
+            &folder.join("shard-1-of-3-group-1.bin"),
+            &folder.join("shard-1-of-3-group-4.bin"),
+            &folder.join("shard-3-of-3-group-3.bin"),
+        ],
+        3,
+    );
+    assert!(
+        err.contains("member 'a'") && err.contains("growth-zone"),
+        "{err}"
+    );
+}

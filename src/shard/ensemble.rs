@@ -23,13 +23,15 @@ use std::path::{Path, PathBuf};
 ///
 /// ```
 /// use trackswing::shard::{ensemble::group_part, Shard};
-/// // 2 shards, 6 groups: shard 1 runs groups 0, 2, 4 whole.
+/// // 2 shards, 6 groups: shard 1 (index 0) runs groups 0, 2, 4 whole.
 /// let s = Shard { index: 0, count: 2 };
 /// assert_eq!(group_part(s, 2, 6), Some(Shard { index: 0, count: 1 }));
 /// assert_eq!(group_part(s, 1, 6), None);
-/// // 8 shards, 3 groups: group 1 is served by shards 2, 5 (index 1, 4) and split in two.
+/// // 8 shards, 3 groups: group 1 is served by shards 2, 5 and 8 (index 1, 4, 7), split in
+/// // three; shard 5 runs the second part of it.
 /// let s = Shard { index: 4, count: 8 };
-/// assert_eq!(group_part(s, 1, 3), Some(Shard { index: 1, count: 2 }));
+/// assert_eq!(group_part(s, 1, 3), Some(Shard { index: 1, count: 3 }));
+/// assert_eq!(group_part(s, 0, 3), None);
 /// ```
 pub fn group_part(shard: Shard, g: usize, groups: usize) -> Option<Shard> {
     let (k, n) = (shard.index, shard.count);

@@ -744,7 +744,11 @@ pub fn write_maps(
     let range = snow_range_mm.map(to_unit);
     let mut specs = vec![MapSpec {
         file: "map_baseline.png",
-        title: "Snowfall as modelled".into(),
+        title: if ctx.groups.is_some() {
+            "Snowfall as the first member models it (first methods)".into()
+        } else {
+            "Snowfall as modelled".into()
+        },
         legend_title: format!("Total snowfall ({su}), track as modelled"),
         field: &baseline,
         classes: legend::snow_classes(ctx.snow_thresholds, su),
@@ -756,8 +760,16 @@ pub fn write_maps(
     if let Some(p90) = &p90 {
         specs.push(MapSpec {
             file: "map_p90.png",
-            title: legend::P90_TITLE.into(),
-            legend_title: format!("P90 snowfall ({su}): {}", legend::P90_MEANING),
+            title: if ctx.groups.is_some() {
+                "P90 snowfall over every member, method and track offset".into()
+            } else {
+                legend::P90_TITLE.into()
+            },
+            legend_title: if ctx.groups.is_some() {
+                format!("P90 snowfall ({su}): 1 in 10 outcomes, by blended weight, gives more")
+            } else {
+                format!("P90 snowfall ({su}): {}", legend::P90_MEANING)
+            },
             field: p90,
             classes: legend::snow_classes(ctx.snow_thresholds, su),
             nearest_only: false,

@@ -17,6 +17,7 @@ pub mod polygons;
 pub mod raster_type;
 pub mod rasters;
 pub mod report;
+pub mod report_members;
 pub mod towns;
 pub mod zones;
 

@@ -86,7 +86,7 @@ fn read(path: &Path) -> Result<Vec<u8>, ReportError> {
     })
 }
 
-fn text_of(v: &Value) -> String {
+pub(super) fn text_of(v: &Value) -> String {
     match v {
         Value::String(s) => s.clone(),
         Value::Null => String::new(),
@@ -120,17 +120,31 @@ fn key_numbers(dir: &Path, su: &str) -> Result<Vec<(String, String)>, ReportErro
             .fold(f32::NAN, |a, b| if a.is_nan() { *b } else { a.max(*b) })
     };
     let mut out = Vec::new();
-    let p90_words = format!(
-        "Largest P90 snowfall ({})",
-        crate::render::legend::P90_MEANING
-    );
-    for (file, words) in [
-        ("snowfall_baseline.tif", "Largest snowfall as modelled"),
-        ("snowfall_p90.tif", p90_words.as_str()),
+    // A several-member case (it writes the spread layers) blends its summaries.
+    let blended = dir.join("snowfall_spread.tif").is_file();
+    let p90_words = if blended {
+        "Largest P90 snowfall over every member, method and track offset (1 in 10 outcomes, by blended weight, gives more)".to_string()
+    } else {
+        format!(
+            "Largest P90 snowfall ({})",
+            crate::render::legend::P90_MEANING
+        )
+    };
+    let (baseline_words, swing_words) = if blended {
         (
-            "snowfall_range.tif",
+            "Largest snowfall as the first member models it",
+            "Largest swing of snowfall over every member, method and track offset",
+        )
+    } else {
+        (
+            "Largest snowfall as modelled",
             "Largest swing of snowfall over the track offsets",
-        ),
+        )
+    };
+    for (file, words) in [
+        ("snowfall_baseline.tif", baseline_words),
+        ("snowfall_p90.tif", p90_words.as_str()),
+        ("snowfall_range.tif", swing_words),
     ] {
         // A layer the run could not compute is listed under "Not computed", not shown as 0.
         if !dir.join(file).is_file() {
@@ -166,7 +180,7 @@ fn key_numbers(dir: &Path, su: &str) -> Result<Vec<(String, String)>, ReportErro
     Ok(out)
 }
 
-fn table(head: &[String], rows: &[Vec<String>], id: &str, sortable: bool) -> String {
+pub(super) fn table(head: &[String], rows: &[Vec<String>], id: &str, sortable: bool) -> String {
     let mut h = String::new();
     let class = if sortable { " class=\"sortable\"" } else { "" };
     let _ = write!(h, "<table id=\"{id}\"{class}><thead><tr>");
@@ -497,11 +511,19 @@ pub fn write_report(dir: &Path) -> Result<PathBuf, ReportError> {
     }
 
     h.push_str("<section><h2>Maps</h2>\n");
+    // A several-member case (it writes the spread layers) blends P90 and range.
+    let blended = dir.join("snowfall_spread.tif").is_file();
     for (file, caption) in MAPS {
         let p = dir.join(file);
         if !p.is_file() {
             continue;
         }
+        let caption = match file {
+            "map_baseline.png" if blended => "Snowfall as the first member models it, with the rain–snow line of every track offset (bold: as modelled).",
+            "map_p90.png" if blended => "P90 snowfall over every member, method and track offset: 1 in 10 outcomes, by blended weight, gives more.",
+            "map_range.png" if blended => "Largest minus smallest snowfall over every member, method and track offset.",
+            _ => caption,
+        };
         let caption = if period.is_empty() {
             caption.to_string()
         } else {
@@ -517,6 +539,9 @@ pub fn write_report(dir: &Path) -> Result<PathBuf, ReportError> {
     }
     h.push_str("</section>\n");
 
+    if let Some(section) = super::report_members::members_section(&m) {
+        h.push_str(&section);
+    }
     h.push_str("<section><h2>Track offsets (scenarios)</h2><p class=\"note\">Cross-track offsets are positive to the left of the storm's motion, along-track offsets positive ahead of it. Weights are the track-error prior, normalised to add up to 1.</p>\n");
     let scen = field("scenarios")?
         .as_array()

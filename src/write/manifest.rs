@@ -103,6 +103,9 @@ pub struct About<'a> {
     pub weights: &'a [f64],
     /// The members aligned on their weighted mean track, when they are.
     pub alignment: Option<&'a crate::engine::align::Alignment>,
+    /// Each member's model reference time (its cycle), when its files say; empty for a run of
+    /// one member.
+    pub references: Vec<Option<chrono::DateTime<chrono::Utc>>>,
 }
 
 #[derive(Serialize)]
@@ -333,8 +336,9 @@ pub fn write_manifest(
         ensemble: case.is_ensemble().then(|| {
             let sum: f64 = case.inputs.members.iter().map(|m| m.weight).sum();
             serde_json::json!({
-                "members": case.inputs.members.iter().map(|m| serde_json::json!({
+                "members": case.inputs.members.iter().enumerate().map(|(k, m)| serde_json::json!({
                     "name": m.name,
+                    "reference_utc": about.references.get(k).copied().flatten().map(|t| t.to_rfc3339_opts(chrono::SecondsFormat::Secs, true)),
                     "weight": m.weight / sum,
                     "track": m.track.as_ref().map(|t| t.display().to_string())
                         .or_else(|| m.find_track.then(|| "found from sea-level pressure".to_string())),

@@ -444,6 +444,11 @@ fn write_set(
         period: sum.period.as_ref(),
         weights: &sum.weights,
         alignment: ensemble.and_then(|e| e.alignment.as_ref().ok()),
+        references: ensemble.map_or_else(Vec::new, |e| {
+            (0..e.members())
+                .map(|m| e.as_issued(m).and_then(|r| r.reference))
+                .collect()
+        }),
     };
     manifest::write_manifest(dir, case, r, &files, &about)?;
     let mut all = files;

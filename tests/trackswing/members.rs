@@ -941,4 +941,16 @@ fn successive_cycles_give_the_run_to_run_change_in_time_order() {
         }
     }
     assert!(checked >= 3, "{checked} towns with a change");
+    // The manifest gives each member's cycle (GRIB2 section 1 reference time): 6 h apart.
+    let m: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.join("manifest.json")).unwrap()).unwrap();
+    let cycle = |k: usize| {
+        chrono::DateTime::parse_from_rfc3339(
+            m["ensemble"]["members"][k]["reference_utc"]
+                .as_str()
+                .unwrap(),
+        )
+        .unwrap()
+    };
+    assert_eq!(cycle(0) - cycle(1), chrono::Duration::hours(6));
 }

@@ -706,11 +706,18 @@ pub fn write_maps(
         towns: ranked_towns,
         subtitle: match ctx.groups {
             // A several-member case: the subtitle counts every group's scenarios.
-            Some((members, methods)) => format!(
-                "{} · {members} members × {methods} method combinations × {} track offsets",
-                ctx.title,
-                r.scenarios.len()
-            ),
+            Some((members, methods)) => {
+                let n = |k: usize, one: &str, many: &str| {
+                    format!("{k} {}", if k == 1 { one } else { many })
+                };
+                format!(
+                    "{} · {} × {} × {}",
+                    ctx.title,
+                    n(members, "member", "members"),
+                    n(methods, "method combination", "method combinations"),
+                    n(r.scenarios.len(), "track offset", "track offsets")
+                )
+            }
             None => format!("{} · {} track offsets", ctx.title, r.scenarios.len()),
         },
         notes: vec![
@@ -781,7 +788,11 @@ pub fn write_maps(
     if let Some(range) = &range {
         specs.push(MapSpec {
             file: "map_range.png",
-            title: "How much the snowfall depends on the track".into(),
+            title: if ctx.groups.is_some() {
+                "How much the snowfall varies over members, methods and track offsets".into()
+            } else {
+                "How much the snowfall depends on the track".into()
+            },
             legend_title: format!("Largest minus smallest snowfall over the scenarios ({su})"),
             field: range,
             classes: legend::spread_classes(ctx.snow_thresholds, su),

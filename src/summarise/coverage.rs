@@ -149,13 +149,19 @@ impl PriorCoverage {
     /// The warning for the run's list, in shares of the map's cells; `None` when every cell
     /// with data has the whole prior.
     pub fn warning(&self) -> Option<String> {
+        self.warning_of("the track-error prior", "the prior's weight")
+    }
+
+    /// [`PriorCoverage::warning`] for summaries weighted by `prior`, whose weight is called
+    /// `weight` (in a several-member case, the blend: member × method × track-error prior).
+    pub fn warning_of(&self, prior: &str, weight: &str) -> Option<String> {
         let c = self.counts();
         if c.partial == 0 && c.short == 0 {
             return None;
         }
         let pct = |k: usize| 100.0 * k as f64 / c.cells.max(1) as f64;
         Some(format!(
-            "some scenarios have no total near the grid edge (their shifted source points left the grid): {:.1} % of the map's cells ({}) are summarised from part of the track-error prior (weights renormalised, see prior_coverage.tif) and {:.1} % ({}) are nodata in the weighted mean, percentiles, probabilities and min/max/range because under {} of the prior's weight has data there (--min-coverage)",
+            "some scenarios have no total near the grid edge (their shifted source points left the grid): {:.1} % of the map's cells ({}) are summarised from part of {prior} (weights renormalised, see prior_coverage.tif) and {:.1} % ({}) are nodata in the weighted mean, percentiles, probabilities and min/max/range because under {} of {weight} has data there (--min-coverage)",
             pct(c.partial),
             c.partial,
             pct(c.short),

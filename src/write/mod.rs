@@ -298,7 +298,14 @@ fn write_set_of(
     let staging = folder::Staging::begin(&case.output.out_dir, &case.inputs(), case.force)?;
     let mut warnings = r.warnings.clone();
     if sum.scope.track() {
-        warnings.extend(sum.coverage.warning());
+        warnings.extend(if sum.names.is_pooled() {
+            sum.coverage.warning_of(
+                "the blend of members, methods and the track-error prior",
+                "the blended weight",
+            )
+        } else {
+            sum.coverage.warning()
+        });
     }
     let carried = staging.carried();
     if !carried.is_empty() {

@@ -157,6 +157,62 @@ pub fn spread_classes(thresholds: &[f64], unit: &str) -> Classes {
     amount_classes(thresholds, unit, &ramp::spread())
 }
 
+/// Liquid amounts (precipitation, ice accretion, water lost to dry air) on the run's ice
+/// thresholds, in the liquid unit.
+pub fn liquid_classes(thresholds: &[f64], unit: &str) -> Classes {
+    amount_classes(thresholds, unit, &ramp::liquid())
+}
+
+/// Shares and probabilities (0–1): under 10 %, then steps of 20 % to 90 % and over.
+pub fn share_classes() -> Classes {
+    let bounds = vec![0.1, 0.3, 0.5, 0.7, 0.9];
+    let mut labels = vec!["under 10 %".to_string()];
+    for w in bounds.windows(2) {
+        labels.push(format!("{:.0} – {:.0} %", w[0] * 100.0, w[1] * 100.0));
+    }
+    labels.push("90 % or more".into());
+    Classes {
+        colours: ramp::share().classes(labels.len()),
+        bounds,
+        labels,
+        upper_inclusive: false,
+    }
+}
+
+/// Changes per distance (the sensitivities, `unit` e.g. `cm per 50 km`): less and more on the
+/// first four snowfall thresholds each way, around a neutral class for smaller changes.
+pub fn change_classes(thresholds: &[f64], unit: &str) -> Classes {
+    let steps: Vec<f64> = thresholds.iter().take(4).copied().collect();
+    let mut bounds: Vec<f64> = steps.iter().rev().map(|t| -t).collect();
+    bounds.extend(steps.iter().copied());
+    let t = |v: f64| threshold_text((v * 100.0).round() / 100.0);
+    let mut labels = vec![format!("less by {} {unit} or more", t(-bounds[0]))];
+    for w in bounds.windows(2) {
+        labels.push(if w[0] < 0.0 && w[1] > 0.0 {
+            format!("within ±{} {unit}", t(w[1]))
+        } else if w[1] <= 0.0 {
+            format!("less by {} – {} {unit}", t(-w[1]), t(-w[0]))
+        } else {
+            format!("more by {} – {} {unit}", t(w[0]), t(w[1]))
+        });
+    }
+    labels.push(format!(
+        "more by {} {unit} or more",
+        t(*bounds.last().expect("not empty"))
+    ));
+    let k = steps.len();
+    // Less: the flip ramp from dark to light; more: the snow ramp from light to dark.
+    let mut colours: Vec<Rgb> = ramp::flip().classes(k + 1).into_iter().take(k).collect();
+    colours.push([236, 236, 232]);
+    colours.extend(ramp::snow().classes(k + 1).into_iter().skip(1));
+    Classes {
+        colours,
+        bounds,
+        labels,
+        upper_inclusive: false,
+    }
+}
+
 /// Flip-distance classes: steps of 25, 50 or 100 km up to the farthest offset.
 pub fn distance_classes(max_km: f64, units: Units) -> Classes {
     let step = if max_km <= 150.0 {

@@ -169,6 +169,29 @@ pub fn flip() -> Ramp {
     ])
 }
 
+/// Liquid amounts: pale aqua through teal to deep blue-green (lightness 0.96 → 0.32).
+pub fn liquid() -> Ramp {
+    Ramp::from_lch(&[
+        (0.96, 0.02, 190.0),
+        (0.84, 0.06, 185.0),
+        (0.70, 0.09, 190.0),
+        (0.56, 0.10, 200.0),
+        (0.43, 0.09, 215.0),
+        (0.32, 0.07, 230.0),
+    ])
+}
+
+/// Shares and probabilities: pale grey-green to deep green (lightness 0.96 → 0.35).
+pub fn share() -> Ramp {
+    Ramp::from_lch(&[
+        (0.96, 0.01, 130.0),
+        (0.82, 0.07, 135.0),
+        (0.66, 0.11, 145.0),
+        (0.50, 0.11, 155.0),
+        (0.35, 0.08, 165.0),
+    ])
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -289,6 +289,7 @@ pub fn write_towns_bust(
             units: format!("snowfall in {su}, ice in {}, offsets in km, probabilities 0–1", units.liquid_unit()),
             description: "Bust-prone towns, ranked by bust score (P90 − P10 over the baseline, the baseline floored at 5 cm): weighted percentiles, flip distance and direction, sensitivity, and a sentence in plain words".into(),
             bands: Vec::new(),
+            sha256: None,
         },
         Written {
             file: "towns_bust.geojson".into(),
@@ -296,6 +297,7 @@ pub fn write_towns_bust(
             units: format!("snowfall in {su}"),
             description: "The bust-prone towns as points with the same values as towns_bust.csv".into(),
             bands: Vec::new(),
+            sha256: None,
         },
     ])
 }

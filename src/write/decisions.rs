@@ -80,6 +80,7 @@ pub(super) fn write_bands(
         units: units.into(),
         description: description.into(),
         bands: bands.into_iter().map(|b| b.description).collect(),
+        sha256: None,
     })
 }
 

@@ -57,11 +57,26 @@ fn written_by_trackswing(dir: &Path) -> Option<Vec<String>> {
         .ok()
         .and_then(|t| serde_json::from_str::<serde_json::Value>(&t).ok())
         .filter(|v| v.get("trackswing_version").is_some())?;
+    // A file listed with its SHA-256 (the styles, which users edit) is ours only while it has
+    // the bytes we wrote: edited, it is the user's and is kept.
+    let unchanged = |x: &serde_json::Value, name: &str| {
+        x["sha256"].as_str().is_none_or(|want| {
+            std::fs::read(dir.join(name)).is_ok_and(|b| {
+                use sha2::Digest;
+                format!("{:x}", sha2::Sha256::digest(&b)) == want
+            })
+        })
+    };
     let mut ours: Vec<String> = v["files"]
         .as_array()
         .map(|f| {
             f.iter()
-                .filter_map(|x| x["file"].as_str().map(String::from))
+                .filter_map(|x| {
+                    x["file"]
+                        .as_str()
+                        .filter(|name| unchanged(x, name))
+                        .map(String::from)
+                })
                 .collect()
         })
         .unwrap_or_default();

@@ -80,5 +80,6 @@ pub fn write_snowfall_bands(
                 .join(", ")
         ),
         bands: Vec::new(),
+        sha256: None,
     })
 }

@@ -148,6 +148,7 @@ pub fn write_rain_snow_lines(
         units: "degrees (WGS 84 lon/lat)".into(),
         description: "Rain–snow line of every scenario: where 50 % of the storm's liquid falls as snow; one feature per track offset".into(),
         bands: Vec::new(),
+        sha256: None,
     })
 }
 

@@ -60,6 +60,9 @@ struct FileEntry<'a> {
     raster: Option<serde_json::Value>,
     #[serde(skip_serializing_if = "Vec::is_empty")]
     bands: Vec<BandEntry>,
+    /// SHA-256 of a file users edit (the styles): a re-run replaces it only while unchanged.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    sha256: Option<&'a str>,
 }
 
 #[derive(Serialize)]
@@ -281,6 +284,7 @@ pub fn write_manifest(
                 crs: if is_raster { grid_crs() } else { lonlat() },
                 raster: is_raster.then(|| raster.clone()),
                 bands,
+                sha256: f.sha256.as_deref(),
             }
         })
         .collect();

@@ -858,6 +858,7 @@ pub fn write_maps(
                 spec.title, overlay.subtitle, spec.unit_words, ctx.period
             ),
             bands: Vec::new(),
+            sha256: None,
         });
     }
     Ok(out)

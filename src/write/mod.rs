@@ -18,6 +18,7 @@ pub mod raster_type;
 pub mod rasters;
 pub mod report;
 pub mod report_members;
+pub mod styles;
 pub mod towns;
 pub mod zones;
 
@@ -70,6 +71,8 @@ pub enum Kind {
     Image,
     /// The self-contained HTML report.
     Report,
+    /// A GIS style for a raster (QGIS `.qml`, OGC `.sld`).
+    Style,
 }
 
 /// One written file, for the manifest.
@@ -86,6 +89,10 @@ pub struct Written {
     /// Band descriptions for multi-band rasters.
     #[serde(skip_serializing_if = "Vec::is_empty")]
     pub bands: Vec<String>,
+    /// SHA-256 of the bytes written, for files users edit (the styles): a re-run replaces the
+    /// file only while it still has these bytes.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub sha256: Option<String>,
 }
 
 /// Writes `bytes` (produced by `fill`) to `dir/name` atomically: a temporary file in the same
@@ -326,7 +333,17 @@ fn write_set_of(
             }
         ));
     }
-    match write_set(staging.dir(), case, r, sum, ensemble, &warnings) {
+    let theirs: Vec<String> = carried
+        .iter()
+        .filter_map(|p| p.file_name().map(|n| n.to_string_lossy().into_owned()))
+        .collect();
+    match write_set(
+        staging.dir(),
+        case,
+        (r, sum, ensemble),
+        &theirs,
+        &mut warnings,
+    ) {
         Ok((files, not_computed)) => {
             staging.commit()?;
             Ok(Outcome {
@@ -342,13 +359,19 @@ fn write_set_of(
     }
 }
 
+/// What a run computed: its primary run, its summary and, for several members, the ensemble.
+type Computed<'a> = (
+    &'a crate::engine::RunResult,
+    &'a Summary,
+    Option<&'a crate::engine::Ensemble>,
+);
+
 fn write_set(
     dir: &Path,
     case: &crate::case::Case,
-    r: &crate::engine::RunResult,
-    sum: &Summary,
-    ensemble: Option<&crate::engine::Ensemble>,
-    warnings: &[String],
+    (r, sum, ensemble): Computed<'_>,
+    theirs: &[String],
+    warnings: &mut Vec<String>,
 ) -> Result<(Vec<Written>, Vec<NotComputed>), WriteError> {
     let meta = meta(case, sum);
     let settings = rasters::RasterSettings {
@@ -439,6 +462,31 @@ fn write_set(
             }
         }
     }
+    // A QGIS and an SLD style beside every raster, with the maps' classes (a user's own style
+    // of the same name is kept).
+    let (styles, kept) = styles::write_styles(
+        dir,
+        &files,
+        &styles::StyleSettings {
+            units: case.output.units,
+            snow_thresholds: &case.summary.snow_thresholds,
+            ice_thresholds: &case.summary.ice_thresholds,
+            far_km: r
+                .scenarios
+                .iter()
+                .map(|s| s.cross_km.hypot(s.along_km))
+                .fold(0.0, f64::max),
+        },
+        theirs,
+    )?;
+    files.extend(styles);
+    if !kept.is_empty() {
+        warnings.push(format!(
+            "kept your own {} (not written by trackswing) instead of trackswing's style{} of the same name",
+            kept.join(", "),
+            if kept.len() == 1 { "" } else { "s" }
+        ));
+    }
     if case.output.report {
         // Listed now, written right after the manifest it is built from.
         files.push(report::entry());
@@ -465,6 +513,7 @@ fn write_set(
         units: String::new(),
         description: "What was written, from which inputs, with which settings".into(),
         bands: Vec::new(),
+        sha256: None,
     });
     if case.output.report {
         // Part of the set (swapped in with it), built from the files just written.

@@ -156,6 +156,7 @@ pub fn write_rasters(
         units: su.into(),
         description: format!("Total snowfall for every scenario (track offset and any timing, intensity and warm-bias axes), one band per scenario; totals over {period}"),
         bands: bands.iter().map(|b| b.description.clone()).collect(),
+        sha256: None,
     });
 
     let base = &r.totals[r.baseline];
@@ -198,6 +199,7 @@ pub fn write_rasters(
             units: u.to_string(),
             description: description.to_string(),
             bands: Vec::new(),
+            sha256: None,
         });
     }
     Ok(out)

@@ -262,6 +262,7 @@ pub fn entry() -> super::Written {
         units: String::new(),
         description: "Self-contained report: maps, bust-prone towns, scenarios, settings".into(),
         bands: Vec::new(),
+        sha256: None,
     }
 }
 

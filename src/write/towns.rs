@@ -193,6 +193,7 @@ pub fn write_towns(
             units: format!("snowfall in {u}; lat/lon in degrees; fractions 0–1; onset as RFC 3339 UTC times and 1-based step numbers"),
             description: format!("Every town's snowfall for every scenario, with its baseline, smallest, largest and range, and when measurable snow (0.1 mm of liquid in a step) begins in each scenario. {POINT_RULE}"),
             bands: Vec::new(),
+            sha256: None,
         },
         Written {
             file: "towns.geojson".into(),
@@ -200,6 +201,7 @@ pub fn write_towns(
             units: format!("snowfall in {u}"),
             description: format!("Towns as points with the same values as towns.csv. {POINT_RULE}"),
             bands: Vec::new(),
+            sha256: None,
         },
     ])
 }

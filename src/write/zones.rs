@@ -69,6 +69,7 @@ pub fn write_transition_zones(dir: &Path, r: &RunResult) -> Result<Written, Writ
         units: "snow fraction 0.1–0.9 (polygons, WGS 84 lon/lat)".into(),
         description: "Mixed-precipitation zone of every scenario: where 10–90 % of the storm's liquid falls as snow; one feature per track offset".into(),
         bands: Vec::new(),
+        sha256: None,
     })
 }
 
@@ -126,5 +127,6 @@ pub fn write_flip_zone(
         units: "scenario counts (polygons, WGS 84 lon/lat)".into(),
         description: "Where the dominant precipitation type differs between scenarios; one feature per (baseline type, set of types) pattern, with the number of scenarios of each type".into(),
         bands: Vec::new(),
+        sha256: None,
     })
 }

@@ -367,9 +367,44 @@ def check_manifest(out, manifest):
     check(bool(manifest.get("trackswing_version")) and bool(manifest.get("case_file")), "manifest: version and case file")
     check(all(len(i["sha256"]) == 64 for i in manifest["inputs"]), "manifest: SHA-256 of every input")
     for f in manifest["files"]:
-        check(f["kind"] in ("raster", "vector", "table", "image", "report"), f"manifest: {f['file']} kind")
+        check(f["kind"] in ("raster", "vector", "table", "image", "report", "style"), f"manifest: {f['file']} kind")
         check("crs" in f and "proj" in f["crs"], f"manifest: {f['file']} CRS")
     print(f"manifest: {len(listed)} files")
+
+
+def check_styles(out, manifest):
+    """Every raster has a QGIS style and an OGC SLD beside it: well-formed XML (Python's own
+    parser), colouring band 1, one colour per class in increasing class order, the same colours
+    and labels in both, and the recorded SHA-256 of each file."""
+    import hashlib
+    import xml.etree.ElementTree as ET
+    rasters = [f["file"] for f in manifest["files"] if f["kind"] == "raster"]
+    sha = {f["file"]: f.get("sha256") for f in manifest["files"] if f["kind"] == "style"}
+    sld_ns = "{http://www.opengis.net/sld}"
+    for r in rasters:
+        stem = r[: -len(".tif")]
+        q, s = f"{stem}.qml", f"{stem}.sld"
+        check(q in sha and s in sha, f"styles: {r} has {q} and {s}")
+        if q not in sha or s not in sha:
+            continue
+        for name in (q, s):
+            with open(os.path.join(out, name), "rb") as fh:
+                check(hashlib.sha256(fh.read()).hexdigest() == sha[name], f"styles: {name} SHA-256 as recorded")
+        qroot = ET.parse(os.path.join(out, q)).getroot()
+        renderer = qroot.find("./pipe/rasterrenderer")
+        check(renderer is not None and renderer.get("band") == "1", f"styles: {q} colours band 1")
+        items = qroot.findall(".//colorrampshader/item")
+        sroot = ET.parse(os.path.join(out, s)).getroot()
+        entries = sroot.findall(f".//{sld_ns}ColorMapEntry")
+        band = sroot.find(f".//{sld_ns}SourceChannelName")
+        check(band is not None and band.text == "1", f"styles: {s} colours band 1")
+        check(len(items) == len(entries) >= 1, f"styles: {q} and {s} have the same classes")
+        check([i.get("color") for i in items] == [e.get("color") for e in entries]
+              and [i.get("label") for i in items] == [e.get("label") for e in entries],
+              f"styles: {q} and {s} have the same colours and labels")
+        bounds = [float(i.get("value")) for i in items[:-1]]
+        check(all(a < b for a, b in zip(bounds, bounds[1:])), f"styles: {q} class bounds increase")
+    print(f"styles: {len(rasters)} rasters, each with a QGIS and an SLD style")
 
 
 def main():
@@ -384,6 +419,7 @@ def main():
         with open(a.expected) as f:
             expected = json.load(f)
     check_manifest(a.out, manifest)
+    check_styles(a.out, manifest)
     data = check_rasters(a.out, manifest, expected)
     check_values(a.out, manifest, data, expected)
     check_vectors(a.out, manifest, data)

@@ -107,6 +107,19 @@ fn a_run_without_offsets_writes_no_track_risk_and_says_so() {
         .unwrap()
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
         .collect();
+    // Every raster has its QGIS and SLD styles beside it, and only the rasters.
+    let styles: BTreeSet<String> = on_disk
+        .iter()
+        .filter(|f| f.ends_with(".qml") || f.ends_with(".sld"))
+        .cloned()
+        .collect();
+    let on_disk: BTreeSet<String> = on_disk.difference(&styles).cloned().collect();
+    let styled: BTreeSet<String> = on_disk
+        .iter()
+        .filter_map(|f| f.strip_suffix(".tif"))
+        .flat_map(|stem| [format!("{stem}.qml"), format!("{stem}.sld")])
+        .collect();
+    assert_eq!(styles, styled);
     let want: BTreeSet<String> = [
         "snowfall_by_scenario.tif",
         "snowfall_baseline.tif",
@@ -141,7 +154,11 @@ fn a_run_without_offsets_writes_no_track_risk_and_says_so() {
         .map(|f| f["file"].as_str().unwrap().to_string())
         .collect();
     listed.insert("manifest.json".into());
-    assert_eq!(listed, want);
+    assert_eq!(
+        listed.difference(&styles).cloned().collect::<BTreeSet<_>>(),
+        want
+    );
+    assert!(styles.is_subset(&listed));
     // Every layer left out is listed once, with its reason; the track-risk reason first.
     let nc = not_computed(&m);
     let names: BTreeSet<&str> = nc.iter().map(|(l, _)| l.as_str()).collect();

@@ -202,7 +202,13 @@ def check_values(out, manifest, data, expected):
     same = np.allclose(base[0], stack[base_i], atol=tol + tolerance(binfo), equal_nan=True)
     check(same, "snowfall_baseline equals the stack's baseline band")
     # Prior coverage: the manifest's weights of the bands with a value, over all positive weight.
+    # A several-member run summarises every member, method and offset: its stack of every
+    # band, each with its blended weight in the band metadata.
     weights = np.array([s["weight"] for s in manifest["scenarios"]])
+    pooled = data.get("snowfall_by_member_scenario.tif")
+    if pooled is not None:
+        stack = pooled[0]
+        weights = np.array([float(b["metadata"][""]["weight"]) for b in pooled[1]["bands"]])
     positive = weights > 0
     coverage = np.tensordot(weights[positive], ~np.isnan(stack[positive]), 1) / weights[positive].sum()
     got_cov, _ = data["prior_coverage.tif"]

@@ -16,9 +16,9 @@
 //! (temperature, moisture) or anything else the move does not carry. Alignment that makes the
 //! members disagree more (their storms differ so that moving them apart suits them better)
 //! gives 0. Missing where any member's value is missing, and where the runs as issued agree to
-//! within [`super::members::NO_SPREAD_MM`] of standard deviation (no spread to explain).
+//! within [`super::variance::NO_SPREAD_MM`] of standard deviation (no spread to explain).
 
-use super::members::NO_SPREAD_MM;
+use super::variance::NO_SPREAD_MM;
 
 /// The members' weighted variance (weights need not be normalised); `None` when a value is
 /// missing or the weights add up to zero.

@@ -14,9 +14,7 @@ use crate::case::Case;
 use crate::engine::Ensemble;
 use crate::units::Units;
 
-/// A standard deviation below this (mm of snow) is no spread: every scenario agrees (most
-/// often, no snow anywhere), and the dominant-source map says so rather than naming a source.
-pub const NO_SPREAD_MM: f32 = 0.05;
+pub use super::variance::NO_SPREAD_MM;
 
 /// What the groups of an ensemble say together, in mm of snow depth.
 pub struct MemberSummary {

@@ -23,6 +23,10 @@
 
 use rayon::prelude::*;
 
+/// A standard deviation below this (mm of snow) is no spread: every scenario agrees (most
+/// often, no snow anywhere), and the dominant-source map says so rather than naming a source.
+pub const NO_SPREAD_MM: f32 = 0.05;
+
 /// Which member and which method combination a scenario belongs to.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub struct Group {

@@ -8,6 +8,7 @@
 pub mod bust;
 pub mod decisions;
 pub mod folder;
+pub mod html;
 pub mod isobands;
 pub mod lines;
 pub mod manifest;

@@ -5,6 +5,7 @@
 //! sort the towns table are inline, and a Content-Security-Policy forbids every network request.
 //! Every string from the run (titles, town names, settings) is HTML-escaped.
 
+use super::html::{escape, table, text_of};
 use super::write_text_atomic;
 use crate::geotiff::read_geotiff;
 use base64::Engine;
@@ -49,27 +50,6 @@ pub enum ReportError {
     Write(#[from] super::WriteError),
 }
 
-/// Escapes text for HTML element content and attribute values.
-///
-/// ```
-/// use trackswing::write::report::escape;
-/// assert_eq!(escape("<script>\"a\" & 'b'"), "&lt;script&gt;&quot;a&quot; &amp; &#39;b&#39;");
-/// ```
-pub fn escape(s: &str) -> String {
-    let mut out = String::with_capacity(s.len());
-    for ch in s.chars() {
-        match ch {
-            '&' => out.push_str("&amp;"),
-            '<' => out.push_str("&lt;"),
-            '>' => out.push_str("&gt;"),
-            '"' => out.push_str("&quot;"),
-            '\'' => out.push_str("&#39;"),
-            c => out.push(c),
-        }
-    }
-    out
-}
-
 /// Undoes [`super::towns::spreadsheet_safe`] for display: a leading apostrophe before
 /// `= + - @`, tab or carriage return was added by the writer.
 pub fn undo_spreadsheet_safe(s: &str) -> &str {
@@ -84,14 +64,6 @@ fn read(path: &Path) -> Result<Vec<u8>, ReportError> {
         path: path.to_path_buf(),
         what: e.to_string(),
     })
-}
-
-pub(super) fn text_of(v: &Value) -> String {
-    match v {
-        Value::String(s) => s.clone(),
-        Value::Null => String::new(),
-        other => other.to_string(),
-    }
 }
 
 /// `s` with its first letter in upper case.
@@ -178,25 +150,6 @@ fn key_numbers(dir: &Path, su: &str) -> Result<Vec<(String, String)>, ReportErro
         }
     }
     Ok(out)
-}
-
-pub(super) fn table(head: &[String], rows: &[Vec<String>], id: &str, sortable: bool) -> String {
-    let mut h = String::new();
-    let class = if sortable { " class=\"sortable\"" } else { "" };
-    let _ = write!(h, "<table id=\"{id}\"{class}><thead><tr>");
-    for c in head {
-        let _ = write!(h, "<th scope=\"col\">{}</th>", escape(c));
-    }
-    h.push_str("</tr></thead><tbody>\n");
-    for r in rows {
-        h.push_str("<tr>");
-        for c in r {
-            let _ = write!(h, "<td>{}</td>", escape(c));
-        }
-        h.push_str("</tr>\n");
-    }
-    h.push_str("</tbody></table>\n");
-    h
 }
 
 const STYLE: &str = "

@@ -2,7 +2,7 @@
 //! from `manifest.json`'s `ensemble` object: who was blended, with which weight and track, and
 //! how far each member's low was moved onto the members' mean track.
 
-use super::report::{table, text_of};
+use super::html::{table, text_of};
 use serde_json::Value;
 
 /// The section's HTML, or `None` for a run of one member with one method combination.

@@ -119,6 +119,7 @@ fn run_case(
         snow_ratio: common.snow_ratio.clone(),
         force: common.force,
         precip_type: common.precip_type.clone(),
+        dry_air: common.dry_air,
         no_dry_air: common.no_dry_air,
         timing: common.timing.clone(),
         intensity: common.intensity.clone(),
@@ -422,6 +423,7 @@ fn sounding(a: &args::SoundingArgs) -> Result<(), Failure> {
         warm_bias: Some(a.warm_bias.to_string()),
         precip_type: a.precip_type.clone(),
         snow_ratio: a.snow_ratio.clone(),
+        dry_air: a.dry_air,
         no_dry_air: a.no_dry_air,
         region: a.region.clone(),
         ..Default::default()

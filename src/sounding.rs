@@ -11,7 +11,7 @@
 
 use crate::accumulate::Totals;
 use crate::case::Case;
-use crate::diagnose::ptype::{energy_areas, Layer, MAX_LEVELS};
+use crate::diagnose::ptype::{bourgouin_rule, energy_areas, Layer, MAX_LEVELS};
 use crate::diagnose::subcloud::SubCloud;
 use crate::diagnose::thermo::{dewpoint_from_rh, T_FREEZE};
 use crate::diagnose::{ColumnStep, Methods, Profile, PtypeMethod, SlrMethod};
@@ -108,6 +108,22 @@ pub struct Thicknesses {
     pub t850_700_m: f64,
     /// 1000–500 hPa.
     pub t1000_500_m: f64,
+    /// The low-level thickness the partial-thickness rules read: 1000–850 hPa, or where the
+    /// ground is above 1000 hPa the layer from the ground to 850 hPa at its own mean
+    /// temperature ([`Profile::low_level_thickness`]).
+    pub low_level_m: f64,
+}
+
+/// What the energy-area and surface-logistic methods read beyond the fractions.
+#[derive(Clone, Debug, Serialize)]
+pub struct Decided {
+    /// The Bourgouin (2000) rule that decides the energy-area type, in words (empty when the
+    /// profile is out of the method's domain).
+    pub energy_area_rule: String,
+    /// Warmest wet-bulb above the ground up to 500 hPa, °C (surface-logistic's melting layer).
+    pub warmest_wet_bulb_aloft_c: f64,
+    /// Coldest temperature between the ground and that point, °C (where melted snow refreezes).
+    pub coldest_below_c: f64,
 }
 
 /// One precipitation-type method's fractions.
@@ -254,6 +270,8 @@ pub struct Sounding {
     pub thickness: Thicknesses,
     /// Every precipitation-type method on this profile.
     pub ptype: Vec<MethodFractions>,
+    /// Which rules decided the type.
+    pub decided: Decided,
     /// Every snow-ratio method on this profile.
     pub snow_ratio: Vec<MethodRatio>,
     /// Dry air below the cloud.
@@ -533,8 +551,14 @@ pub fn sounding(case: &Case, req: &SoundingRequest) -> Result<Sounding, Sounding
             t1000_850_m: f64::NAN,
             t850_700_m: f64::NAN,
             t1000_500_m: f64::NAN,
+            low_level_m: f64::NAN,
         },
         ptype: Vec::new(),
+        decided: Decided {
+            energy_area_rule: String::new(),
+            warmest_wet_bulb_aloft_c: f64::NAN,
+            coldest_below_c: f64::NAN,
+        },
         snow_ratio: Vec::new(),
         dry_air: DryAir {
             enabled: methods.dry_air,
@@ -657,6 +681,15 @@ fn describe(
         t1000_850_m: a,
         t850_700_m: b,
         t1000_500_m: c,
+        low_level_m: profile.low_level_thickness(),
+    };
+    let (tw_aloft, cold_below) = profile.warmest_wet_bulb_aloft();
+    out.decided = Decided {
+        energy_area_rule: bourgouin_rule(profile.pressures(), profile.temperatures())
+            .map(|r| r.to_string())
+            .unwrap_or_default(),
+        warmest_wet_bulb_aloft_c: tw_aloft - T_FREEZE,
+        coldest_below_c: cold_below - T_FREEZE,
     };
     out.ptype = PtypeMethod::ALL
         .iter()
@@ -840,6 +873,13 @@ impl fmt::Display for Sounding {
                 cell(t.t850_700_m, 0, 0).trim(),
                 cell(t.t1000_500_m, 0, 0).trim()
             )?;
+            if t.t1000_850_m.is_nan() && t.low_level_m.is_finite() {
+                writeln!(
+                    f,
+                    "  ground above 1000 hPa: the partial-thickness rules read the ground–850 hPa layer at its mean temperature as 1000–850 hPa {} m",
+                    cell(t.low_level_m, 0, 0).trim()
+                )?;
+            }
             writeln!(f, "\nprecipitation type (fractions, 0–1; * in use):")?;
             writeln!(
                 f,
@@ -857,6 +897,16 @@ impl fmt::Display for Sounding {
                     cell(p.rain, 6, 2)
                 )?;
             }
+            let d = &self.decided;
+            if !d.energy_area_rule.is_empty() {
+                writeln!(f, "  energy-area decided by: {}", d.energy_area_rule)?;
+            }
+            writeln!(
+                f,
+                "  surface-logistic melting aloft: warmest wet-bulb {} °C (melts from 1 to 3 °C), coldest below it {} °C (partly melted drops refreeze below 0 °C, fully melted ones below about −8 °C)",
+                cell(d.warmest_wet_bulb_aloft_c, 0, 1).trim(),
+                cell(d.coldest_below_c, 0, 1).trim()
+            )?;
             writeln!(f, "\nsnow-to-liquid ratio (* in use):")?;
             for r in &self.snow_ratio {
                 writeln!(

@@ -46,7 +46,9 @@ pub struct Overrides {
     pub force: bool,
     /// `--precip-type`.
     pub precip_type: Option<String>,
-    /// `--no-dry-air`.
+    /// `--dry-air`: turn the dry-air treatment on whatever the case file says.
+    pub dry_air: bool,
+    /// `--no-dry-air`: turn it off whatever the case file says.
     pub no_dry_air: bool,
     /// `--timing`.
     pub timing: Option<String>,
@@ -393,7 +395,26 @@ snow_ratio = "max-column-temperature"
         assert_eq!(c.axes.warm_bias_k, vec![-1.0, 0.0, 1.0]);
         let (_d, p) = setup(GOOD);
         let c = Case::load(&p, &Overrides::default()).unwrap();
-        assert!(c.physics.methods.dry_air, "dry air is on by default");
+        // Off by default: the model's precipitation already lost what evaporated below its
+        // cloud (docs/SCIENCE.md §3); `--dry-air` turns it on.
+        assert!(!c.physics.methods.dry_air, "dry air is off by default");
+        let c = Case::load(
+            &p,
+            &Overrides {
+                dry_air: true,
+                ..Default::default()
+            },
+        )
+        .unwrap();
+        assert!(c.physics.methods.dry_air);
+        let (_d, p) = setup(&GOOD.replace("[methods]", "[methods]\ndry_air = true"));
+        assert!(
+            Case::load(&p, &Overrides::default())
+                .unwrap()
+                .physics
+                .methods
+                .dry_air
+        );
         let c = Case::load(
             &p,
             &Overrides {

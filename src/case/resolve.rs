@@ -433,7 +433,9 @@ fn resolve_methods(
         &m.snow_ratio_weights,
         slrs.len(),
     )?;
-    let dry_air = !over.no_dry_air && m.dry_air.unwrap_or(true);
+    // Off unless asked for: the model's surface precipitation already lost what evaporated
+    // below its cloud, so "as modelled" is the model's precipitation (docs/SCIENCE.md §3).
+    let dry_air = over.dry_air || (!over.no_dry_air && m.dry_air.unwrap_or(false));
     let lapse_rate_k_per_m = lapse_k_per_km / 1000.0;
     let options: Vec<MethodOption> = ptypes
         .iter()

@@ -92,7 +92,8 @@ pub struct MethodsFile {
     pub snow_ratio_weights: Option<Vec<f64>>,
     /// The ratio for `fixed`.
     pub fixed_ratio: Option<f64>,
-    /// Dry air below the cloud takes its share first (default true).
+    /// Dry air below the cloud takes its share first (default false: the precipitation reaching
+    /// the ground is the model's, which already lost what evaporated below its cloud).
     pub dry_air: Option<bool>,
 }
 

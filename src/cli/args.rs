@@ -84,7 +84,12 @@ pub struct Common {
     /// Precipitation-type method: energy-area, partial-thickness or surface-logistic.
     #[arg(long, value_name = "METHOD")]
     pub precip_type: Option<String>,
-    /// Let all precipitation reach the ground (no evaporation into dry air below the cloud).
+    /// Take the water that saturates dry air below the cloud from the precipitation first (for
+    /// when the model looks too moist at onset; off by default: the model's precipitation
+    /// already lost what evaporated below its cloud).
+    #[arg(long, conflicts_with = "no_dry_air")]
+    pub dry_air: bool,
+    /// No dry-air treatment, even where the case file turns it on (the default).
     #[arg(long)]
     pub no_dry_air: bool,
     /// Time offsets in hours, positive when the storm comes later: a value, a list or a range.
@@ -303,7 +308,10 @@ pub struct SoundingArgs {
     /// Snow-to-liquid ratio method in use (default: the case's).
     #[arg(long, value_name = "METHOD")]
     pub snow_ratio: Option<String>,
-    /// No evaporation into dry air below the cloud.
+    /// Take the water that saturates dry air below the cloud from the precipitation first.
+    #[arg(long, conflicts_with = "no_dry_air")]
+    pub dry_air: bool,
+    /// No dry-air treatment, even where the case file turns it on (the default).
     #[arg(long)]
     pub no_dry_air: bool,
     /// Read only this lon/lat box of the model grid, W,S,E,N degrees (default: the case's

@@ -138,14 +138,14 @@ impl Profile {
                 bourgouin_ln(self.pressures(), &self.ln_p[..self.n], self.temperatures())
             }
             PtypeMethod::PartialThickness => {
-                let [low, mid, deep] = self.partial_thicknesses();
-                partial_thickness(low, mid, deep, self.wet_bulb(0))
+                let [_, mid, deep] = self.partial_thicknesses();
+                partial_thickness(self.low_level_thickness(), mid, deep, self.wet_bulb(0))
             }
             PtypeMethod::SurfaceLogistic => {
-                let aloft = self.warmest_wet_bulb_aloft();
+                let (aloft, cold_below) = self.warmest_wet_bulb_aloft();
                 // No level between the ground and 500 hPa: nothing aloft to melt in.
                 let aloft = if aloft.is_finite() { aloft } else { self.t[0] };
-                surface_logistic(self.t[0], self.rh[0], aloft)
+                surface_logistic(self.t[0], self.rh[0], aloft, cold_below)
             }
         }
     }
@@ -411,6 +411,29 @@ mod tests {
     }
 
     #[test]
+    fn the_low_layer_over_higher_ground_is_held_to_the_same_mean_temperature() {
+        // Isothermal 270 K column, ground at 500 m (between 1000 and 850 hPa): the ground–850 hPa
+        // layer read as 1000–850 hPa is the 1000–850 hPa thickness of 270 K air (hypsometric
+        // equation, Wallace & Hobbs 2006 §3.2; thickness_hydrostatic is checked against MetPy).
+        let (l, c) = column(&LEVELS, &[270.0; 5], 270.0, 100.0);
+        let pr = Profile::build(&c, &l, 500.0, 0.0, 0.0).unwrap();
+        assert!(pr.p[0] < P1000 && pr.p[1] == 92_500.0, "{}", pr.p[0]);
+        assert!(pr.partial_thicknesses()[0].is_nan());
+        let expected = thickness_hydrostatic(1e5, 85_000.0, 270.0);
+        assert!(
+            (pr.low_level_thickness() - expected).abs() < 0.5,
+            "{}",
+            pr.low_level_thickness()
+        );
+        // Where 1000 hPa is above the ground, it is the 1000–850 hPa thickness itself.
+        let sea = Profile::build(&c, &l, 0.0, 0.0, 0.0).unwrap();
+        assert_eq!(sea.low_level_thickness(), sea.partial_thicknesses()[0]);
+        // Ground above 850 hPa: no low layer.
+        let high = Profile::build(&c, &l, 1600.0, 0.0, 0.0).unwrap();
+        assert!(high.low_level_thickness().is_nan());
+    }
+
+    #[test]
     fn levels_below_ground_are_not_used() {
         // 1000 and 925 hPa are warm but lie below a 1200 m ridge top; above it the air is cold.
         let (l, c) = column(&LEVELS, &[283.0, 279.0, 268.0, 260.0, 245.0], 283.0, 100.0);
@@ -455,16 +478,16 @@ mod tests {
 
     #[test]
     fn colder_bias_never_less_snow_by_any_method() {
-        // A warm-nose column near the rain–snow line, cooled aloft in 0.01 K steps from +3 to
+        // A warm-nose column near the rain–snow line, cooled aloft in 0.001 K steps from +3 to
         // −3 K: no method ever gives less snow for the colder column (common practice), and
-        // the snow share moves smoothly (no step over 0.05; Bourgouin's 2 → 13.2 J/kg melting
-        // ramp spans about 0.5 K of this nose).
+        // the snow share moves without a jump (no step over 0.05; the ±0.5 J/kg ramp about
+        // Bourgouin's 2 J/kg line for a warm layer aloft spans about 0.03 K of this nose).
         let (l, mut c) = column(&LEVELS, &[272.5, 274.0, 273.0, 265.0, 248.0], 272.0, 100.0);
         c[l.rh2()] = 95.0;
         for m in PtypeMethod::ALL {
             let mut prev: Option<f64> = None;
-            for i in 0..=600 {
-                let bias = 3.0 - 0.01 * i as f64;
+            for i in 0..=6000 {
+                let bias = 3.0 - 0.001 * i as f64;
                 let snow = Profile::build(&c, &l, 0.0, 0.0065, bias)
                     .unwrap()
                     .ptype(m)

@@ -187,6 +187,11 @@ impl Profile {
         let (Some(a), Some(b)) = (self.point_at(p_bottom_pa), self.point_at(p_top_pa)) else {
             return f64::NAN;
         };
+        self.thickness_of_points(a, b)
+    }
+
+    /// Thickness between points `a` < `b`, m, as [`Profile::thickness`].
+    fn thickness_of_points(&self, a: usize, b: usize) -> f64 {
         let mut dz = self.z[b] - self.z[a];
         for i in a..b {
             let mean_dt = 0.5 * (self.dt[i] + self.dt[i + 1]);
@@ -207,18 +212,56 @@ impl Profile {
         ]
     }
 
+    /// The low-level thickness the partial-thickness rules read, m: the 1000–850 hPa thickness
+    /// where 1000 hPa is above the ground. Where the ground lies between 1000 and 850 hPa, the
+    /// layer from the ground to 850 hPa stands in, at its own mean temperature: its thickness
+    /// times ln(1000/850)/ln(p_ground/850), the 1000–850 hPa thickness of air that warm (the
+    /// hypsometric equation, Wallace & Hobbs 2006 §3.2). The rule "1000–850 hPa above 1310 m"
+    /// is a layer-mean temperature of about +2.2 °C, which the air actually above the ground is
+    /// then held to. NaN where 850 hPa is at or below the ground or absent: no low layer to
+    /// melt in.
+    ///
+    /// ```
+    /// use trackswing::diagnose::profile::Profile;
+    /// // Ground at 950 hPa (z 0), 850 hPa 900 m above it: 900·ln(1000/850)/ln(950/850).
+    /// let mut p = Profile::empty();
+    /// p.n = 2;
+    /// p.p[..2].copy_from_slice(&[95_000.0, 85_000.0]);
+    /// p.z[..2].copy_from_slice(&[0.0, 900.0]);
+    /// let expected = 900.0 * (1000.0_f64 / 850.0).ln() / (950.0_f64 / 850.0).ln();
+    /// assert!((p.low_level_thickness() - expected).abs() < 1e-9);
+    /// ```
+    pub fn low_level_thickness(&self) -> f64 {
+        let direct = self.thickness(P1000, P850);
+        if !direct.is_nan() || self.n == 0 || self.p[0] > P1000 {
+            return direct;
+        }
+        let Some(b) = self.point_at(P850) else {
+            return f64::NAN;
+        };
+        self.thickness_of_points(0, b) * (P1000 / P850).ln() / (self.p[0] / P850).ln()
+    }
+
     /// Isobaric wet-bulb temperature at point `i`, K ([`isobaric_wet_bulb`]).
     pub fn wet_bulb(&self, i: usize) -> f64 {
         isobaric_wet_bulb(self.p[i], self.t[i], self.rh[i])
     }
 
     /// The warmest wet-bulb above the surface point, up to 500 hPa, K (what
-    /// [`surface_logistic`](super::ptype::surface_logistic) checks for melting aloft).
-    pub fn warmest_wet_bulb_aloft(&self) -> f64 {
-        (1..self.n)
+    /// [`surface_logistic`](super::ptype::surface_logistic) checks for melting aloft; −∞ when
+    /// no point lies aloft), and the coldest temperature from the ground up to that point, K
+    /// (the air melted snow falls through after the warm layer; the ground's when no point
+    /// lies aloft).
+    pub fn warmest_wet_bulb_aloft(&self) -> (f64, f64) {
+        let (warmest, tw) = (1..self.n)
             .filter(|&i| self.p[i] >= PROFILE_TOP_PA)
-            .map(|i| self.wet_bulb(i))
-            .fold(f64::NEG_INFINITY, f64::max)
+            .map(|i| (i, self.wet_bulb(i)))
+            .fold((0, f64::NEG_INFINITY), |a, b| if b.1 > a.1 { b } else { a });
+        let coldest = self.t[..=warmest]
+            .iter()
+            .copied()
+            .fold(f64::INFINITY, f64::min);
+        (tw, coldest)
     }
 
     /// The warmest temperature from the surface to 500 hPa, K (the Kuchera method's input).

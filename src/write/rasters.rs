@@ -181,7 +181,7 @@ pub fn write_rasters(
         ("ice_pellet_fraction_baseline.tif", "1", "Share of the liquid that falls as ice pellets, as modelled", base.ice_pellet_fraction()),
         ("freezing_rain_fraction_baseline.tif", "1", "Share of the liquid that falls as freezing rain, as modelled", base.freezing_rain_fraction()),
         ("ice_pellet_depth_baseline.tif", su, "Ice-pellet accumulation depth as modelled (2.5 × the ice-pellet liquid, common practice)", snow(&base.ice_pellet_depth())),
-        ("dry_air_loss_baseline.tif", lu, "Precipitation that left the cloud but evaporated into dry air below it before reaching the ground, as modelled (0 with the dry-air correction off)", liquid(&base.carried)),
+        ("dry_air_loss_baseline.tif", lu, "Precipitation that left the cloud but evaporated into dry air below it before reaching the ground, as modelled (0 with the dry-air treatment off, the default)", liquid(&base.carried)),
         ("ice_accretion_baseline.tif", lu, "Flat-surface ice accretion from freezing rain as modelled (0.72 × the freezing-rain liquid, Sanders & Barjenbruch 2016)", liquid(&base.ice_accretion())),
     ]);
     for (file, u, description, data) in layers {

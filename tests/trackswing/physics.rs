@@ -6,6 +6,7 @@ use super::support::{bin, write_case, Synthetic};
 use trackswing::accumulate::Totals;
 use trackswing::case::{Case, Overrides};
 use trackswing::engine::run;
+use trackswing::geotiff::read_geotiff;
 use trackswing::progress::Silent;
 
 fn load(case: &std::path::Path, over: Overrides) -> Case {
@@ -60,7 +61,7 @@ fn every_method_runs_from_the_case_file_and_the_flags() {
             "surface-logistic",
             "--snow-ratio",
             "growth-zone",
-            "--no-dry-air",
+            "--dry-air",
             "-q",
         ])
         .output()
@@ -72,7 +73,7 @@ fn every_method_runs_from_the_case_file_and_the_flags() {
     .unwrap();
     assert_eq!(m["methods"]["ptype"], "surface-logistic");
     assert_eq!(m["methods"]["slr"], "growth-zone");
-    assert_eq!(m["methods"]["dry_air"], false);
+    assert_eq!(m["methods"]["dry_air"], true);
     let o = bin()
         .arg("run")
         .arg(&case)
@@ -92,12 +93,11 @@ fn dry_air_below_the_cloud_delays_and_removes_precipitation() {
         ..Default::default()
     };
     let case = write_case(d.path(), &dry, "");
-    let on = run(&load(&case, Overrides::default()), 2, &Silent).unwrap();
-    let off = run(
+    let on = run(
         &load(
             &case,
             Overrides {
-                no_dry_air: true,
+                dry_air: true,
                 ..Default::default()
             },
         ),
@@ -105,6 +105,7 @@ fn dry_air_below_the_cloud_delays_and_removes_precipitation() {
         &Silent,
     )
     .unwrap();
+    let off = run(&load(&case, Overrides::default()), 2, &Silent).unwrap();
     let (a, b) = (&on.totals[0], &off.totals[0]);
     let mut lost = 0;
     for i in 0..a.len() {
@@ -128,6 +129,64 @@ fn dry_air_below_the_cloud_delays_and_removes_precipitation() {
     // precipitation without the correction have none with it.
     assert!((0..a.len()).any(|i| b.liquid[i] > 0.0 && a.liquid[i] == 0.0));
     assert!((0..a.len()).any(|i| b.onset[i] > 0 && a.onset[i] > b.onset[i]));
+}
+
+/// Guards the default: "as modelled" is the model's precipitation. The model's surface
+/// precipitation already lost what evaporated below its cloud, so with the dry-air treatment
+/// off (the default) liquid_baseline.tif is, cell for cell and bit for bit, the sum over the
+/// steps of the step files' precipitation_amount band (summed in f32 in step order, as the
+/// layer accumulates), even under air dry enough for the treatment to take water.
+#[test]
+fn as_modelled_liquid_is_the_model_precipitation_exactly() {
+    let d = tempfile::tempdir().unwrap();
+    let dry = Synthetic {
+        low_rh: 55.0,
+        ..Default::default()
+    };
+    let case = write_case(d.path(), &dry, "");
+    let out = d.path().join("out");
+    let o = bin()
+        .arg("run")
+        .arg(&case)
+        .args(["--cross", "0", "--along", "0", "-q", "--out"])
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let liquid = read_geotiff(&out.join("liquid_baseline.tif")).unwrap();
+    let mut model = vec![0.0f32; dry.nx * dry.ny];
+    for k in 0..dry.steps {
+        let step = read_geotiff(&d.path().join(format!("f/s_{k:02}.tif"))).unwrap();
+        let b = step
+            .descriptions
+            .iter()
+            .position(|n| n == "precipitation_amount")
+            .expect("the step files carry precipitation_amount");
+        for (m, p) in model.iter_mut().zip(&step.bands[b]) {
+            *m += *p;
+        }
+    }
+    assert_eq!(liquid.bands[0].len(), model.len());
+    let mut wet = 0;
+    for (i, (l, m)) in liquid.bands[0].iter().zip(&model).enumerate() {
+        assert_eq!(l.to_bits(), m.to_bits(), "cell {i}: layer {l}, model {m}");
+        wet += usize::from(*m > 0.1);
+    }
+    assert!(wet > 100, "the storm must rain somewhere ({wet} cells)");
+    // The dry-air treatment, turned on, does take water here: the guard can fail.
+    let on = run(
+        &load(
+            &case,
+            Overrides {
+                dry_air: true,
+                ..Default::default()
+            },
+        ),
+        2,
+        &Silent,
+    )
+    .unwrap();
+    assert!(on.totals[0].carried.iter().any(|c| *c > 0.1));
 }
 
 #[test]

@@ -149,12 +149,12 @@ fn merge_refuses_shards_that_do_not_belong_together() {
     );
     // Shards of other settings: the part of the key that differs is named.
     let mut other = merge.clone();
-    other.insert(4, "--no-dry-air".into());
+    other.insert(4, "--dry-air".into());
     let e = run_fails(&other, &[&part(1), &part(2), &part(3)], 3);
     assert!(
         e.contains("shard-1-of-3.bin")
             && e.contains("methods differ")
-            && e.contains("dry_air: shard true, case false"),
+            && e.contains("dry_air: shard false, case true"),
         "{e}"
     );
     let mut fewer = merge.clone();

@@ -31,16 +31,24 @@ const BOURGOUIN_FLOOR_PA: f64 = 50_000.0;
 /// own wording is from memory). Surface warm layer: snow below 5.6, rain above 13.2.
 const SURFACE_MELT_START: f64 = 5.6;
 const MELT_COMPLETE: f64 = 13.2;
-/// A warm layer aloft weaker than this leaves snow as snow.
-const ALOFT_MELT_START: f64 = 2.0;
+/// A warm layer aloft (one with a cold layer below it) of this area or more melts the snow; a
+/// weaker one leaves it snow (Bourgouin 2000).
+const ALOFT_MELT: f64 = 2.0;
+/// Half-width, J/kg, of the ramp about [`ALOFT_MELT`]. The paper draws a sharp line; ±0.5 J/kg
+/// (about ±0.015 K of a 100 hPa nose, whose area moves by ~31 J/kg per K) keeps the fractions
+/// a continuous function of the sounding, and outside 1.5–2.5 J/kg the paper's rule holds
+/// exactly.
+const ALOFT_MELT_HALF_WIDTH: f64 = 0.5;
 /// Refreezing to ice pellets ramps over NA from 46 + 0.66·PA to 66 + 0.66·PA.
 const REFREEZE_START: f64 = 46.0;
 const REFREEZE_END: f64 = 66.0;
 const REFREEZE_PER_PA: f64 = 0.66;
-/// Cold area below a warm layer over which its melting onset moves from the surface value
-/// (5.6 J/kg) to the aloft value (2 J/kg), J/kg. The onset falls by 3.6·smoothstep(NA/5.6),
-/// whose slope never exceeds 0.96, so cooling a column can never lower the onset faster than
-/// it removes warm area: the snow fraction stays monotone in temperature.
+/// Cold area below a warm layer, J/kg, over which the layer goes from a surface warm layer
+/// (melting 5.6 → 13.2 J/kg) to a warm layer aloft (melting at 2 J/kg), and over which a cold
+/// layer resets the warm area met above it. The paper's cases are sharp (a cold layer is there
+/// or not); the blend keeps the fractions continuous when a shallow cold layer appears under a
+/// warm layer or vanishes, and two warm layers split by a vanishing cold layer melt as the
+/// single layer they merge into.
 const COLD_BELOW_BLEND: f64 = 5.6;
 
 fn valid_profile(p_pa: &[f64], t_k: &[f64]) -> bool {
@@ -193,31 +201,40 @@ fn areas_of_valid<const PRESSURES: bool>(
 ///
 /// Method: Bourgouin, P., 2000: A method to determine precipitation types. *Wea.
 /// Forecasting*, **15**, 583–592. Thresholds as in open post-processors (the paper's own
-/// wording from memory): surface warm layer PA < 5.6 J/kg snow, > 13.2 rain; warm layer aloft
-/// over a cold layer NA: NA > 66 + 0.66·PA ice pellets, NA < 46 + 0.66·PA freezing rain;
-/// PA aloft < 2 J/kg stays snow. Warm layers above 500 hPa are ignored.
+/// wording from memory), warm layers above 500 hPa ignored:
+/// - a surface warm layer of area PA: snow below 5.6 J/kg, rain above 13.2, a mix between;
+/// - a warm layer aloft (a cold layer below it) of PA < 2 J/kg leaves the snow snow (the
+///   layers below then decide as if it were not there); PA ≥ 2 J/kg melts it, and the cold
+///   layer below, of area NA, decides: NA > 66 + 0.66·PA ice pellets, NA < 46 + 0.66·PA
+///   freezing rain (rain on a surface above 0 °C), a mix between.
 ///
 /// Generalisation: a top-down state machine over the layers of [`energy_areas`], carrying the
 /// shares of snow, ice pellets and liquid and the *exposure* E, the warm area (J/kg) met since
 /// the last refreeze. It starts at 500 hPa as all snow with E = 0.
 /// - A warm layer of area PA adds PA to E; snow and ice pellets keep the share
-///   S(E + PA)/S(E), S(x) = 1 − smoothstep(x₀, 13.2, x), the rest melts. The onset x₀ is 2 J/kg
-///   with cold air below and 5.6 J/kg at the surface, blended by the largest cold area below
-///   the layer, NA_max: x₀ = 5.6 − 3.6·smoothstep(0, 5.6, NA_max). So a lone warm layer gives
-///   Bourgouin's ramps exactly, and two warm layers split by a vanishing cold layer melt exactly
-///   as the single layer they merge into.
+///   S(E + PA)/S(E), the rest melts. S blends the paper's two curves by the largest cold area
+///   below the layer, b = smoothstep(0, 5.6, NA_max): S = (1 − b)·S_surface + b·S_aloft, with
+///   S_surface(x) = 1 − smoothstep(5.6, 13.2, x) and S_aloft(x) = 1 − smoothstep(1.5, 2.5, x)
+///   (the 2 J/kg line with a ±0.5 J/kg ramp). So a lone warm layer gives the paper's rule
+///   exactly outside the ramps, and the fractions stay continuous when a shallow cold layer
+///   appears under a warm layer.
 /// - A cold layer of magnitude NA refreezes the share r = smoothstep(46 + 0.66·E,
 ///   66 + 0.66·E, NA) of the liquid to ice pellets (E = PA of the warm layer just above in the
-///   classic case) and scales E by 1 − r (a full refreeze resets the exposure).
+///   classic case) and scales E by (1 − r)·(1 − smoothstep(0, 5.6, NA)): a refreeze, or any
+///   cold layer of 5.6 J/kg or more, resets the exposure, so the next warm layer down is judged
+///   on its own area as in the paper.
 /// - At the surface, liquid is freezing rain on a subfreezing surface (first point below
 ///   273.15 K) and rain otherwise, ramped over ±0.25 K around 0 °C so the split is continuous.
 ///
 /// Three-layer case (warm aloft / cold / warm at the surface), on which open implementations
 /// differ: here it is the two-layer rules applied in sequence. The cold layer refreezes per the
-/// NA rule; the surface warm layer then melts the pellets and any surviving snow with the
-/// surface ramp (5.6 → 13.2 J/kg, continued from the exposure left after the refreeze), and
-/// what is liquid lands as rain. So pellets survive a weak surface warm layer and turn to rain
-/// in a strong one.
+/// NA rule; the surface warm layer then melts the pellets with the surface ramp (5.6 →
+/// 13.2 J/kg), and what is liquid lands as rain. So pellets survive a weak surface warm layer
+/// and turn to rain in a strong one.
+///
+/// The paper's decision is not monotone in temperature where a cold layer appears: a surface
+/// warm layer of 4 J/kg gives snow, the same layer over a thin subfreezing surface layer is a
+/// warm layer aloft and gives freezing rain. [`bourgouin_rule`] says which rule decided.
 ///
 /// Validity: as [`energy_areas`] (2…64 points from the surface upward, p strictly decreasing),
 /// surface below 500 hPa; NaN fractions otherwise. Fractions lie in [0, 1] and sum to 1.
@@ -225,9 +242,17 @@ fn areas_of_valid<const PRESSURES: bool>(
 /// ```
 /// use trackswing::diagnose::ptype::bourgouin;
 /// // Surface warm layer of 20 J/kg (> 13.2, Bourgouin 2000): rain.
-/// // 1000 hPa at +5.43 °C, 0 °C at 950 hPa: A = Rd·(5.43/2)·ln(1000/950) ≈ 20 J/kg.
-/// let f = bourgouin(&[100_000.0, 95_000.0, 50_000.0], &[278.58, 273.15, 243.15]);
+/// // 1000 hPa at +2.72 °C, 0 °C at 950 hPa: A = Rd·(2.72/2)·ln(1000/950) = 20.02 J/kg.
+/// let f = bourgouin(&[100_000.0, 95_000.0, 50_000.0], &[275.87, 273.15, 243.15]);
 /// assert!((f.rain - 1.0).abs() < 1e-12);
+/// // A warm layer aloft of 5 J/kg (+0.278 °C peak between 850 and 750 hPa) over a cold
+/// // surface layer of 150 J/kg (−6.43 °C at 1000 hPa; 150 > 66 + 0.66·5): the snow melts
+/// // and refreezes, ice pellets (Bourgouin 2000).
+/// let f = bourgouin(
+///     &[100_000.0, 85_000.0, 80_000.0, 75_000.0, 50_000.0],
+///     &[266.72, 273.15, 273.428, 273.15, 248.15],
+/// );
+/// assert!(f.ice_pellets > 0.99, "{f:?}");
 /// ```
 pub fn bourgouin(p_pa: &[f64], t_k: &[f64]) -> PtypeFractions {
     if !(2..=MAX_LEVELS).contains(&p_pa.len()) {
@@ -315,13 +340,24 @@ fn fractions_of_valid(
         let area = layers[k].area;
         if area > 0.0 {
             let cold_below = layers[..k].iter().map(|l| -l.area).fold(0.0_f64, f64::max);
-            let onset = SURFACE_MELT_START
-                - (SURFACE_MELT_START - ALOFT_MELT_START)
-                    * smoothstep(0.0, COLD_BELOW_BLEND, cold_below);
-            let before = 1.0 - smoothstep(onset, MELT_COMPLETE, exposure);
+            let aloft = smoothstep(0.0, COLD_BELOW_BLEND, cold_below);
+            let survives = |x: f64| {
+                (1.0 - aloft) * (1.0 - smoothstep(SURFACE_MELT_START, MELT_COMPLETE, x))
+                    + aloft
+                        * (1.0
+                            - smoothstep(
+                                ALOFT_MELT - ALOFT_MELT_HALF_WIDTH,
+                                ALOFT_MELT + ALOFT_MELT_HALF_WIDTH,
+                                x,
+                            ))
+            };
+            let before = survives(exposure);
             exposure += area;
-            let after = 1.0 - smoothstep(onset, MELT_COMPLETE, exposure);
-            let keep = if before > 0.0 { after / before } else { 0.0 };
+            let keep = if before > 0.0 {
+                survives(exposure) / before
+            } else {
+                0.0
+            };
             liquid += (snow + pellets) * (1.0 - keep);
             snow *= keep;
             pellets *= keep;
@@ -331,10 +367,119 @@ fn fractions_of_valid(
             let refreeze = smoothstep(start, end, -area);
             pellets += liquid * refreeze;
             liquid *= 1.0 - refreeze;
-            exposure *= 1.0 - refreeze;
+            exposure *= (1.0 - refreeze) * (1.0 - smoothstep(0.0, COLD_BELOW_BLEND, -area));
         }
     }
     PtypeFractions::with_liquid(snow, pellets, liquid, t_k[0])
+}
+
+/// Which of Bourgouin's (2000) rules decides a column's type, with the areas it reads (J/kg,
+/// cold areas as magnitudes): what the sounding view shows beside the fractions.
+///
+/// ```
+/// use trackswing::diagnose::ptype::{bourgouin_rule, BourgouinRule};
+/// let r = bourgouin_rule(&[100_000.0, 95_000.0, 50_000.0], &[275.87, 273.15, 243.15]);
+/// assert!(matches!(r, Some(BourgouinRule::SurfaceWarmLayer { pa }) if (pa - 20.0).abs() < 0.1));
+/// ```
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum BourgouinRule {
+    /// No warm layer below 500 hPa: snow.
+    NoWarmLayer,
+    /// A warm layer at the surface only: snow below 5.6 J/kg, rain above 13.2, mixed between.
+    SurfaceWarmLayer {
+        /// Its area.
+        pa: f64,
+    },
+    /// Warm layers aloft all below 2 J/kg: the snow does not melt in them; a surface warm
+    /// layer, if any, decides as above.
+    WeakWarmLayerAloft {
+        /// The largest warm area aloft.
+        pa: f64,
+        /// The surface warm layer's area (0 when there is none).
+        surface_pa: f64,
+    },
+    /// The lowest warm layer aloft of 2 J/kg or more melts the snow; the cold layer below it
+    /// refreezes the drops to ice pellets above 66 + 0.66·PA, leaves freezing rain below
+    /// 46 + 0.66·PA; a surface warm layer under it melts the pellets again (5.6 → 13.2 J/kg).
+    WarmLayerAloft {
+        /// Its area.
+        pa: f64,
+        /// The area of the cold layer just below it.
+        na: f64,
+        /// The surface warm layer's area (0 when there is none).
+        surface_pa: f64,
+    },
+}
+
+/// The rule of [`bourgouin`] that decides the column, `None` where [`bourgouin`] gives NaN.
+pub fn bourgouin_rule(p_pa: &[f64], t_k: &[f64]) -> Option<BourgouinRule> {
+    let mut buf = [Layer::default(); MAX_LEVELS];
+    let n = energy_areas(p_pa, t_k, BOURGOUIN_FLOOR_PA, &mut buf);
+    if n == 0 {
+        return None;
+    }
+    let layers = &buf[..n];
+    let surface_pa = layers[0].area.max(0.0);
+    let aloft = |k: usize| k > 0 && layers[k].area > 0.0;
+    if let Some(k) = (1..n).find(|&k| aloft(k) && layers[k].area >= ALOFT_MELT) {
+        return Some(BourgouinRule::WarmLayerAloft {
+            pa: layers[k].area,
+            na: -layers[k - 1].area,
+            surface_pa,
+        });
+    }
+    let weak = (1..n)
+        .filter(|&k| aloft(k))
+        .map(|k| layers[k].area)
+        .fold(0.0_f64, f64::max);
+    Some(if weak > 0.0 {
+        BourgouinRule::WeakWarmLayerAloft {
+            pa: weak,
+            surface_pa,
+        }
+    } else if surface_pa > 0.0 {
+        BourgouinRule::SurfaceWarmLayer { pa: surface_pa }
+    } else {
+        BourgouinRule::NoWarmLayer
+    })
+}
+
+impl std::fmt::Display for BourgouinRule {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        let surface = |f: &mut std::fmt::Formatter<'_>, pa: f64, what: &str| {
+            if pa > 0.0 {
+                write!(
+                    f,
+                    "; surface warm layer {pa:.1} J/kg melts the {what} above {SURFACE_MELT_START} (all above {MELT_COMPLETE})"
+                )
+            } else {
+                Ok(())
+            }
+        };
+        match *self {
+            BourgouinRule::NoWarmLayer => write!(f, "no warm layer below 500 hPa: snow"),
+            BourgouinRule::SurfaceWarmLayer { pa } => write!(
+                f,
+                "surface warm layer {pa:.1} J/kg: snow below {SURFACE_MELT_START}, rain above {MELT_COMPLETE}, mixed between"
+            ),
+            BourgouinRule::WeakWarmLayerAloft { pa, surface_pa } => {
+                write!(
+                    f,
+                    "warm layer aloft {pa:.1} J/kg, below {ALOFT_MELT}: the snow does not melt in it"
+                )?;
+                surface(f, surface_pa, "snow")
+            }
+            BourgouinRule::WarmLayerAloft { pa, na, surface_pa } => {
+                write!(
+                    f,
+                    "warm layer aloft {pa:.1} J/kg, {ALOFT_MELT} or more: the snow melts; cold layer below {na:.1} J/kg: ice pellets above {:.1}, freezing rain below {:.1}",
+                    REFREEZE_END + REFREEZE_PER_PA * pa,
+                    REFREEZE_START + REFREEZE_PER_PA * pa
+                )?;
+                surface(f, surface_pa, "pellets")
+            }
+        }
+    }
 }
 
 #[cfg(test)]
@@ -609,10 +754,82 @@ mod tests {
         }
     }
 
+    #[test]
+    fn a_warm_layer_aloft_of_2_j_per_kg_or_more_melts_the_snow() {
+        // Bourgouin (2000): a warm layer aloft below 2 J/kg leaves snow; from 2 J/kg the snow
+        // melts and the cold layer below decides. Outside the ±0.5 J/kg ramp the rule is exact.
+        for (pa, snow) in [(1.4, 1.0), (2.6, 0.0), (8.0, 0.0), (12.0, 0.0)] {
+            let (p, t) = warm_nose(150.0, pa, 85_000.0);
+            let f = bourgouin(&p, &t);
+            assert_eq!(f.snow, snow, "PA {pa}: {f:?}");
+            assert_valid(&f);
+        }
+        // At the line itself the ramp is half-way.
+        let (p, t) = warm_nose(150.0, 2.0, 85_000.0);
+        assert!((bourgouin(&p, &t).snow - 0.5).abs() < 1e-9);
+    }
+
+    #[test]
+    fn worked_examples_of_the_paper_thresholds() {
+        // Bourgouin (2000) thresholds (as in open post-processors): a 5 J/kg warm layer aloft
+        // melts the snow; a deep cold layer (NA 150 > 66 + 0.66·5 = 69.3) refreezes it to ice
+        // pellets, a shallow one (NA 20 < 46 + 0.66·5 = 49.3) leaves freezing rain, and NA 59.3
+        // (half-way between 49.3 and 69.3) gives half of each.
+        let at = |na: f64, p_x: f64| {
+            let (p, t) = warm_nose(na, 5.0, p_x);
+            bourgouin(&p, &t)
+        };
+        assert_eq!(at(150.0, 85_000.0).ice_pellets, 1.0);
+        assert_eq!(at(20.0, 97_000.0).freezing_rain, 1.0);
+        let mid = at(59.3, 92_000.0);
+        assert!((mid.ice_pellets - 0.5).abs() < 1e-9 && (mid.freezing_rain - 0.5).abs() < 1e-9);
+        for na in [150.0, 20.0, 59.3] {
+            assert_eq!(at(na, 92_000.0).snow, 0.0);
+        }
+    }
+
+    #[test]
+    fn the_rule_that_decides_is_named() {
+        let rule = |p: &[f64], t: &[f64]| bourgouin_rule(p, t).unwrap();
+        assert_eq!(
+            rule(&[100_000.0, 50_000.0], &[268.15, 243.15]),
+            BourgouinRule::NoWarmLayer
+        );
+        let (p, t) = surface_warm(9.4);
+        match rule(&p, &t) {
+            BourgouinRule::SurfaceWarmLayer { pa } => assert!((pa - 9.4).abs() < 1e-9),
+            r => panic!("{r:?}"),
+        }
+        let (p, t) = warm_nose(150.0, 1.4, 85_000.0);
+        match rule(&p, &t) {
+            BourgouinRule::WeakWarmLayerAloft { pa, surface_pa } => {
+                assert!((pa - 1.4).abs() < 1e-9 && surface_pa == 0.0)
+            }
+            r => panic!("{r:?}"),
+        }
+        let (p, t) = warm_nose(150.0, 5.0, 85_000.0);
+        let r = rule(&p, &t);
+        match r {
+            BourgouinRule::WarmLayerAloft { pa, na, surface_pa } => {
+                assert!((pa - 5.0).abs() < 1e-9 && (na - 150.0).abs() < 1e-9 && surface_pa == 0.0)
+            }
+            r => panic!("{r:?}"),
+        }
+        // The thresholds shown are the paper's for this PA: 66 + 0.66·5 and 46 + 0.66·5.
+        let text = r.to_string();
+        assert!(
+            text.contains("above 69.3") && text.contains("below 49.3"),
+            "{text}"
+        );
+        assert!(bourgouin_rule(&[48_000.0, 40_000.0], &[250.0, 240.0]).is_none());
+    }
+
     fn sweep_is_continuous(profile: impl Fn(f64) -> (Vec<f64>, Vec<f64>), label: &str) {
         let mut prev: Option<PtypeFractions> = None;
-        for i in 0..=1000 {
-            let x = -5.0 + 0.01 * i as f64;
+        // 0.0005 K steps: the ±0.5 J/kg ramp about Bourgouin's 2 J/kg line is steep (a nose's
+        // area moves by ~30–50 J/kg per K), but continuous.
+        for i in 0..=20_000 {
+            let x = -5.0 + 0.0005 * i as f64;
             let (p, t) = profile(x);
             let f = bourgouin(&p, &t);
             assert_valid(&f);
@@ -626,8 +843,8 @@ mod tests {
 
     #[test]
     fn fractions_are_continuous_in_surface_temperature() {
-        // Sweep of the surface temperature from −5 to +5 °C in 0.01 K steps, profile above
-        // fixed: no fraction may change by more than 0.05 between neighbours.
+        // Sweep of the surface temperature from −5 to +5 °C, profile above fixed: no fraction
+        // may change by more than 0.05 between neighbours.
         let cold_aloft = |x: f64| {
             (
                 vec![100_000.0, 95_000.0, 85_000.0, 70_000.0, 50_000.0],
@@ -657,7 +874,7 @@ mod tests {
     #[test]
     fn fractions_are_continuous_when_the_whole_column_warms() {
         // Shifting a warm-nose sounding by −5…+5 K makes layers appear, vanish and merge; the
-        // fractions must still move smoothly (0.01 K steps, at most 0.05 per step).
+        // fractions must still move smoothly (at most 0.05 per step).
         let base_p = [
             100_000.0, 97_000.0, 93_000.0, 88_000.0, 83_000.0, 78_000.0, 70_000.0, 60_000.0,
             50_000.0,
@@ -724,12 +941,16 @@ mod tests {
         }
 
         #[test]
-        fn colder_column_never_has_less_snow(
+        fn colder_column_never_has_less_snow_within_one_rule(
             p_sfc in 85_000.0..105_000.0_f64,
-            temps in proptest::collection::vec(-8.0..8.0_f64, 3..20),
+            temps in proptest::collection::vec(-8.0..8.0_f64, 3..10),
             delta in 0.0..4.0_f64,
         ) {
-            // Physical monotonicity (common practice: colder air, more snow).
+            // Physical monotonicity (common practice: colder air, more snow) holds within each
+            // of Bourgouin's (2000) cases; across them it does not (a surface warm layer of
+            // 4 J/kg is snow, the same layer over a thin cold surface layer freezing rain). So
+            // the check runs where both columns have the same layers and every cold layer under
+            // a warm one is past the 5.6 J/kg blend; elsewhere only validity is checked.
             let n = temps.len();
             let p: Vec<f64> = (0..n)
                 .map(|i| p_sfc * (45_000.0 / p_sfc).powf(i as f64 / (n - 1) as f64))
@@ -740,7 +961,19 @@ mod tests {
             let f_cold = bourgouin(&p, &cold);
             assert_valid(&f_warm);
             assert_valid(&f_cold);
-            prop_assert!(f_cold.snow >= f_warm.snow - 1e-12, "{:?} → {:?}", f_warm, f_cold);
+            let one_case = |l: &[Layer]| {
+                (0..l.len()).all(|k| {
+                    l[k].area >= 0.0
+                        || !l[k + 1..].iter().any(|u| u.area > 0.0)
+                        || -l[k].area >= COLD_BELOW_BLEND
+                })
+            };
+            let (lw, lc) = (areas(&p, &warm), areas(&p, &cold));
+            let same = lw.len() == lc.len()
+                && lw.iter().zip(&lc).all(|(a, b)| (a.area > 0.0) == (b.area > 0.0));
+            if same && one_case(&lw) && one_case(&lc) {
+                prop_assert!(f_cold.snow >= f_warm.snow - 1e-12, "{:?} → {:?}", f_warm, f_cold);
+            }
         }
     }
 }

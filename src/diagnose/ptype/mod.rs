@@ -16,7 +16,9 @@ pub mod energy_area;
 pub mod partial_thickness;
 pub mod surface_logistic;
 
-pub use energy_area::{bourgouin, bourgouin_ln, energy_areas, Layer};
+pub use energy_area::{
+    bourgouin, bourgouin_ln, bourgouin_rule, energy_areas, BourgouinRule, Layer,
+};
 pub use partial_thickness::partial_thickness;
 pub use surface_logistic::surface_logistic;
 

@@ -1,8 +1,8 @@
-//! The forecasters' partial-thickness rules for precipitation type.
+//! The partial-thickness rules for precipitation type (Cantin & Bachand 1993).
 
 use super::{smoothstep, PtypeFractions};
 
-/// Partial-thickness thresholds, m [common practice].
+/// Partial-thickness thresholds, m (Cantin & Bachand 1993, from memory; common practice since).
 const SNOW_850_700_M: f64 = 1540.0;
 const FREEZING_RAIN_850_700_M: f64 = 1560.0;
 const RAIN_1000_850_M: f64 = 1310.0;
@@ -18,8 +18,11 @@ fn ramp_about(centre: f64, half_width: f64, x: f64) -> f64 {
 }
 
 /// Precipitation-type fractions from partial thicknesses (m) and the surface wet-bulb
-/// temperature (K), by the forecasters' partial-thickness rules [common practice; no single
-/// peer-reviewed source]:
+/// temperature (K), by the partial-thickness rules of Cantin, A., and D. Bachand, 1993:
+/// *Synoptic pattern recognition and partial thickness techniques as a tool for precipitation
+/// types forecasting associated with a winter storm.* Technical Note 93N-002, 9 pp. (the
+/// algorithm Bourgouin 2000 compares his method with; the report's title, number and the
+/// thresholds are from memory, and they are common practice since):
 /// - 850–700 hPa ≤ 1540 m: snow; 1540–1560 m: ice pellets (melting aloft, refreezing below);
 ///   > 1560 m: liquid, which is freezing rain on a surface with wet-bulb ≤ 0 °C, else rain;
 /// - 1000–850 hPa > 1310 m: the low levels melt whatever falls into them (liquid);
@@ -29,8 +32,13 @@ fn ramp_about(centre: f64, half_width: f64, x: f64) -> f64 {
 /// Ramps (smoothstep): ±5 m about 1540, 1560 and 1310 m (≈ ±1 K of layer-mean temperature),
 /// ±20 m about 5400 m (the same ≈ ±1 K), ±0.25 K about 0 °C for the freezing-rain split.
 ///
-/// Missing levels: pass NaN for a thickness whose levels are below ground. A NaN 1000–850 hPa
-/// thickness means no low-level layer to melt in (that term drops out); a NaN 850–700 hPa
+/// Missing levels: pass NaN for a thickness whose levels are below ground. Where the ground is
+/// above 1000 hPa but below 850 hPa, the engine passes the layer from the ground to 850 hPa at
+/// its own mean temperature as the 1000–850 hPa thickness
+/// ([`Profile::low_level_thickness`](crate::diagnose::profile::Profile::low_level_thickness));
+/// the published rules are for stations near sea level and say nothing of higher ground. A NaN
+/// 1000–850 hPa thickness (850 hPa at or below the ground) means no low-level layer to melt in
+/// (that term drops out); a NaN 850–700 hPa
 /// thickness falls back to the 1000–500 hPa line; if both 850–700 and 1000–500 are NaN the
 /// result is NaN.
 ///

@@ -26,12 +26,28 @@ pub enum VerifyError {
     Reports {
         /// The reports file.
         path: PathBuf,
-        /// 1-based line (the header is line 1; 0: the file as a whole).
+        /// 1-based line (the header is line 1).
         line: usize,
         /// The column, or what of the file.
         field: String,
         /// What is wrong and what was expected.
         what: String,
+    },
+    /// The reports file cannot be read as CSV at all.
+    #[error("{path}: cannot read the reports: {what}")]
+    ReportsFile {
+        /// The reports file.
+        path: PathBuf,
+        /// The cause.
+        what: String,
+    },
+    /// No report lies where the run has data.
+    #[error("{path}: no report could be scored ({reasons}); are the reports for this run's area?")]
+    NothingScored {
+        /// The reports file.
+        path: PathBuf,
+        /// Each reason with its count.
+        reasons: String,
     },
     /// A file of the run cannot be read or is not what a run writes.
     #[error("{path}: {what}; is this the output folder of a complete trackswing run?")]
@@ -71,18 +87,20 @@ pub fn verify(out_dir: &Path, reports_file: &Path) -> Result<Verified, VerifyErr
     let reports = reports::read_reports(reports_file)?;
     let assessment = assess::assess(&run, &reports);
     if assessment.scored.is_empty() {
-        return Err(VerifyError::Reports {
+        let mut reasons: Vec<(String, usize)> = Vec::new();
+        for sk in &assessment.skipped {
+            match reasons.iter_mut().find(|(r, _)| *r == sk.reason) {
+                Some(r) => r.1 += 1,
+                None => reasons.push((sk.reason.clone(), 1)),
+            }
+        }
+        return Err(VerifyError::NothingScored {
             path: reports_file.to_path_buf(),
-            line: 0,
-            field: "lat/lon".into(),
-            what: format!(
-                "no report could be scored ({}: {})",
-                assessment.skipped.len(),
-                assessment
-                    .skipped
-                    .first()
-                    .map_or(String::new(), |s| s.reason.clone())
-            ),
+            reasons: reasons
+                .iter()
+                .map(|(r, n)| format!("{n} {r}"))
+                .collect::<Vec<_>>()
+                .join("; "),
         });
     }
     let folder = write::write_verification(out_dir, reports_file, &run, &assessment)?;

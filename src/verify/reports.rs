@@ -44,7 +44,10 @@ pub fn read_reports(path: &Path) -> Result<Vec<Report>, VerifyError> {
         .trim(csv::Trim::All)
         .flexible(false)
         .from_path(path)
-        .map_err(|e| bad(0, "file", e.to_string()))?;
+        .map_err(|e| VerifyError::ReportsFile {
+            path: path.to_path_buf(),
+            what: e.to_string(),
+        })?;
     let header: Vec<String> = r
         .headers()
         .map_err(|e| bad(1, "header", e.to_string()))?
@@ -156,7 +159,10 @@ pub fn read_reports(path: &Path) -> Result<Vec<Report>, VerifyError> {
         });
     }
     if out.is_empty() {
-        return Err(bad(1, "rows", "the file holds no reports".into()));
+        return Err(VerifyError::ReportsFile {
+            path: path.to_path_buf(),
+            what: "the file holds no reports, only a header".into(),
+        });
     }
     Ok(out)
 }

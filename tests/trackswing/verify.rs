@@ -218,8 +218,17 @@ fn bad_reports_stop_with_exit_3_naming_line_and_field_and_write_nothing() {
     let p = base.path().join("far.csv");
     std::fs::write(&p, "lat,lon,snow_cm\n-40,120,3\n").unwrap();
     let o = verify(&out, &p);
-    assert_eq!(o.status.code(), Some(3));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(3), "{err}");
+    assert!(
+        err.contains("no report could be scored (1 outside the run's grid)"),
+        "{err}"
+    );
     assert!(!out.join("verification").exists());
+    // A missing reports file.
+    let o = verify(&out, &base.path().join("none.csv"));
+    assert_eq!(o.status.code(), Some(3));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("none.csv"));
     // Not a run's folder.
     let o = verify(base.path(), &p);
     assert_eq!(o.status.code(), Some(3));

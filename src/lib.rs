@@ -5,7 +5,8 @@
 //! scenario) → [`diagnose`] (precipitation type and snow-to-liquid ratio per column) →
 //! [`accumulate`] (per-scenario running totals) → [`summarise`] (min/max/range, towns) →
 //! [`write`] (GeoTIFF, GeoJSON, CSV, manifest, quicklook maps drawn with [`render`], and the
-//! HTML report). [`engine`] drives the stages over the time steps and is the one place where
+//! HTML report). After the storm, [`verify`] scores a finished run's scenarios against observed
+//! storm totals. [`engine`] drives the stages over the time steps and is the one place where
 //! work runs in parallel; [`shard`] splits its scenarios over several runs and merges them. [`sounding`] shows one cell's profile and what every method makes of
 //! it.
 //!
@@ -28,6 +29,7 @@ pub mod shift;
 pub mod sounding;
 pub mod summarise;
 pub mod units;
+pub mod verify;
 pub mod write;
 
 /// The caution every output and help text carries.

@@ -533,6 +533,12 @@ fn main() -> ExitCode {
             .map_err(Failure::Output)
         }
         Command::Sounding(a) => sounding(a),
+        Command::Verify(a) => commands::verify(a),
+        Command::ScoreTable => trackswing::verify::score_table::score_table(
+            std::io::stdin().lock(),
+            std::io::stdout().lock(),
+        )
+        .map_err(|e| Failure::Input(e.into())),
         Command::ThermoTable => trackswing::diagnose::thermo_table::thermo_table(
             std::io::stdin().lock(),
             std::io::stdout().lock(),

@@ -42,6 +42,9 @@ pub enum Command {
     Demo(DemoArgs),
     /// Write report.html (maps, bust-prone towns, settings) for a finished run's output folder.
     Report(ReportArgs),
+    /// After the storm: compare observed storm totals with a finished run's scenarios and write
+    /// OUT_DIR/verification/ (scores per report and per scenario, summary, heat map).
+    Verify(VerifyArgs),
     /// Write the invented demo storm's input files (used to build demo-grid/ and benchmark cases).
     #[command(hide = true)]
     MakeDemo(MakeDemoArgs),
@@ -51,6 +54,10 @@ pub enum Command {
     /// reference checks in tests/ref/.
     #[command(hide = true)]
     ThermoTable,
+    /// Score weighted ensembles from stdin (`y x1 w1 x2 w2 ...` per line: CRPS, F(y-), F(y)),
+    /// for the reference checks in tests/ref/.
+    #[command(hide = true)]
+    ScoreTable,
 }
 
 /// Settings shared by `run` and `demo`.
@@ -137,6 +144,18 @@ pub struct ReportArgs {
     /// The output folder of a finished run (with manifest.json).
     #[arg(value_name = "OUT_DIR")]
     pub out_dir: PathBuf,
+}
+
+/// `trackswing verify`.
+#[derive(Args, Debug)]
+pub struct VerifyArgs {
+    /// The output folder of a finished run (with manifest.json), or of a merge of shards.
+    #[arg(value_name = "OUT_DIR")]
+    pub out_dir: PathBuf,
+    /// Observed storm totals: CSV with lat, lon (degrees) and snow, its unit in a `units`
+    /// column (cm, in or mm) or the header (snow_cm, snow_in, snow_mm); optional name and type.
+    #[arg(long, value_name = "REPORTS.csv")]
+    pub reports: PathBuf,
 }
 
 /// What a run reads: a case file, or model files with their track and towns.

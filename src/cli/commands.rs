@@ -1,7 +1,7 @@
-//! `inspect` and `track`: resolve the files named on the command line, call the library, print
-//! or write the result.
+//! `inspect`, `track` and `verify`: resolve the files named on the command line, call the
+//! library, print or write the result.
 
-use super::args::TrackArgs;
+use super::args::{TrackArgs, VerifyArgs};
 use crate::Failure;
 use anyhow::{anyhow, Context};
 use std::path::PathBuf;
@@ -108,5 +108,43 @@ pub fn track(a: &TrackArgs) -> Result<(), Failure> {
         a.out.join("track.csv").display(),
         a.out.join("track.geojson").display()
     );
+    Ok(())
+}
+
+/// Verifies a finished run against the reports and prints the summary.
+pub fn verify(a: &VerifyArgs) -> Result<(), Failure> {
+    use trackswing::verify::VerifyError;
+    let v = trackswing::verify::verify(&a.out_dir, &a.reports).map_err(|e| match e {
+        VerifyError::Write(_) => Failure::Output(
+            anyhow::Error::from(e).context(format!("verifying {}", a.out_dir.display())),
+        ),
+        e => Failure::Input(e.into()),
+    })?;
+    let s = &v.assessment;
+    let u = v.run.units.snow_unit();
+    println!(
+        "{} reports scored, {} skipped (see skipped.csv)",
+        s.scored.len(),
+        s.skipped.len()
+    );
+    println!(
+        "mean CRPS {:.3} {u}; MAE of the run as issued {:.3} {u}; CRPS skill {:.3}",
+        s.mean_crps, s.issued_mae, s.crps_skill
+    );
+    println!(
+        "inside P10–P90: {:.0} % of the reports (80 % expected of a calibrated spread)",
+        s.inside_p10_p90 * 100.0
+    );
+    if let (Some(b), Some(best)) = (s.best, s.scenarios.first()) {
+        println!(
+            "best scenario: {} (MAE {:.3} {u}, bias {:+.3} {u}); {} scenario(s) within one standard error of it",
+            v.run.scenarios[b].label,
+            best.mae,
+            best.bias,
+            s.within_one_se.len()
+        );
+    }
+    println!("wrote {}", v.folder.display());
+    println!("{}", trackswing::CAUTION);
     Ok(())
 }

@@ -26,3 +26,4 @@ mod support;
 mod timing;
 mod towns;
 mod usage;
+mod verify;

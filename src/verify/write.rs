@@ -241,6 +241,7 @@ fn written(file: &str, kind: Kind, units: &str, description: &str) -> Written {
         units: units.into(),
         description: description.into(),
         bands: Vec::new(),
+        sha256: None,
     }
 }
 

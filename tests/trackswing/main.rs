@@ -25,4 +25,5 @@ mod shards;
 mod support;
 mod timing;
 mod towns;
+mod track_error;
 mod usage;

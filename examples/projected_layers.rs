@@ -212,7 +212,11 @@ fn main() -> anyhow::Result<()> {
             prior: trackswing::summarise::weights::TrackPrior::Gaussian {
                 cross_sigma_km: 50.0,
                 along_sigma_km: 50.0,
+                cross_mean_km: 0.0,
+                along_mean_km: 0.0,
+                basis: None,
             },
+            track_error: None,
             min_coverage: trackswing::summarise::coverage::DEFAULT_MIN_COVERAGE,
             snow_thresholds: legend::default_snow_thresholds(Units::Metric),
             ice_thresholds: legend::default_ice_thresholds(Units::Metric),

@@ -28,6 +28,7 @@ pub mod shard;
 pub mod shift;
 pub mod sounding;
 pub mod summarise;
+pub mod track_error;
 pub mod units;
 pub mod verify;
 pub mod write;

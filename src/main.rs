@@ -495,6 +495,7 @@ fn main() -> ExitCode {
         Command::Merge(a) => merge_plan(a),
         Command::Inspect(a) => commands::inspect(&a.inputs).map_err(Failure::Input),
         Command::Track(a) => commands::track(a),
+        Command::TrackError(a) => cli::track_error::track_error(a),
         Command::Demo(a) => demo_case().and_then(|case| {
             run_case(
                 Plan::CaseFile(&case),

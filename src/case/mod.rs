@@ -144,8 +144,11 @@ impl MethodOption {
 /// How the scenarios are weighed and summarised.
 #[derive(Clone, Debug)]
 pub struct SummarySettings {
-    /// The prior over track offsets.
+    /// The prior over track offsets (when `track_error` is set, a stand-in until the run's lead
+    /// time is known: the summary uses [`crate::summarise::lead_prior`]).
     pub prior: TrackPrior,
+    /// The track-error verification the prior is taken from at the run's lead time.
+    pub track_error: Option<crate::summarise::lead_prior::TrackErrorPrior>,
     /// Least share of the prior's weight with data for a cell to be summarised
     /// ([`crate::summarise::coverage`]).
     pub min_coverage: f64,
@@ -496,7 +499,10 @@ snow_ratio = "max-column-temperature"
             c.summary.prior,
             TrackPrior::Gaussian {
                 cross_sigma_km: 30.0,
-                along_sigma_km: crate::summarise::weights::EXAMPLE_ALONG_SIGMA_KM
+                along_sigma_km: crate::summarise::weights::EXAMPLE_ALONG_SIGMA_KM,
+                cross_mean_km: 0.0,
+                along_mean_km: 0.0,
+                basis: None,
             }
         );
         let load_err = |extra: &str| {
@@ -505,6 +511,16 @@ snow_ratio = "max-column-temperature"
                 .unwrap_err()
                 .to_string()
         };
+        let e = load_err("[weights]\nfrom_track_error = \"te.csv\"\n");
+        assert!(
+            e.contains("weights.from_track_error") && e.contains("te.csv"),
+            "{e}"
+        );
+        let e = load_err("[weights]\nfrom_track_error = \"te.csv\"\ncross_sigma_km = 5\n");
+        assert!(
+            e.contains("from_track_error") && e.contains("not both"),
+            "{e}"
+        );
         let e = load_err("[weights]\ncross_sigma_km = -5\n");
         assert!(e.contains("'weights'") && e.contains("positive"), "{e}");
         let e = load_err("[weights]\nexplicit = [{ cross_km = 0, along_km = 0, weight = 1 }]\n");

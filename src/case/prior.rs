@@ -2,17 +2,45 @@
 
 use super::schema::WeightsFile;
 use super::Overrides;
+use crate::summarise::lead_prior::TrackErrorPrior;
 use crate::summarise::weights::{read_weights_csv, TrackPrior};
 use std::path::Path;
 
-/// The prior from `[weights]` and the σ flags (which win, and select the Gaussian). Errors name
-/// the field.
+/// The prior from `[weights]` and the σ flags (which win, and select the Gaussian), and the
+/// track-error verification it is taken from at the run's lead time, when `from_track_error`
+/// names one (the σ flags win over it too). Errors name the field.
 pub(super) fn resolve_prior(
     dir: &Path,
     w: &WeightsFile,
     over: &Overrides,
-) -> Result<TrackPrior, (String, String)> {
+) -> Result<(TrackPrior, Option<TrackErrorPrior>), (String, String)> {
     let sigma_flags = over.cross_sigma.is_some() || over.along_sigma.is_some();
+    let track_error = match &w.from_track_error {
+        Some(_)
+            if w.explicit.is_some()
+                || w.explicit_file.is_some()
+                || w.cross_sigma_km.is_some()
+                || w.along_sigma_km.is_some() =>
+        {
+            return Err((
+                "weights.from_track_error".into(),
+                "give either from_track_error or σ (cross_sigma_km, along_sigma_km) or explicit weights, not both".into(),
+            ))
+        }
+        Some(f) if !sigma_flags => {
+            let source = dir.join(f);
+            let bins = crate::track_error::files::read_summary(&source)
+                .map_err(|e| ("weights.from_track_error".to_string(), e.to_string()))?;
+            if bins.is_empty() {
+                return Err((
+                    "weights.from_track_error".into(),
+                    format!("{}: no lead-time bins; expected the summary `trackswing track-error` writes", source.display()),
+                ));
+            }
+            Some(TrackErrorPrior { source, bins })
+        }
+        _ => None,
+    };
     let explicit = match (&w.explicit, &w.explicit_file) {
         (Some(_), Some(_)) => {
             return Err((
@@ -45,9 +73,9 @@ pub(super) fn resolve_prior(
             "give either σ (cross_sigma_km, along_sigma_km) or explicit weights, not both".into(),
         ));
     }
-    match explicit {
-        Some(e) if !sigma_flags => Ok(e),
-        _ => Ok(TrackPrior::Gaussian {
+    let prior = match explicit {
+        Some(e) if !sigma_flags => e,
+        _ => TrackPrior::Gaussian {
             cross_sigma_km: over
                 .cross_sigma
                 .or(w.cross_sigma_km)
@@ -56,6 +84,10 @@ pub(super) fn resolve_prior(
                 .along_sigma
                 .or(w.along_sigma_km)
                 .unwrap_or(crate::summarise::weights::EXAMPLE_ALONG_SIGMA_KM),
-        }),
-    }
+            cross_mean_km: 0.0,
+            along_mean_km: 0.0,
+            basis: None,
+        },
+    };
+    Ok((prior, track_error))
 }

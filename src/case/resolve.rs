@@ -557,7 +557,7 @@ fn resolve_summary(
         crate::render::legend::default_ice_thresholds(units),
         units.liquid_unit(),
     )?;
-    let prior =
+    let (prior, track_error) =
         resolve_prior(here.dir, w, over).map_err(|(field, what)| here.invalid(&field, what))?;
     scenario_weights(
         &prior,
@@ -583,6 +583,7 @@ fn resolve_summary(
     };
     Ok(SummarySettings {
         prior,
+        track_error,
         min_coverage,
         snow_thresholds,
         ice_thresholds,

@@ -130,6 +130,9 @@ pub struct WeightsFile {
     pub explicit: Option<Vec<ExplicitWeight>>,
     /// Explicit weights from a CSV (`cross_km,along_km,weight`).
     pub explicit_file: Option<String>,
+    /// σ and centre from a track-error verification (`track_error_summary.csv` of
+    /// `trackswing track-error`), at the run's lead time.
+    pub from_track_error: Option<String>,
     /// Least share of the prior's weight with data for a cell to be summarised (0 < x ≤ 1).
     pub min_coverage: Option<f64>,
 }

@@ -38,6 +38,9 @@ pub enum Command {
     /// Find the storm track from the model's sea-level pressure and write it as CSV and
     /// GeoJSON for `run --track`.
     Track(TrackArgs),
+    /// Verify past forecast tracks against their analysed tracks: cross- and along-track error
+    /// by lead time, and the σ and bias a case's `[weights] from_track_error` reads.
+    TrackError(TrackErrorArgs),
     /// Run the shipped demo case (an invented storm over an invented region).
     Demo(DemoArgs),
     /// Write report.html (maps, bust-prone towns, settings) for a finished run's output folder.
@@ -233,6 +236,28 @@ pub struct TrackArgs {
     /// Folder for track.csv and track.geojson.
     #[arg(long, value_name = "DIR", default_value = ".")]
     pub out: PathBuf,
+}
+
+/// `trackswing track-error`.
+#[derive(Args, Debug)]
+pub struct TrackErrorArgs {
+    /// Forecast tracks of past cases (CSV or GeoJSON, as for `run --track`).
+    #[arg(long, value_name = "FILE", required = true, num_args = 1..)]
+    pub forecast: Vec<PathBuf>,
+    /// The analysed track of each case, in the same order as --forecast (the first analysis
+    /// goes with the first forecast, and so on).
+    #[arg(long, value_name = "FILE", required = true, num_args = 1..)]
+    pub analysis: Vec<PathBuf>,
+    /// Folder for track_error.csv and track_error_summary.csv.
+    #[arg(long, value_name = "DIR")]
+    pub out: PathBuf,
+    /// Reference time of the forecasts (RFC 3339): one for all, or one per forecast in order
+    /// (default: each forecast track's first time).
+    #[arg(long, value_name = "TIME", num_args = 1..)]
+    pub reference_time: Vec<String>,
+    /// Width of the lead-time bins, hours.
+    #[arg(long, value_name = "H", default_value_t = 12.0)]
+    pub bin_hours: f64,
 }
 
 /// `trackswing demo`.

@@ -14,6 +14,7 @@ pub mod aligned;
 pub mod bust;
 pub mod coverage;
 pub mod ice;
+pub mod lead_prior;
 pub mod members;
 pub mod mixture;
 pub mod names;

@@ -10,7 +10,7 @@ use super::quantiles::DistributionLayers;
 use super::scope::{Needs, Scope};
 use super::sensitivity::{flip_layers, sensitivity_layer, Axis, FlipLayers};
 use super::types::{flip_cells, TypeFlip};
-use super::weights::{scenario_weights, WeightsError};
+use super::weights::{scenario_weights, TrackPrior, WeightsError};
 use super::{spread, towns_in, Spread, TownSummary};
 use crate::accumulate::period::Period;
 use crate::case::Case;
@@ -18,6 +18,9 @@ use crate::engine::RunResult;
 
 /// What a run's scenarios say together.
 pub struct Summary {
+    /// The track-error prior the weights come from (at the run's lead time when the case sets
+    /// it from a track-error verification).
+    pub prior: crate::summarise::weights::TrackPrior,
     /// Normalised weight per offset scenario (the track-error prior).
     pub weights: Vec<f64>,
     /// Weight of every summarised scenario (the prior's in a single run; every group's
@@ -144,9 +147,10 @@ pub fn summarise_ensemble(
     e: &crate::engine::Ensemble,
 ) -> Result<Summary, WeightsError> {
     let primary = &e.groups[0].run;
-    let prior = scenario_weights(&case.summary.prior, &primary.scenarios)?;
+    let track_prior = prior_of_run(case, primary)?;
+    let prior = scenario_weights(&track_prior, &primary.scenarios)?;
     let pool = Pool::ensemble(case, e, &prior);
-    let mut s = summarise_pool(case, primary, prior, &pool);
+    let mut s = summarise_pool(case, primary, (track_prior, prior), &pool);
     s.members = Some(super::members::summarise_members(
         case, e, &s.weights, &s.ranked,
     ));
@@ -155,14 +159,29 @@ pub fn summarise_ensemble(
 
 /// Summarises a run under the case's prior, minimum coverage and thresholds.
 pub fn summarise(case: &Case, r: &RunResult) -> Result<Summary, WeightsError> {
-    let prior = scenario_weights(&case.summary.prior, &r.scenarios)?;
+    let track_prior = prior_of_run(case, r)?;
+    let prior = scenario_weights(&track_prior, &r.scenarios)?;
     let pool = Pool::single(r, &prior);
-    Ok(summarise_pool(case, r, prior.clone(), &pool))
+    Ok(summarise_pool(case, r, (track_prior, prior.clone()), &pool))
+}
+
+/// The case's prior, or, when the case reads it from a track-error verification, the prior at
+/// the lead time of run `r` ([`super::lead_prior`]).
+fn prior_of_run(case: &Case, r: &RunResult) -> Result<TrackPrior, WeightsError> {
+    match &case.summary.track_error {
+        Some(te) => te.at(r.reference, &r.valid_times),
+        None => Ok(case.summary.prior.clone()),
+    }
 }
 
 /// Summarises the scenarios of `pool`; `r` gives the grid, the towns, the offsets and the
-/// run as issued, `prior` the prior's weight of each offset.
-fn summarise_pool(case: &Case, r: &RunResult, prior: Vec<f64>, pool: &Pool<'_>) -> Summary {
+/// run as issued, `prior` the prior and its weight of each offset.
+fn summarise_pool(
+    case: &Case,
+    r: &RunResult,
+    (track_prior, prior): (TrackPrior, Vec<f64>),
+    pool: &Pool<'_>,
+) -> Summary {
     let coverage = PriorCoverage::of(&pool.totals, &pool.weights, case.summary.min_coverage);
     let snowfall: Vec<&[f32]> = pool.totals.iter().map(|t| t.snowfall.as_slice()).collect();
     let snow_spread = spread(&snowfall, &coverage);
@@ -217,6 +236,7 @@ fn summarise_pool(case: &Case, r: &RunResult, prior: Vec<f64>, pool: &Pool<'_>) 
         towns: towns_in(&r.grid, &r.towns, &pool.totals),
         type_flips,
         onsets,
+        prior: track_prior,
         weights: prior,
         pooled_weights: pool.weights.clone(),
         names: pool.names.clone(),

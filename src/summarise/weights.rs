@@ -2,7 +2,8 @@
 //!
 //! Two kinds of prior:
 //! - **Gaussian** in the cross- and along-track offsets, independent axes, centred on the model
-//!   as issued: `w ∝ exp(−½·((c/σc)² + (a/σa)²)) · Δc · Δa`, where Δc and Δa are the widths of
+//!   as issued or, when set from a track-error verification ([`super::lead_prior`]), on its mean
+//!   error (μc, μa): `w ∝ exp(−½·(((c−μc)/σc)² + ((a−μa)/σa)²)) · Δc · Δa`, where Δc and Δa are the widths of
 //!   offset space each scenario stands for (half the gap to each neighbour on its axis, the full
 //!   gap at the ends), so that unevenly spaced offsets do not bias the result. On evenly spaced
 //!   offsets every width is the same and the weight is the density alone.
@@ -29,12 +30,24 @@ const SAME_OFFSET_KM: f64 = 1e-6;
 #[derive(Clone, Debug, PartialEq, Serialize)]
 #[serde(tag = "kind", rename_all = "lowercase")]
 pub enum TrackPrior {
-    /// Independent Gaussians across and along the track, centred on the model as issued.
+    /// Independent Gaussians across and along the track, centred on the model as issued unless
+    /// a mean is given.
     Gaussian {
         /// σ across the track, km.
         cross_sigma_km: f64,
         /// σ along the track, km.
         along_sigma_km: f64,
+        /// Centre across the track, km (positive left of the motion): the mean cross-track
+        /// error of past forecasts; 0 (not written) when centred on the model as issued.
+        #[serde(skip_serializing_if = "is_zero")]
+        cross_mean_km: f64,
+        /// Centre along the track, km (positive ahead); 0 (not written) when centred on the
+        /// model as issued.
+        #[serde(skip_serializing_if = "is_zero")]
+        along_mean_km: f64,
+        /// Where σ and the centre came from, when from a track-error verification.
+        #[serde(skip_serializing_if = "Option::is_none")]
+        basis: Option<String>,
     },
     /// One weight per offset.
     Explicit {
@@ -50,8 +63,16 @@ impl Default for TrackPrior {
         Self::Gaussian {
             cross_sigma_km: EXAMPLE_CROSS_SIGMA_KM,
             along_sigma_km: EXAMPLE_ALONG_SIGMA_KM,
+            cross_mean_km: 0.0,
+            along_mean_km: 0.0,
+            basis: None,
         }
     }
+}
+
+/// A prior centred on the model as issued leaves its centre out of the manifest.
+fn is_zero(v: &f64) -> bool {
+    *v == 0.0
 }
 
 /// The weight of one offset.
@@ -72,6 +93,43 @@ pub enum WeightsError {
     /// σ not positive.
     #[error("σ must be a positive number of km, got {0}")]
     BadSigma(f64),
+    /// The prior's centre is not a number.
+    #[error("the prior's centre must be a finite number of km, got {0}")]
+    BadMean(f64),
+    /// The track-error summary has no bin for the run's lead time.
+    #[error(
+        "{file}: no lead-time bin holds the run's lead of {lead_h} h ({how}); its bins are {bins}"
+    )]
+    NoLeadBin {
+        /// The summary file.
+        file: String,
+        /// The run's lead time, hours.
+        lead_h: f64,
+        /// How the lead was taken.
+        how: String,
+        /// The bins the file has.
+        bins: String,
+    },
+    /// The bin of the run's lead time has no σ.
+    #[error("{file}: the lead-time bin {from_h}–{to_h} h (the run's lead of {lead_h} h) has {n} error(s) and no σ; at least two are needed (use more past cases or wider bins)")]
+    BinWithoutSigma {
+        /// The summary file.
+        file: String,
+        /// The run's lead time, hours.
+        lead_h: f64,
+        /// Start of the bin, hours.
+        from_h: f64,
+        /// End of the bin, hours.
+        to_h: f64,
+        /// Errors in the bin.
+        n: usize,
+    },
+    /// A run without steps has no lead time.
+    #[error("{file}: the run has no steps, so no lead time to pick a track-error bin for")]
+    NoLeadTime {
+        /// The summary file.
+        file: String,
+    },
     /// A weight negative or not finite.
     #[error("weight {weight} for cross {cross_km} km, along {along_km} km: a weight must be a finite number ≥ 0")]
     BadWeight {
@@ -152,7 +210,13 @@ fn axis_width(u: &[f64], v: f64) -> f64 {
 /// use trackswing::scenario::scenario_set;
 /// use trackswing::summarise::weights::{scenario_weights, TrackPrior};
 /// let s = scenario_set(&[-50.0, 0.0, 50.0], &[0.0]);
-/// let prior = TrackPrior::Gaussian { cross_sigma_km: 50.0, along_sigma_km: 50.0 };
+/// let prior = TrackPrior::Gaussian {
+///     cross_sigma_km: 50.0,
+///     along_sigma_km: 50.0,
+///     cross_mean_km: 0.0,
+///     along_mean_km: 0.0,
+///     basis: None,
+/// };
 /// let w = scenario_weights(&prior, &s).unwrap();
 /// // 1σ either side: e^(−1/2) relative to the centre; the centre gets 1/(1 + 2e^(−1/2)).
 /// assert!((w[1] - 1.0 / (1.0 + 2.0 * (-0.5f64).exp())).abs() < 1e-12);
@@ -165,10 +229,18 @@ pub fn scenario_weights(
         TrackPrior::Gaussian {
             cross_sigma_km,
             along_sigma_km,
+            cross_mean_km,
+            along_mean_km,
+            ..
         } => {
             for s in [*cross_sigma_km, *along_sigma_km] {
                 if !(s.is_finite() && s > 0.0) {
                     return Err(WeightsError::BadSigma(s));
+                }
+            }
+            for m in [*cross_mean_km, *along_mean_km] {
+                if !m.is_finite() {
+                    return Err(WeightsError::BadMean(m));
                 }
             }
             let cross = axis_values(scenarios.iter().map(|s| s.cross_km));
@@ -176,7 +248,10 @@ pub fn scenario_weights(
             scenarios
                 .iter()
                 .map(|s| {
-                    let (zc, za) = (s.cross_km / cross_sigma_km, s.along_km / along_sigma_km);
+                    let (zc, za) = (
+                        (s.cross_km - cross_mean_km) / cross_sigma_km,
+                        (s.along_km - along_mean_km) / along_sigma_km,
+                    );
                     (-0.5 * (zc * zc + za * za)).exp()
                         * axis_width(&cross, s.cross_km)
                         * axis_width(&along, s.along_km)
@@ -299,6 +374,9 @@ mod tests {
         let prior = TrackPrior::Gaussian {
             cross_sigma_km: 50.0,
             along_sigma_km: 100.0,
+            cross_mean_km: 0.0,
+            along_mean_km: 0.0,
+            basis: None,
         };
         let w = scenario_weights(&prior, &s).unwrap();
         assert!((w.iter().sum::<f64>() - 1.0).abs() < 1e-12);
@@ -312,6 +390,26 @@ mod tests {
     }
 
     #[test]
+    fn a_shifted_centre_weighs_offsets_by_their_distance_from_it() {
+        // Closed form: centred at +50 km across with σ 50 km on {0, 50, 100}, the offsets 0 and
+        // 100 are 1σ from the centre: weights e^(−1/2), 1, e^(−1/2) over their sum.
+        let s = scenario_set(&[0.0, 50.0, 100.0], &[0.0]);
+        let prior = TrackPrior::Gaussian {
+            cross_sigma_km: 50.0,
+            along_sigma_km: 50.0,
+            cross_mean_km: 50.0,
+            along_mean_km: 0.0,
+            basis: None,
+        };
+        let w = scenario_weights(&prior, &s).unwrap();
+        let e = (-0.5f64).exp();
+        let want = [e, 1.0, e].map(|x| x / (1.0 + 2.0 * e));
+        for (got, want) in w.iter().zip(want) {
+            assert!((got - want).abs() < 1e-12, "{w:?}");
+        }
+    }
+
+    #[test]
     fn uneven_offsets_are_weighted_by_the_width_they_stand_for() {
         // Offsets −100, 0, 20: widths 100, 60, 20. With a huge σ the prior is flat and the
         // weights are the widths over their sum (100, 60, 20)/180.
@@ -319,6 +417,9 @@ mod tests {
         let prior = TrackPrior::Gaussian {
             cross_sigma_km: 1e9,
             along_sigma_km: 1e9,
+            cross_mean_km: 0.0,
+            along_mean_km: 0.0,
+            basis: None,
         };
         let w = scenario_weights(&prior, &s).unwrap();
         for (got, want) in w.iter().zip([100.0 / 180.0, 60.0 / 180.0, 20.0 / 180.0]) {
@@ -369,6 +470,9 @@ mod tests {
         let bad_sigma = TrackPrior::Gaussian {
             cross_sigma_km: 0.0,
             along_sigma_km: 10.0,
+            cross_mean_km: 0.0,
+            along_mean_km: 0.0,
+            basis: None,
         };
         assert_eq!(
             scenario_weights(&bad_sigma, &s),

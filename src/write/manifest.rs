@@ -104,6 +104,9 @@ pub struct About<'a> {
     pub period: Option<&'a Period>,
     /// Normalised weight per scenario.
     pub weights: &'a [f64],
+    /// The prior the weights come from (at the run's lead time when set from a track-error
+    /// verification).
+    pub prior: &'a crate::summarise::weights::TrackPrior,
     /// The members aligned on their weighted mean track, when they are.
     pub alignment: Option<&'a crate::engine::align::Alignment>,
     /// Each member's model reference time (its cycle), when its files say; empty for a run of
@@ -198,7 +201,7 @@ pub fn write_manifest(
         })
         .collect::<Result<Vec<Input>, WriteError>>()?;
     let decisions = serde_json::json!({
-        "track_error_prior": &case.summary.prior,
+        "track_error_prior": about.prior,
         "track_error_prior_note": "σ (or the explicit weights) should come from the user's own verification of track error at this lead time; the defaults are examples, not a climatology",
         "snow_thresholds": &case.summary.snow_thresholds,
         "snow_threshold_units": case.output.units.snow_unit(),

@@ -162,9 +162,17 @@ pub fn prior_words(p: &crate::summarise::weights::TrackPrior) -> String {
         TrackPrior::Gaussian {
             cross_sigma_km,
             along_sigma_km,
-        } => format!(
-            "Gaussian, σ {cross_sigma_km} km across and {along_sigma_km} km along the track (set σ from your own track-error verification)"
-        ),
+            cross_mean_km,
+            along_mean_km,
+            basis,
+        } => match basis {
+            None => format!(
+                "Gaussian, σ {cross_sigma_km} km across and {along_sigma_km} km along the track (set σ from your own track-error verification)"
+            ),
+            Some(basis) => format!(
+                "Gaussian, σ {cross_sigma_km} km across and {along_sigma_km} km along the track, centred {cross_mean_km} km across (left of the motion positive) and {along_mean_km} km along (ahead positive) the track as issued: the mean error of past forecasts ({basis})"
+            ),
+        },
         TrackPrior::Explicit { source, weights } => {
             format!("explicit weights for {} offsets ({source})", weights.len())
         }
@@ -199,10 +207,7 @@ fn write_decision_products(
     skipped: &mut Vec<NotComputed>,
 ) -> Result<Vec<Written>, WriteError> {
     let mut meta = meta(case, sum);
-    meta.push((
-        "track_error_prior".to_string(),
-        prior_words(&case.summary.prior),
-    ));
+    meta.push(("track_error_prior".to_string(), prior_words(&sum.prior)));
     let settings = decisions::DecisionSettings {
         units: case.output.units,
         snow_thresholds: &case.summary.snow_thresholds,
@@ -235,7 +240,7 @@ fn write_decision_products(
         title: &case.title,
         units: case.output.units,
         snow_thresholds: &case.summary.snow_thresholds,
-        prior_words: prior_words(&case.summary.prior),
+        prior_words: prior_words(&sum.prior),
         period: &sum.period_words,
         dominant_source: sum.members.as_ref().map(|m| m.dominant.as_slice()),
         groups: sum
@@ -499,6 +504,7 @@ fn write_set(
         not_computed: &skipped,
         period: sum.period.as_ref(),
         weights: &sum.weights,
+        prior: &sum.prior,
         alignment: ensemble.and_then(|e| e.alignment.as_ref().ok()),
         references: ensemble.map_or_else(Vec::new, |e| {
             (0..e.members())

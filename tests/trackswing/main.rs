@@ -25,5 +25,6 @@ mod shards;
 mod support;
 mod timing;
 mod towns;
+mod track_error;
 mod usage;
 mod verify;

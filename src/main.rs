@@ -150,9 +150,7 @@ fn run_case(
             Mode::Layers => {
                 trackswing::engine::run_groups(&case, threads, &progress).map_err(engine_failure)?
             }
-            Mode::Shard(shard) => {
-                return run_ensemble_shard(&case, threads, &progress, shard, common.quiet)
-            }
+            Mode::Shard(shard) => return run_shard(&case, threads, &progress, shard, common.quiet),
             Mode::Merge(given) => {
                 let paths = if given.is_empty() {
                     shard_files(&case.output.out_dir).map_err(Failure::Input)?
@@ -226,7 +224,8 @@ fn run_case(
     Ok(())
 }
 
-/// Runs one shard and writes its file.
+/// Runs one shard and writes its file; of a case with several members or methods, every
+/// member × method part the shard holds, each into its own file.
 fn run_shard(
     case: &Case,
     threads: usize,
@@ -234,12 +233,21 @@ fn run_shard(
     shard: trackswing::shard::Shard,
     quiet: bool,
 ) -> Result<(), Failure> {
+    use trackswing::shard::{ensemble, run_and_write};
     let started = std::time::Instant::now();
     let folder = trackswing::shard::default_folder(&case.output.out_dir);
-    let (result, path) = trackswing::shard::run_and_write(case, threads, progress, shard, &folder)
-        .map_err(|e| shard_failure(e, shard))?;
-    if !quiet {
-        console::shard_summary(case, &result, shard, &path, progress, started.elapsed());
+    if case.is_ensemble() {
+        let parts = ensemble::run_and_write_groups(case, threads, progress, shard, &folder)
+            .map_err(|e| shard_failure(e, shard))?;
+        if !quiet {
+            console::ensemble_shard_summary(case, &parts, shard, progress, started.elapsed());
+        }
+    } else {
+        let (result, path) = run_and_write(case, threads, progress, shard, &folder)
+            .map_err(|e| shard_failure(e, shard))?;
+        if !quiet {
+            console::shard_summary(case, &result, shard, &path, progress, started.elapsed());
+        }
     }
     Ok(())
 }
@@ -256,26 +264,6 @@ fn in_pool<T: Send>(threads: usize, f: impl FnOnce() -> T + Send) -> Result<T, F
 /// A merge that stopped: nothing was written.
 fn merge_failure(e: trackswing::shard::ShardError) -> Failure {
     stopped(anyhow::Error::from(e).context("the merge stopped; nothing was written"))
-}
-
-/// Runs shard `shard` of a case with several members or methods: every member × method part
-/// it holds, each into its own file.
-fn run_ensemble_shard(
-    case: &Case,
-    threads: usize,
-    progress: &console::Bar,
-    shard: trackswing::shard::Shard,
-    quiet: bool,
-) -> Result<(), Failure> {
-    let started = std::time::Instant::now();
-    let folder = trackswing::shard::default_folder(&case.output.out_dir);
-    let parts =
-        trackswing::shard::ensemble::run_and_write_groups(case, threads, progress, shard, &folder)
-            .map_err(|e| shard_failure(e, shard))?;
-    if !quiet {
-        console::ensemble_shard_summary(case, &parts, shard, progress, started.elapsed());
-    }
-    Ok(())
 }
 
 /// How a shard's failure exits: a failed write is an output failure, the engine's its own.
